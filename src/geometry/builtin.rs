@@ -1,0 +1,1 @@
+//! Built-in parametric shapes (stub, being written).

@@ -1,0 +1,1 @@
+//! Mask images (stub, being written).

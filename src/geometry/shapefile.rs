@@ -1,0 +1,1 @@
+//! Shape files (stub, being written).
