@@ -20,5 +20,6 @@ pub mod post;
 pub mod report;
 pub mod solver;
 pub mod units;
+pub mod verify;
 
 pub use error::{Error, Result};

@@ -1,1 +1,385 @@
-fn main() {}
+//! The `canalis` binary: parses arguments into a validated configuration, calls the library,
+//! prints, and maps the outcome to an exit code (0 success, 1 a run that could not finish,
+//! 2 bad input or usage).
+
+use canalis::error::Error;
+use canalis::geometry::builtin;
+use canalis::geometry::mask::{FluidColour, MaskOptions};
+use canalis::pipeline::{
+    self, Drive, FluidSpec, Input, Method, OperatingSpec, SolveConfig, DEFAULT_CELLS,
+};
+use canalis::{report, units, verify};
+use clap::{Parser, Subcommand, ValueEnum};
+use std::io::Write;
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+
+#[derive(Parser)]
+#[command(
+    name = "canalis",
+    version,
+    about = "Fully developed laminar flow in ducts of any cross-section: f·Re, hydraulic \
+             diameter, wall shear",
+    after_help = "Results are for fully developed laminar flow of a Newtonian fluid with \
+                  constant properties; they do not replace local codes or licensed engineering \
+                  practice."
+)]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand)]
+enum Command {
+    /// Solve one cross-section and report.
+    Solve(SolveArgs),
+    /// List the built-in parametric shapes and their parameters.
+    Shapes,
+    /// Run the built-in verification cases against exact solutions.
+    Verify {
+        /// Grid cells across the longer side of each case.
+        #[arg(long, default_value_t = DEFAULT_CELLS)]
+        cells: usize,
+    },
+}
+
+#[derive(Clone, Copy, ValueEnum)]
+enum MaskFluid {
+    Dark,
+    Light,
+}
+
+#[derive(Clone, Copy, ValueEnum)]
+enum MethodArg {
+    /// Conjugate gradient with Jacobi preconditioning.
+    Jacobi,
+    /// Plain conjugate gradient (for checking).
+    Plain,
+}
+
+#[derive(clap::Args)]
+struct SolveArgs {
+    /// The cross-section: a shape file (*.toml), a mask image (*.png, *.bmp, *.tif) or a
+    /// built-in shape such as circle:d=8mm (see `canalis shapes`).
+    shape: String,
+    /// Grid cells across the longer side of the bounding box [default: 400]. Ignored for
+    /// masks, whose grid is the pixel grid.
+    #[arg(long)]
+    cells: Option<usize>,
+    /// Print exactly one JSON object (the report) on standard output.
+    #[arg(long)]
+    json: bool,
+    /// Write the report (report.json) into this directory (created if missing).
+    #[arg(long, value_name = "DIR")]
+    out: Option<PathBuf>,
+    /// Overwrite existing files in --out.
+    #[arg(long)]
+    force: bool,
+    /// Pressure gradient −dp/dz, Pa/m (positive: pressure falling along the flow), e.g.
+    /// 1200 or 1.2kPa/m.
+    #[arg(long, value_name = "VALUE", conflicts_with = "flow")]
+    dpdx: Option<String>,
+    /// Volumetric flow rate, e.g. 2L/min, 1e-5m3/s, 30mL/min, 0.5gpm.
+    #[arg(long, value_name = "VALUE")]
+    flow: Option<String>,
+    /// Dynamic viscosity, Pa·s (also mPa.s, cP).
+    #[arg(long, value_name = "VALUE", conflicts_with = "fluid")]
+    viscosity: Option<String>,
+    /// Density, kg/m³.
+    #[arg(long, value_name = "VALUE", conflicts_with = "fluid")]
+    density: Option<String>,
+    /// A named fluid with a property model: water.
+    #[arg(long, value_name = "NAME")]
+    fluid: Option<String>,
+    /// Temperature of a named fluid, e.g. 40C or 313.15K (a bare number is °C).
+    #[arg(long, value_name = "T", requires = "fluid")]
+    temperature: Option<String>,
+    /// Which pixels of a mask are fluid.
+    #[arg(long, value_enum, default_value = "dark")]
+    mask_fluid: MaskFluid,
+    /// Grey-level threshold of a mask (0..255).
+    #[arg(long, default_value_t = 128)]
+    threshold: u8,
+    /// Physical size of one mask pixel, e.g. 0.02mm.
+    #[arg(long, value_name = "SIZE")]
+    pixel: Option<String>,
+    /// Preconditioner of the conjugate gradient.
+    #[arg(long, value_enum, default_value = "jacobi")]
+    method: MethodArg,
+    /// Largest estimated memory a solve may use, e.g. 4GiB, 512MiB [default: 4GiB].
+    #[arg(long, value_name = "SIZE")]
+    max_memory: Option<String>,
+    /// Print nothing but the result (no progress).
+    #[arg(long)]
+    quiet: bool,
+}
+
+fn parse_bytes(text: &str) -> Result<u64, Error> {
+    let t = text.trim();
+    let split = t
+        .find(|c: char| !(c.is_ascii_digit() || c == '.'))
+        .unwrap_or(t.len());
+    let (num, unit) = t.split_at(split);
+    let v: f64 = num
+        .parse()
+        .map_err(|_| Error::param("--max-memory", format!("'{text}' is not a size")))?;
+    let f = match unit.trim() {
+        "" | "B" => 1.0,
+        "KiB" | "K" | "kB" => 1024.0,
+        "MiB" | "M" | "MB" => 1024.0 * 1024.0,
+        "GiB" | "G" | "GB" => 1024.0 * 1024.0 * 1024.0,
+        u => {
+            return Err(Error::param(
+                "--max-memory",
+                format!("unknown unit '{u}' (use B, KiB, MiB, GiB)"),
+            ))
+        }
+    };
+    Ok((v * f) as u64)
+}
+
+/// Raw arguments → validated configuration.
+fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
+    let lower = a.shape.to_ascii_lowercase();
+    let ext = Path::new(&lower)
+        .extension()
+        .and_then(|e| e.to_str())
+        .unwrap_or("");
+    let input = if builtin::looks_like_builtin(&a.shape) {
+        Input::Builtin(a.shape.clone())
+    } else if ext == "toml" {
+        Input::ShapeFile(PathBuf::from(&a.shape))
+    } else if matches!(ext, "png" | "bmp" | "tif" | "tiff") {
+        let pixel = a.pixel.as_deref().ok_or_else(|| {
+            Error::param(
+                "--pixel",
+                format!(
+                    "a mask image needs the physical size of one pixel, e.g. --pixel 0.02mm ({})",
+                    a.shape
+                ),
+            )
+        })?;
+        let pixel = units::parse_length(pixel, "--pixel")?;
+        if !(pixel > 0.0) {
+            return Err(Error::param("--pixel", "must be a positive length"));
+        }
+        Input::Mask {
+            path: PathBuf::from(&a.shape),
+            options: MaskOptions {
+                fluid: match a.mask_fluid {
+                    MaskFluid::Dark => FluidColour::Dark,
+                    MaskFluid::Light => FluidColour::Light,
+                },
+                threshold: a.threshold,
+                pixel,
+            },
+        }
+    } else if ext == "svg" {
+        return Err(Error::param(
+            "SHAPE",
+            format!(
+                "{}: SVG drawings are not supported yet; use a shape file (*.toml) or a mask image",
+                a.shape
+            ),
+        ));
+    } else if a.shape.contains(':') && !Path::new(&a.shape).exists() {
+        // Looks like a built-in spec with an unknown name: let the parser say which names exist.
+        Input::Builtin(a.shape.clone())
+    } else {
+        return Err(Error::param(
+            "SHAPE",
+            format!(
+                "'{}' is neither a shape file (*.toml), a mask image (*.png, *.bmp, *.tif) nor a \
+                 built-in shape (see `canalis shapes`)",
+                a.shape
+            ),
+        ));
+    };
+    let mut c = SolveConfig::new(input);
+    c.cells = a.cells;
+    c.unit.method = match a.method {
+        MethodArg::Jacobi => Method::Jacobi,
+        MethodArg::Plain => Method::Plain,
+    };
+    if let Some(m) = &a.max_memory {
+        c.memory_limit = parse_bytes(m)?;
+    }
+    let drive = match (&a.dpdx, &a.flow) {
+        (Some(g), _) => Some(Drive::PressureGradient(units::parse_pressure_gradient(
+            g, "--dpdx",
+        )?)),
+        (None, Some(q)) => Some(Drive::FlowRate(units::parse_flow_rate(q, "--flow")?)),
+        (None, None) => None,
+    };
+    let fluid = match (&a.fluid, &a.viscosity, &a.density) {
+        (Some(name), _, _) => Some(FluidSpec::Named {
+            name: name.clone(),
+            temperature_k: a
+                .temperature
+                .as_deref()
+                .map(|t| units::parse_temperature(t, "--temperature"))
+                .transpose()?,
+        }),
+        (None, Some(mu), Some(rho)) => Some(FluidSpec::Given {
+            viscosity: units::parse_viscosity(mu, "--viscosity")?,
+            density: units::parse_density(rho, "--density")?,
+        }),
+        (None, Some(_), None) => {
+            return Err(Error::param(
+                "--density",
+                "--viscosity needs --density as well (the Reynolds number needs both)",
+            ))
+        }
+        (None, None, Some(_)) => {
+            return Err(Error::param(
+                "--viscosity",
+                "--density needs --viscosity as well",
+            ))
+        }
+        (None, None, None) => None,
+    };
+    c.operating = match (drive, fluid) {
+        (Some(drive), Some(fluid)) => Some(OperatingSpec { drive, fluid }),
+        (Some(_), None) => {
+            return Err(Error::param(
+                "--fluid",
+                "an operating point needs a fluid: --fluid water --temperature T, or \
+                 --viscosity and --density",
+            ))
+        }
+        (None, Some(_)) => {
+            return Err(Error::param(
+                "--dpdx",
+                "a fluid was given without an operating point: add --dpdx or --flow",
+            ))
+        }
+        (None, None) => None,
+    };
+    Ok(c)
+}
+
+fn write_new(path: &Path, text: &str, force: bool) -> Result<(), Error> {
+    if path.exists() && !force {
+        return Err(Error::param(
+            "--out",
+            format!(
+                "{} already exists; not overwritten (use --force to replace it)",
+                path.display()
+            ),
+        ));
+    }
+    std::fs::write(path, text).map_err(|source| Error::Io {
+        path: path.to_path_buf(),
+        source,
+    })
+}
+
+fn solve(a: &SolveArgs) -> Result<(), Error> {
+    let cfg = config(a)?;
+    if let Some(dir) = &a.out {
+        // Check before the solve, so a long run is not wasted on a file in the way.
+        let target = dir.join("report.json");
+        if target.exists() && !a.force {
+            return Err(Error::param(
+                "--out",
+                format!(
+                    "{} already exists; not overwritten (use --force to replace it)",
+                    target.display()
+                ),
+            ));
+        }
+    }
+    if !a.json && !a.quiet {
+        eprintln!("solving {} ...", a.shape);
+    }
+    let outcome = pipeline::run(&cfg)?;
+    let json = report::json_report(&outcome);
+    let text = serde_json::to_string_pretty(&json).unwrap_or_default();
+    if let Some(dir) = &a.out {
+        std::fs::create_dir_all(dir).map_err(|source| Error::Io {
+            path: dir.clone(),
+            source,
+        })?;
+        write_new(&dir.join("report.json"), &text, a.force)?;
+    }
+    let mut out = std::io::stdout().lock();
+    if a.json {
+        let _ = writeln!(out, "{text}");
+    } else {
+        let _ = write!(out, "{}", report::summary(&outcome));
+    }
+    Ok(())
+}
+
+fn shapes() {
+    println!("Built-in shapes, written name:key=value,... (lengths take m, mm, um, in):");
+    for s in builtin::catalogue() {
+        println!();
+        println!("  {:<10}{}", s.name, s.description);
+        for (k, meaning) in s.params {
+            println!("      {k:<12}{meaning}");
+        }
+        println!("      example     {}", s.example);
+    }
+}
+
+fn run_verify(cells: usize) -> Result<bool, Error> {
+    if !(8..=4096).contains(&cells) {
+        return Err(Error::param("--cells", "use between 8 and 4096 cells"));
+    }
+    let checks = verify::run(cells)?;
+    println!(
+        "Verification at {cells} cells across (exact solutions of fully developed laminar flow)"
+    );
+    println!(
+        "{:<28} {:<32} {:>14} {:>14} {:>10} {:>9}  result",
+        "case", "quantity", "value", "reference", "error", "limit"
+    );
+    let mut all = true;
+    for c in &checks {
+        all &= c.passed();
+        println!(
+            "{:<28} {:<32} {:>14.8} {:>14.8} {:>10.2e} {:>9.1e}  {}",
+            c.case,
+            c.quantity,
+            c.value,
+            c.reference,
+            c.error,
+            c.tolerance,
+            if c.passed() { "pass" } else { "FAIL" }
+        );
+    }
+    let passed = checks.iter().filter(|c| c.passed()).count();
+    println!("{passed} of {} checks passed", checks.len());
+    Ok(all)
+}
+
+fn main() -> ExitCode {
+    let cli = match Cli::try_parse() {
+        Ok(c) => c,
+        Err(e) => {
+            let _ = e.print();
+            return if e.use_stderr() {
+                ExitCode::from(2)
+            } else {
+                ExitCode::SUCCESS
+            };
+        }
+    };
+    let result = match &cli.command {
+        Command::Solve(a) => solve(a).map(|_| true),
+        Command::Shapes => {
+            shapes();
+            Ok(true)
+        }
+        Command::Verify { cells } => run_verify(*cells),
+    };
+    match result {
+        Ok(true) => ExitCode::SUCCESS,
+        Ok(false) => ExitCode::from(1),
+        Err(e) => {
+            eprintln!("error: {e}");
+            ExitCode::from(if e.is_input_error() { 2 } else { 1 })
+        }
+    }
+}

@@ -3,12 +3,17 @@
 //! Owns: [`solve_unit`], which reads like the algorithm, and (in `config`) the validated
 //! configuration of a `solve` run and its outcome. Does not parse arguments or print.
 
-use crate::error::Result;
+use crate::error::{Error, Result};
+use crate::fluids::{self, FluidProperties};
+use crate::geometry::builtin::parse_builtin;
+use crate::geometry::mask::{Mask, MaskOptions};
+use crate::geometry::shapefile::load_shape_file;
 use crate::geometry::{Domain, Walls};
 use crate::grid::{classify, Classified, Grid};
 use crate::operator::{assemble, unit_rhs, Numbering};
 use crate::post::{self, Figures, ShearSample};
 use crate::solver::{pcg, CgInfo, CgParams, Identity, Jacobi, LinearOperator, Preconditioner};
+use std::path::PathBuf;
 use std::time::Instant;
 
 /// Which preconditioner the conjugate gradient uses.
@@ -60,6 +65,8 @@ pub struct UnitSolution {
     pub shear: Vec<ShearSample>,
     pub figures: Figures,
     pub info: CgInfo,
+    /// Name of the solver method used.
+    pub method_name: &'static str,
     pub seconds: Timings,
 }
 
@@ -122,11 +129,296 @@ pub fn solve_unit(
         shear,
         figures,
         info,
+        method_name: method.name(),
         seconds: Timings {
             grid: (t1 - t0).as_secs_f64(),
             assembly: (t2 - t1).as_secs_f64(),
             solve: (t3 - t2).as_secs_f64(),
             post: (t4 - t3).as_secs_f64(),
         },
+    })
+}
+
+// ---------------------------------------------------------------------------------------------
+// A whole `solve` run: validated configuration in, outcome out.
+
+/// Where the cross-section comes from.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Input {
+    /// A TOML shape file.
+    ShapeFile(PathBuf),
+    /// A built-in parametric shape, `name:key=value,...`.
+    Builtin(String),
+    /// A mask image.
+    Mask { path: PathBuf, options: MaskOptions },
+}
+
+/// What drives the flow.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Drive {
+    /// G = −dp/dz in Pa/m (positive: pressure falls along the flow).
+    PressureGradient(f64),
+    /// Volumetric flow rate, m³/s.
+    FlowRate(f64),
+}
+
+/// The fluid of an operating point.
+#[derive(Debug, Clone, PartialEq)]
+pub enum FluidSpec {
+    /// Constant properties given by the user.
+    Given { viscosity: f64, density: f64 },
+    /// A property model by name, at a temperature (kelvin).
+    Named {
+        name: String,
+        temperature_k: Option<f64>,
+    },
+}
+
+/// An operating point: a drive and a fluid.
+#[derive(Debug, Clone, PartialEq)]
+pub struct OperatingSpec {
+    pub drive: Drive,
+    pub fluid: FluidSpec,
+}
+
+/// Default number of cells across the longer side of the bounding box.
+pub const DEFAULT_CELLS: usize = 400;
+/// Default limit on the estimated memory of a solve.
+pub const DEFAULT_MEMORY_LIMIT: u64 = 4 << 30;
+/// Estimated bytes per grid node (classification, numbering, matrix, solver vectors; measured
+/// peak is lower, this errs on the safe side).
+const BYTES_PER_NODE: u64 = 260;
+/// Fewest fluid nodes a solve accepts: below this no figure would be trustworthy.
+const MIN_FLUID_NODES: usize = 50;
+
+/// A validated `solve` configuration.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SolveConfig {
+    pub input: Input,
+    /// Cells across the longer side; None = [`DEFAULT_CELLS`] (ignored for masks, whose grid
+    /// is the pixel grid).
+    pub cells: Option<usize>,
+    pub unit: UnitOptions,
+    pub operating: Option<OperatingSpec>,
+    /// Refuse grids whose estimated memory exceeds this many bytes.
+    pub memory_limit: u64,
+}
+
+impl SolveConfig {
+    pub fn new(input: Input) -> SolveConfig {
+        SolveConfig {
+            input,
+            cells: None,
+            unit: UnitOptions::default(),
+            operating: None,
+            memory_limit: DEFAULT_MEMORY_LIMIT,
+        }
+    }
+}
+
+/// Dimensional results at an operating point.
+#[derive(Debug, Clone, PartialEq)]
+pub struct OperatingResult {
+    pub fluid: FluidProperties,
+    pub flow_rate_m3_s: f64,
+    pub pressure_gradient_pa_m: f64,
+    pub mean_velocity_m_s: f64,
+    pub max_velocity_m_s: f64,
+    pub reynolds: f64,
+    pub wall_shear_mean_pa: f64,
+    pub wall_shear_max_pa: f64,
+    pub wall_shear_min_pa: f64,
+}
+
+/// Everything a `solve` run produced.
+#[derive(Debug, Clone)]
+pub struct Outcome {
+    /// A label for the cross-section.
+    pub name: String,
+    pub unit: UnitSolution,
+    pub operating: Option<OperatingResult>,
+    pub warnings: Vec<String>,
+    pub seconds: f64,
+}
+
+/// Laminar limit used for the warning (the usual transition near Re ≈ 2300 in round pipes,
+/// common practice, no source; warned from 2000 to leave a margin).
+pub const LAMINAR_WARNING_RE: f64 = 2000.0;
+
+/// Runs a whole `solve`: load the cross-section, lay the grid, solve, post-process, and
+/// evaluate the operating point.
+pub fn run(config: &SolveConfig) -> Result<Outcome> {
+    let start = Instant::now();
+    let mut warnings = Vec::new();
+    let (name, domain, exact_wall): (String, Box<dyn Domain>, bool) = match &config.input {
+        Input::ShapeFile(path) => {
+            let shape = load_shape_file(path)?;
+            let name = shape
+                .name
+                .clone()
+                .unwrap_or_else(|| path.display().to_string());
+            (name, Box::new(shape), true)
+        }
+        Input::Builtin(spec) => {
+            let shape = parse_builtin(spec)?;
+            let name = shape.name.clone().unwrap_or_else(|| spec.clone());
+            (name, Box::new(shape), true)
+        }
+        Input::Mask { path, options } => {
+            let (mask, w) = Mask::load(path, options)?;
+            warnings.extend(w);
+            warnings.push(
+                "mask input: the walls are the pixel faces (a staircase); the perimeter is a \
+                 sub-pixel contour estimate and the local wall shear is approximate"
+                    .to_string(),
+            );
+            (path.display().to_string(), Box::new(mask), false)
+        }
+    };
+    let grid = match domain.lattice() {
+        Some(l) => {
+            if config.cells.is_some() {
+                warnings.push(
+                    "--cells is ignored for a mask: the grid is the image's pixel grid".into(),
+                );
+            }
+            Grid::from_lattice(l)
+        }
+        None => {
+            let cells = config.cells.unwrap_or(DEFAULT_CELLS);
+            if cells < 8 {
+                return Err(Error::param(
+                    "--cells",
+                    format!(
+                        "{cells} is too small; use at least 8 (the default is {DEFAULT_CELLS})"
+                    ),
+                ));
+            }
+            let (lo, hi) = domain.bbox();
+            Grid::covering(lo, hi, cells)
+        }
+    };
+    let bytes = grid.len() as u64 * BYTES_PER_NODE;
+    if bytes > config.memory_limit {
+        return Err(Error::param(
+            "--cells",
+            format!(
+                "a {} × {} grid needs an estimated {:.1} GiB, above the limit of {:.1} GiB; \
+                 use fewer cells or raise the limit with --max-memory",
+                grid.nx,
+                grid.ny,
+                bytes as f64 / (1u64 << 30) as f64,
+                config.memory_limit as f64 / (1u64 << 30) as f64
+            ),
+        ));
+    }
+    let unit = solve_unit(domain.as_ref(), grid, exact_wall, &config.unit)?;
+    let fluid_nodes = unit.numbering.len();
+    if fluid_nodes < MIN_FLUID_NODES {
+        return Err(Error::param(
+            "--cells",
+            format!(
+                "only {fluid_nodes} grid nodes fall in the fluid, too few to resolve the \
+                 cross-section; raise --cells"
+            ),
+        ));
+    }
+    let unresolved = unit.shear.iter().filter(|s| !s.tau.is_finite()).count();
+    if unresolved > 0 {
+        warnings.push(format!(
+            "{unresolved} of {} wall samples have no fluid node near them (a passage or gap \
+             narrower than the grid spacing {:.3e} m); raise --cells",
+            unit.shear.len(),
+            grid.h
+        ));
+    }
+    let operating = match &config.operating {
+        None => None,
+        Some(spec) => Some(operating_point(&unit.figures, spec, &mut warnings)?),
+    };
+    Ok(Outcome {
+        name,
+        unit,
+        operating,
+        warnings,
+        seconds: start.elapsed().as_secs_f64(),
+    })
+}
+
+/// Scales the unit solution to an operating point: u = (G/μ)·ũ, Q = (G/μ)·I, τ = G·τ̃.
+pub fn operating_point(
+    f: &Figures,
+    spec: &OperatingSpec,
+    warnings: &mut Vec<String>,
+) -> Result<OperatingResult> {
+    let fluid = match &spec.fluid {
+        FluidSpec::Given { viscosity, density } => {
+            if !(viscosity.is_finite() && *viscosity > 0.0) {
+                return Err(Error::param(
+                    "--viscosity",
+                    "must be a positive number (Pa·s)",
+                ));
+            }
+            if !(density.is_finite() && *density > 0.0) {
+                return Err(Error::param(
+                    "--density",
+                    "must be a positive number (kg/m³)",
+                ));
+            }
+            FluidProperties {
+                name: "user-defined fluid".into(),
+                viscosity_pa_s: *viscosity,
+                density_kg_m3: *density,
+                temperature_k: None,
+                source: "given on the command line".into(),
+            }
+        }
+        FluidSpec::Named {
+            name,
+            temperature_k,
+        } => {
+            let (props, w) = fluids::by_name(name, *temperature_k)?;
+            warnings.extend(w);
+            props
+        }
+    };
+    let mu = fluid.viscosity_pa_s;
+    let (g, q) = match spec.drive {
+        Drive::PressureGradient(g) => {
+            if !(g.is_finite() && g > 0.0) {
+                return Err(Error::param(
+                    "--dpdx",
+                    "must be a positive number (Pa/m, pressure falling along the flow)",
+                ));
+            }
+            (g, g * f.flow_integral / mu)
+        }
+        Drive::FlowRate(q) => {
+            if !(q.is_finite() && q > 0.0) {
+                return Err(Error::param("--flow", "must be a positive flow rate"));
+            }
+            (q * mu / f.flow_integral, q)
+        }
+    };
+    let mean = q / f.area;
+    let re = fluid.density_kg_m3 * mean * f.hydraulic_diameter / mu;
+    if re > LAMINAR_WARNING_RE {
+        warnings.push(format!(
+            "Reynolds number {re:.0} is above {LAMINAR_WARNING_RE:.0}: the flow may not be \
+             laminar (transition is usual near Re ≈ 2300 in round pipes, earlier in ducts with \
+             sharp corners or disturbed inlets); these fully developed laminar results then \
+             understate the pressure drop and wall shear"
+        ));
+    }
+    Ok(OperatingResult {
+        flow_rate_m3_s: q,
+        pressure_gradient_pa_m: g,
+        mean_velocity_m_s: mean,
+        max_velocity_m_s: g / mu * f.max_velocity,
+        reynolds: re,
+        wall_shear_mean_pa: g * f.wall_shear_mean,
+        wall_shear_max_pa: g * f.wall_shear_mean * f.wall_shear_max_to_mean,
+        wall_shear_min_pa: g * f.wall_shear_mean * f.wall_shear_min_to_mean,
+        fluid,
     })
 }

@@ -1,1 +1,254 @@
-//! stub
+//! Output formats: the JSON report object and the human-readable summary.
+//!
+//! Owns: the report keys of ../shared/INTERFACE.md and the layout of the text summary. Both are
+//! consumers of the same [`Outcome`]; nothing here computes physics.
+
+use crate::pipeline::Outcome;
+use serde_json::{json, Map, Value};
+
+/// The cautions every human-readable summary ends with.
+pub const CAUTION: &str = "Fully developed laminar flow of a Newtonian fluid with constant \
+properties; entrance effects, transition to turbulence, roughness and heating are not modelled. \
+Not a substitute for local codes and licensed engineering practice: pressure containment and \
+coolant temperatures must be checked by a qualified engineer.";
+
+/// The report object (`--json`), all values in SI units.
+pub fn json_report(o: &Outcome) -> Value {
+    let f = &o.unit.figures;
+    let g = &o.unit.classified.grid;
+    let mut m = Map::new();
+    m.insert("shape".into(), json!(o.name));
+    m.insert("area_m2".into(), json!(f.area));
+    m.insert("perimeter_m".into(), json!(f.perimeter));
+    m.insert("hydraulic_diameter_m".into(), json!(f.hydraulic_diameter));
+    m.insert("fanning_f_re".into(), json!(f.fanning_f_re));
+    m.insert("darcy_f_re".into(), json!(4.0 * f.fanning_f_re));
+    m.insert("max_to_mean_velocity".into(), json!(f.max_to_mean_velocity));
+    m.insert(
+        "wall_shear_max_to_mean".into(),
+        finite(f.wall_shear_max_to_mean),
+    );
+    m.insert(
+        "wall_shear_min_to_mean".into(),
+        finite(f.wall_shear_min_to_mean),
+    );
+    m.insert(
+        "force_balance_rel_error".into(),
+        finite(f.force_balance_rel_error),
+    );
+    m.insert(
+        "grid".into(),
+        json!({
+            "cells_x": g.nx,
+            "cells_y": g.ny,
+            "unknowns": o.unit.numbering.len(),
+            "spacing_m": g.h,
+        }),
+    );
+    m.insert(
+        "solver".into(),
+        json!({
+            "method": o.unit.method_name,
+            "iterations": o.unit.info.iterations,
+            "relative_residual": o.unit.info.relative_residual,
+            "seconds": o.seconds,
+        }),
+    );
+    if let Some(op) = &o.operating {
+        m.insert("flow_rate_m3_s".into(), json!(op.flow_rate_m3_s));
+        m.insert(
+            "pressure_gradient_pa_m".into(),
+            json!(op.pressure_gradient_pa_m),
+        );
+        m.insert("mean_velocity_m_s".into(), json!(op.mean_velocity_m_s));
+        m.insert("max_velocity_m_s".into(), json!(op.max_velocity_m_s));
+        m.insert("reynolds".into(), json!(op.reynolds));
+        m.insert("wall_shear_mean_pa".into(), finite(op.wall_shear_mean_pa));
+        m.insert("wall_shear_max_pa".into(), finite(op.wall_shear_max_pa));
+        m.insert("wall_shear_min_pa".into(), finite(op.wall_shear_min_pa));
+        m.insert(
+            "fluid".into(),
+            json!({
+                "name": op.fluid.name,
+                "viscosity_pa_s": op.fluid.viscosity_pa_s,
+                "density_kg_m3": op.fluid.density_kg_m3,
+                "temperature_k": op.fluid.temperature_k,
+                "source": op.fluid.source,
+            }),
+        );
+    }
+    m.insert("warnings".into(), json!(o.warnings));
+    Value::Object(m)
+}
+
+/// JSON has no NaN: a quantity that could not be evaluated is null.
+fn finite(v: f64) -> Value {
+    if v.is_finite() {
+        json!(v)
+    } else {
+        Value::Null
+    }
+}
+
+/// A number with `n` significant digits, in plain notation where that stays readable.
+fn sig(v: f64, n: usize) -> String {
+    if v == 0.0 || !v.is_finite() {
+        return format!("{v}");
+    }
+    let mag = v.abs().log10().floor() as i32;
+    if (-3..6).contains(&mag) {
+        let decimals = (n as i32 - 1 - mag).max(0) as usize;
+        format!("{v:.decimals$}")
+    } else {
+        format!("{v:.prec$e}", prec = n - 1)
+    }
+}
+
+/// A length with a unit that suits its size.
+fn length(v: f64) -> String {
+    let a = v.abs();
+    if a >= 1.0 {
+        format!("{v:.5} m")
+    } else if a >= 1e-3 {
+        format!("{:.5} mm", v * 1e3)
+    } else {
+        format!("{:.5} µm", v * 1e6)
+    }
+}
+
+fn area(v: f64) -> String {
+    if v >= 1.0 {
+        format!("{v:.6} m²")
+    } else if v >= 1e-6 {
+        format!("{:.6} mm²", v * 1e6)
+    } else {
+        format!("{:.6} µm²", v * 1e12)
+    }
+}
+
+/// The compact human-readable summary.
+pub fn summary(o: &Outcome) -> String {
+    use std::fmt::Write;
+    let f = &o.unit.figures;
+    let g = &o.unit.classified.grid;
+    let mut s = String::new();
+    let line = |s: &mut String, k: &str, v: String| {
+        let _ = writeln!(s, "  {k:<26}{v}");
+    };
+    let _ = writeln!(s, "canalis: {}", o.name);
+    line(
+        &mut s,
+        "grid",
+        format!(
+            "{} × {} nodes, spacing {}, {} unknowns",
+            g.nx,
+            g.ny,
+            length(g.h),
+            o.unit.numbering.len()
+        ),
+    );
+    line(
+        &mut s,
+        "solver",
+        format!(
+            "{}, {} iterations, residual {:.1e}, {:.2} s",
+            o.unit.method_name, o.unit.info.iterations, o.unit.info.relative_residual, o.seconds
+        ),
+    );
+    let _ = writeln!(s, "Cross-section");
+    line(&mut s, "area", area(f.area));
+    line(&mut s, "wetted perimeter", length(f.perimeter));
+    line(&mut s, "hydraulic diameter", length(f.hydraulic_diameter));
+    let _ = writeln!(s, "Friction (laminar, fully developed)");
+    line(&mut s, "f·Re, Fanning", format!("{:.5}", f.fanning_f_re));
+    line(
+        &mut s,
+        "f·Re, Darcy",
+        format!("{:.5}", 4.0 * f.fanning_f_re),
+    );
+    line(
+        &mut s,
+        "u_max / u_mean",
+        format!("{:.5}", f.max_to_mean_velocity),
+    );
+    let _ = writeln!(s, "Wall shear");
+    line(
+        &mut s,
+        "max / mean",
+        format!("{:.5}", f.wall_shear_max_to_mean),
+    );
+    line(
+        &mut s,
+        "min / mean",
+        format!("{:.5}", f.wall_shear_min_to_mean),
+    );
+    line(
+        &mut s,
+        "force balance error",
+        format!("{:.1e} (self-check)", f.force_balance_rel_error),
+    );
+    if let Some(op) = &o.operating {
+        let fl = &op.fluid;
+        let t = fl
+            .temperature_k
+            .map(|t| format!(" at {:.1} °C", t - 273.15))
+            .unwrap_or_default();
+        let _ = writeln!(s, "Operating point: {}{t}", fl.name);
+        line(
+            &mut s,
+            "viscosity, density",
+            format!(
+                "{} Pa·s, {} kg/m³",
+                sig(fl.viscosity_pa_s, 5),
+                sig(fl.density_kg_m3, 6)
+            ),
+        );
+        line(
+            &mut s,
+            "flow rate",
+            format!(
+                "{} L/min ({:.4e} m³/s)",
+                sig(op.flow_rate_m3_s * 6e4, 5),
+                op.flow_rate_m3_s
+            ),
+        );
+        line(
+            &mut s,
+            "pressure gradient",
+            format!(
+                "{} Pa/m ({} bar per metre)",
+                sig(op.pressure_gradient_pa_m, 5),
+                sig(op.pressure_gradient_pa_m * 1e-5, 4)
+            ),
+        );
+        line(
+            &mut s,
+            "mean velocity",
+            format!("{} m/s", sig(op.mean_velocity_m_s, 5)),
+        );
+        line(
+            &mut s,
+            "max velocity",
+            format!("{} m/s", sig(op.max_velocity_m_s, 5)),
+        );
+        line(&mut s, "Reynolds number", format!("{:.1}", op.reynolds));
+        line(
+            &mut s,
+            "wall shear mean/max/min",
+            format!(
+                "{} / {} / {} Pa",
+                sig(op.wall_shear_mean_pa, 5),
+                sig(op.wall_shear_max_pa, 5),
+                sig(op.wall_shear_min_pa, 5)
+            ),
+        );
+    }
+    if !o.warnings.is_empty() {
+        let _ = writeln!(s, "Warnings");
+        for w in &o.warnings {
+            let _ = writeln!(s, "  - {w}");
+        }
+    }
+    let _ = writeln!(s, "Note: {CAUTION}");
+    s
+}

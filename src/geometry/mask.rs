@@ -807,3 +807,436 @@ impl Domain for Mask {
         })
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use std::f64::consts::PI;
+
+    /// Binary disc of diameter `d` pixels (pixel centre inside ⇒ fluid), centre offset `off`
+    /// pixels from the middle of the image, pixel size 1 mm.
+    fn disc(d: f64, off: [f64; 2]) -> Mask {
+        let n = d.ceil() as usize + 8;
+        let c = [0.5 * n as f64 + off[0], 0.5 * n as f64 + off[1]];
+        let r2 = 0.25 * d * d;
+        Mask::from_fn(n, n, 1e-3, |col, row| {
+            let x = col as f64 + 0.5 - c[0];
+            let y = (n - 1 - row) as f64 + 0.5 - c[1];
+            x * x + y * y < r2
+        })
+        .unwrap()
+        .0
+    }
+
+    /// Binary square of `side` pixels turned by `deg` degrees, centre offset `off`.
+    fn square(side: f64, deg: f64, off: [f64; 2]) -> Mask {
+        let n = (side * 1.5).ceil() as usize + 8;
+        let c = [0.5 * n as f64 + off[0], 0.5 * n as f64 + off[1]];
+        let (s, co) = deg.to_radians().sin_cos();
+        Mask::from_fn(n, n, 1e-3, |col, row| {
+            let x = col as f64 + 0.5 - c[0];
+            let y = (n - 1 - row) as f64 + 0.5 - c[1];
+            let u = co * x + s * y;
+            let v = -s * x + co * y;
+            u.abs() < 0.5 * side && v.abs() < 0.5 * side
+        })
+        .unwrap()
+        .0
+    }
+
+    const OFFSETS: [[f64; 2]; 3] = [[0.0, 0.0], [0.31, 0.17], [0.5, 0.73]];
+
+    #[test]
+    fn disc_perimeter_within_one_percent() {
+        // Exact: P = π·d (common practice, no source). The Hagen–Poiseuille check case needs P to
+        // better than 1 % (common practice, no source).
+        let mut worst: f64 = 0.0;
+        for d in [100.0, 200.0, 400.0] {
+            for off in OFFSETS {
+                let m = disc(d, off);
+                let w = m.walls(m.pixel());
+                let err = w.perimeter / (PI * d * 1e-3) - 1.0;
+                eprintln!(
+                    "disc d = {d} px, offset {off:?}: perimeter error {:+.4} %",
+                    100.0 * err
+                );
+                assert_eq!(w.names, vec!["contour 1".to_string()]);
+                let sum: f64 = w.samples.iter().map(|s| s.ds).sum();
+                assert!((sum - w.perimeter).abs() < 1e-12 * w.perimeter);
+                assert!(err.abs() < 0.01, "d = {d}: {err}");
+                worst = worst.max(err.abs());
+            }
+        }
+        eprintln!("discs: worst perimeter error {:.4} %", 100.0 * worst);
+        assert!(worst < 0.003, "worst {worst}");
+    }
+
+    #[test]
+    fn square_perimeter_within_one_percent() {
+        // Exact: P = 4·side (common practice, no source).
+        for side in [100.0, 200.0] {
+            for deg in [0.0, 30.0, 45.0, 10.0] {
+                for off in OFFSETS {
+                    let m = square(side, deg, off);
+                    let w = m.walls(m.pixel());
+                    let err = w.perimeter / (4.0 * side * 1e-3) - 1.0;
+                    eprintln!(
+                        "square {side} px at {deg}°, offset {off:?}: perimeter error {:+.4} %",
+                        100.0 * err
+                    );
+                    assert!(err.abs() < 0.01, "side {side}, {deg}°: {err}");
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn ellipse_and_annulus_perimeters() {
+        // Ellipse a = 150, b = 75 px: Ramanujan's second approximation (from memory), far more
+        // accurate than needed here.
+        let (a, b) = (150.0, 75.0);
+        let n = 2 * a as usize + 8;
+        let m = Mask::from_fn(n, n, 1.0, |col, row| {
+            let x = col as f64 + 0.5 - 0.5 * n as f64 - 0.23;
+            let y = (n - 1 - row) as f64 + 0.5 - 0.5 * n as f64 - 0.41;
+            let (s, c) = 0.4f64.sin_cos();
+            let (u, v) = (c * x + s * y, -s * x + c * y);
+            (u / a).powi(2) + (v / b).powi(2) < 1.0
+        })
+        .unwrap()
+        .0;
+        let hh = ((a - b) / (a + b)).powi(2);
+        let ram = PI * (a + b) * (1.0 + 3.0 * hh / (10.0 + (4.0 - 3.0 * hh).sqrt()));
+        let err = m.walls(1.0).perimeter / ram - 1.0;
+        eprintln!(
+            "ellipse 300 × 150 px: perimeter error {:+.4} %",
+            100.0 * err
+        );
+        assert!(err.abs() < 0.01);
+
+        // Annulus do = 200, di = 100 px: P = π·(do + di) (common practice, no source); the hole
+        // is a second contour whose normals point out of the fluid, i.e. towards the centre.
+        let n = 210;
+        let c = 105.0;
+        let m = Mask::from_fn(n, n, 1.0, |col, row| {
+            let x = col as f64 + 0.5 - c;
+            let y = (n - 1 - row) as f64 + 0.5 - c;
+            let r2 = x * x + y * y;
+            r2 < 100.0 * 100.0 && r2 >= 50.0 * 50.0
+        })
+        .unwrap()
+        .0;
+        let w = m.walls(1.0);
+        assert_eq!(w.names, vec!["contour 1", "contour 2"]);
+        let err = w.perimeter / (PI * 300.0) - 1.0;
+        eprintln!("annulus 200/100 px: perimeter error {:+.4} %", 100.0 * err);
+        assert!(err.abs() < 0.01);
+        let mut len = [0.0; 2];
+        for s in &w.samples {
+            let r = [s.point[0] - c, s.point[1] - c];
+            let radial = (r[0] * s.normal[0] + r[1] * s.normal[1]) / r[0].hypot(r[1]);
+            let rad = r[0].hypot(r[1]);
+            if s.wall == 0 {
+                assert!(radial > 0.9, "{s:?}");
+                assert!((rad - 100.0).abs() < 0.75, "{s:?}");
+            } else {
+                assert!(radial < -0.9, "{s:?}");
+                assert!((rad - 50.0).abs() < 0.75, "{s:?}");
+            }
+            assert!((s.normal[0].hypot(s.normal[1]) - 1.0).abs() < 1e-12);
+            len[s.wall] += s.ds;
+        }
+        assert!((len[0] / (PI * 200.0) - 1.0).abs() < 0.01);
+        assert!((len[1] / (PI * 100.0) - 1.0).abs() < 0.01);
+        // Samples ordered by wall, then by arc length.
+        for pair in w.samples.windows(2) {
+            assert!(
+                pair[0].wall < pair[1].wall
+                    || (pair[0].wall == pair[1].wall && pair[0].s < pair[1].s)
+            );
+        }
+        assert_eq!(w.area, m.fluid_pixels() as f64);
+    }
+
+    #[test]
+    fn spacing_splits_faces() {
+        let m = disc(40.0, [0.2, 0.1]);
+        let coarse = m.walls(m.pixel());
+        let fine = m.walls(0.3 * m.pixel());
+        assert!(fine.samples.len() > 2 * coarse.samples.len());
+        assert!(fine
+            .samples
+            .iter()
+            .all(|s| s.ds <= 0.3 * m.pixel() * (1.0 + 1e-12)));
+        assert!((fine.perimeter - coarse.perimeter).abs() < 1e-12 * coarse.perimeter);
+        // A nonsensical spacing falls back to one sample per face.
+        assert_eq!(m.walls(f64::NAN).samples.len(), coarse.samples.len());
+    }
+
+    #[test]
+    fn thin_and_tiny_features_do_not_break() {
+        // A one-pixel-wide line of 50 pixels: P = 2·50 + 2 (common practice, no source).
+        let m = Mask::from_fn(60, 5, 1.0, |c, r| r == 2 && (5..55).contains(&c))
+            .unwrap()
+            .0;
+        let w = m.walls(1.0);
+        assert_eq!(w.names.len(), 1);
+        assert!((w.perimeter - 102.0).abs() < 0.5, "{}", w.perimeter);
+        // A diagonal line of single pixels touching at corners: separate pixels, each a square
+        // of perimeter 4.
+        let (m, warn) = Mask::from_fn(12, 12, 1.0, |c, r| c == r && c > 0 && c < 11).unwrap();
+        assert!(
+            warn.iter().any(|s| s.contains("touch only at a corner")),
+            "{warn:?}"
+        );
+        let w = m.walls(1.0);
+        assert_eq!(w.names.len(), 10);
+        assert!((w.perimeter - 40.0).abs() < 1e-9, "{}", w.perimeter);
+        // A one-pixel-wide diagonal band that is 4-connected (a staircase of width 1).
+        let m = Mask::from_fn(40, 40, 1.0, |c, r| c == r || c == r + 1)
+            .unwrap()
+            .0;
+        let w = m.walls(0.5);
+        assert_eq!(w.names.len(), 1);
+        assert!(w.perimeter.is_finite() && w.perimeter > 0.0);
+        // A checkerboard: every fluid pixel is its own contour.
+        let m = Mask::from_fn(9, 7, 1.0, |c, r| (c + r) % 2 == 0).unwrap().0;
+        let w = m.walls(1.0);
+        assert_eq!(w.names.len(), m.fluid_pixels());
+        assert!((w.perimeter - 4.0 * m.fluid_pixels() as f64).abs() < 1e-9);
+        // A single pixel filling the image.
+        let m = Mask::from_fn(1, 1, 2.0, |_, _| true).unwrap().0;
+        let w = m.walls(2.0);
+        assert!((w.perimeter - 8.0).abs() < 1e-12);
+        assert_eq!(w.area, 4.0);
+    }
+
+    #[test]
+    fn crossings_of_a_small_mask() {
+        // Pixel size 0.5; rows from the top (X = fluid):
+        //   row 0:  . X X . X      y in [1.0, 1.5]
+        //   row 1:  X X . . X      y in [0.5, 1.0]
+        //   row 2:  . . . . .      y in [0.0, 0.5]
+        let pattern = [".XX.X", "XX..X", "....."];
+        let m = Mask::from_fn(5, 3, 0.5, |c, r| pattern[r].as_bytes()[c] == b'X')
+            .unwrap()
+            .0;
+        let close = |a: Vec<f64>, b: &[f64]| {
+            a.len() == b.len() && a.iter().zip(b).all(|(x, y)| (x - y).abs() < 1e-12)
+        };
+        let c = m.wall_crossings([-1.0, 0.75], [1.0, 0.0]);
+        assert!(close(c.clone(), &[1.0, 2.0, 3.0, 3.5]), "{c:?}");
+        let c = m.wall_crossings([3.0, 0.75], [-1.0, 0.0]);
+        assert!(close(c.clone(), &[0.5, 1.0, 2.0, 3.0]), "{c:?}");
+        let c = m.wall_crossings([0.0, 1.25], [1.0, 0.0]);
+        assert!(close(c.clone(), &[0.5, 1.5, 2.0, 2.5]), "{c:?}");
+        let c = m.wall_crossings([0.75, -1.0], [0.0, 1.0]);
+        assert!(close(c.clone(), &[1.5, 2.5]), "{c:?}");
+        let c = m.wall_crossings([0.75, 2.0], [0.0, -1.0]);
+        assert!(close(c.clone(), &[0.5, 1.5]), "{c:?}");
+        // Column 4: fluid in rows 0 and 1, through the top border.
+        let c = m.wall_crossings([2.25, 0.0], [0.0, 1.0]);
+        assert!(close(c.clone(), &[0.5, 1.5]), "{c:?}");
+        // Lines missing the fluid or the image.
+        assert!(m.wall_crossings([0.0, 0.25], [1.0, 0.0]).is_empty());
+        assert!(m.wall_crossings([0.0, 2.0], [1.0, 0.0]).is_empty());
+        assert!(m.wall_crossings([-0.1, 0.0], [0.0, 1.0]).is_empty());
+        assert!(m.wall_crossings([f64::NAN, 0.0], [1.0, 0.0]).is_empty());
+        // A diagonal line (not asked for by the grid, but answered): from (0, 0.5) at 45° it
+        // passes pixels (col 0, row 1) fluid, then (col 1, row 0) at the corner (0.5, 1.0),
+        // fluid, and leaves the image at (1.0, 1.5).
+        let c = m.wall_crossings([0.0, 0.5], [1.0, 1.0]);
+        assert!(close(c.clone(), &[0.0, 1.0]), "{c:?}");
+        // Inside tests and the fluid box.
+        assert!(m.contains([0.25, 0.75]) && m.contains([2.4, 1.4]));
+        assert!(!m.contains([1.25, 0.75]) && !m.contains([-0.1, 0.75]) && !m.contains([0.25, 1.6]));
+        assert_eq!(m.bbox(), ([0.0, 0.5], [2.5, 1.5]));
+    }
+
+    #[test]
+    fn lattice_maps_nodes_to_pixel_centres() {
+        let (w, h) = (7, 4);
+        let fl = |c: usize, r: usize| (c * 3 + r * 5) % 4 == 0 || (c == 2 && r == 3);
+        let p = 0.25;
+        let m = Mask::from_fn(w, h, p, fl).unwrap().0;
+        let l = m.lattice().unwrap();
+        assert_eq!(l.origin, [0.125, 0.125]);
+        assert_eq!((l.pitch, l.nx, l.ny), (p, w, h));
+        for i in 0..w {
+            for j in 0..h {
+                let node = [l.origin[0] + i as f64 * p, l.origin[1] + j as f64 * p];
+                assert_eq!(m.contains(node), fl(i, h - 1 - j), "node ({i}, {j})");
+                assert_eq!(m.is_fluid(i, h - 1 - j), fl(i, h - 1 - j));
+            }
+        }
+        // Pixel (col 2, row 3) is the bottom row: y in [0, p].
+        assert!(m.contains([2.5 * p, 0.1 * p]));
+    }
+
+    #[test]
+    fn bad_masks_are_refused_and_borders_warned() {
+        let e = Mask::from_fn(4, 4, 1.0, |_, _| false).unwrap_err();
+        assert!(e.to_string().contains("no fluid pixels"), "{e}");
+        let img = image::DynamicImage::new_luma8(0, 0);
+        let e = Mask::from_image(&img, &MaskOptions::default(), "empty.png").unwrap_err();
+        assert!(matches!(e, Error::Mask { .. }));
+        assert!(
+            e.to_string().starts_with("empty.png: the image is empty"),
+            "{e}"
+        );
+        assert!(Mask::from_fn(0, 3, 1.0, |_, _| true).is_err());
+        for bad in [0.0, -1e-3, f64::NAN, f64::INFINITY] {
+            let e = Mask::from_fn(2, 2, bad, |_, _| true).unwrap_err();
+            assert!(e.to_string().contains("--pixel"), "{e}");
+            let opts = MaskOptions {
+                pixel: bad,
+                ..MaskOptions::default()
+            };
+            let img = image::DynamicImage::new_luma8(2, 2);
+            assert!(Mask::from_image(&img, &opts, "x.png").is_err());
+        }
+        // Fluid on the border: warned, and the border is a wall.
+        let (m, warn) = Mask::from_fn(3, 3, 1.0, |_, _| true).unwrap();
+        assert_eq!(warn.len(), 1);
+        assert!(
+            warn[0].contains("8 fluid pixels touch the image border"),
+            "{warn:?}"
+        );
+        assert!((m.walls(1.0).perimeter - 12.0).abs() < 1e-9);
+        assert_eq!(m.wall_crossings([-1.0, 1.5], [1.0, 0.0]), vec![1.0, 4.0]);
+        let (_, warn) = Mask::from_fn(3, 3, 1.0, |c, r| c == 1 && r == 1).unwrap();
+        assert!(warn.is_empty(), "{warn:?}");
+    }
+
+    #[test]
+    fn png_files_dark_light_threshold_alpha() {
+        let dir = tempfile::tempdir().unwrap();
+        // 20 × 10 image: a 6 × 4 block of luma 100 on a background of luma 200, and one pixel of
+        // luma 20 at (0, 0).
+        let img = image::GrayImage::from_fn(20, 10, |x, y| {
+            if (5..11).contains(&x) && (3..7).contains(&y) {
+                image::Luma([100])
+            } else if x == 0 && y == 0 {
+                image::Luma([20])
+            } else {
+                image::Luma([200])
+            }
+        });
+        let path = dir.path().join("mask.png");
+        img.save(&path).unwrap();
+        let mm = MaskOptions {
+            pixel: 1e-4,
+            ..MaskOptions::default()
+        };
+        let (m, warn) = Mask::load(&path, &mm).unwrap();
+        assert_eq!((m.width(), m.height(), m.fluid_pixels()), (20, 10, 25));
+        assert!(m.is_fluid(5, 3) && m.is_fluid(0, 0) && !m.is_fluid(4, 3));
+        assert_eq!(warn.len(), 1, "{warn:?}");
+        assert!(warn[0].contains("mask.png") && warn[0].contains("border"));
+        assert!((m.fluid_area() - 25e-8).abs() < 1e-20);
+        // Threshold: at 90 only the darkest pixel is fluid; at 10 none.
+        let t90 = MaskOptions {
+            threshold: 90,
+            ..mm
+        };
+        assert_eq!(Mask::load(&path, &t90).unwrap().0.fluid_pixels(), 1);
+        let t10 = MaskOptions {
+            threshold: 10,
+            ..mm
+        };
+        let e = Mask::load(&path, &t10).unwrap_err().to_string();
+        assert!(e.contains("mask.png"), "{e}");
+        assert!(
+            e.contains(
+                "no fluid pixels at threshold 10 (fluid = dark); check --threshold or --mask-fluid"
+            ),
+            "{e}"
+        );
+        // Light fluid: the background (200 ≥ 150) is fluid, the block and the dark pixel are not.
+        let light = MaskOptions {
+            fluid: FluidColour::Light,
+            threshold: 150,
+            ..mm
+        };
+        let (m, _) = Mask::load(&path, &light).unwrap();
+        assert_eq!(m.fluid_pixels(), 200 - 25);
+        assert!(!m.is_fluid(5, 3) && m.is_fluid(4, 3));
+        let w = m.walls(m.pixel());
+        assert_eq!(w.names.len(), 2); // the outer border and the hole of the block
+                                      // The same image as BMP.
+        let bmp = dir.path().join("mask.bmp");
+        img.save(&bmp).unwrap();
+        assert_eq!(Mask::load(&bmp, &mm).unwrap().0.fluid_pixels(), 25);
+        // Fully transparent pixels are solid whatever their colour.
+        let rgba = image::RgbaImage::from_fn(8, 8, |x, _| {
+            if x < 4 {
+                image::Rgba([0, 0, 0, 0])
+            } else {
+                image::Rgba([0, 0, 0, 255])
+            }
+        });
+        let alpha = dir.path().join("alpha.png");
+        rgba.save(&alpha).unwrap();
+        assert_eq!(Mask::load(&alpha, &mm).unwrap().0.fluid_pixels(), 32);
+        // A missing file is an I/O error naming it; a file that is no image a mask error.
+        let missing = dir.path().join("missing.png");
+        let e = Mask::load(&missing, &mm).unwrap_err();
+        assert!(matches!(e, Error::Io { .. }));
+        assert!(e.to_string().contains("missing.png"));
+        let junk = dir.path().join("junk.png");
+        std::fs::write(&junk, b"this is not a picture").unwrap();
+        let e = Mask::load(&junk, &mm).unwrap_err();
+        assert!(matches!(e, Error::Mask { .. }), "{e}");
+        assert!(e.to_string().contains("junk.png"), "{e}");
+        let junk = dir.path().join("junk.dat");
+        std::fs::write(&junk, b"this is not a picture").unwrap();
+        let e = Mask::load(&junk, &mm).unwrap_err();
+        assert!(e.to_string().contains("junk.dat"), "{e}");
+    }
+}
+#[cfg(test)]
+mod scratch {
+    use super::*;
+    fn sq(side: f64, deg: f64, off: [f64; 2]) -> Mask {
+        let n = (side * 1.5).ceil() as usize + 8;
+        let c = [0.5 * n as f64 + off[0], 0.5 * n as f64 + off[1]];
+        let (s, co) = deg.to_radians().sin_cos();
+        Mask::from_fn(n, n, 1.0, |col, row| {
+            let x = col as f64 + 0.5 - c[0];
+            let y = (n - 1 - row) as f64 + 0.5 - c[1];
+            let u = co * x + s * y;
+            let v = -s * x + co * y;
+            u.abs() < 0.5 * side && v.abs() < 0.5 * side
+        })
+        .unwrap()
+        .0
+    }
+    #[test]
+    fn scan_squares() {
+        for side in [50.0, 100.0, 200.0] {
+            for deg in [0.0, 10.0, 30.0, 45.0, 60.0] {
+                let mut lo: f64 = 1.0;
+                let mut hi: f64 = -1.0;
+                let mut sum = 0.0;
+                let mut k = 0;
+                for a in 0..10 {
+                    for b in 0..10 {
+                        let off = [a as f64 * 0.1 + 0.013, b as f64 * 0.1 + 0.007];
+                        let m = sq(side, deg, off);
+                        let e = m.walls(1.0).perimeter / (4.0 * side) - 1.0;
+                        lo = lo.min(e);
+                        hi = hi.max(e);
+                        sum += e;
+                        k += 1;
+                    }
+                }
+                eprintln!(
+                    "side {side} deg {deg}: min {:+.3}% max {:+.3}% mean {:+.3}%",
+                    lo * 100.0,
+                    hi * 100.0,
+                    sum / k as f64 * 100.0
+                );
+            }
+        }
+    }
+}
