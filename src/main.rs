@@ -109,6 +109,9 @@ struct SolveArgs {
     /// Largest estimated memory a solve may use, e.g. 4GiB, 512MiB [default: 4GiB].
     #[arg(long, value_name = "SIZE")]
     max_memory: Option<String>,
+    /// Iteration cap of the conjugate gradient (a solve that needs more exits with status 1).
+    #[arg(long, value_name = "N")]
+    max_iterations: Option<usize>,
     /// Print nothing but the result (no progress).
     #[arg(long)]
     quiet: bool,
@@ -201,6 +204,12 @@ fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
         MethodArg::Jacobi => Method::Jacobi,
         MethodArg::Plain => Method::Plain,
     };
+    if let Some(n) = a.max_iterations {
+        if n == 0 {
+            return Err(Error::param("--max-iterations", "must be at least 1"));
+        }
+        c.unit.cg.max_iterations = n;
+    }
     if let Some(m) = &a.max_memory {
         c.memory_limit = parse_bytes(m)?;
     }

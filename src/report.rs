@@ -198,8 +198,8 @@ pub fn summary(o: &Outcome) -> String {
             &mut s,
             "viscosity, density",
             format!(
-                "{} Pa·s, {} kg/m³",
-                sig(fl.viscosity_pa_s, 5),
+                "{} mPa·s, {} kg/m³",
+                sig(fl.viscosity_pa_s * 1e3, 5),
                 sig(fl.density_kg_m3, 6)
             ),
         );

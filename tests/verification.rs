@@ -390,7 +390,7 @@ fn eccentric_annulus_flow_integral(ro: f64, ri: f64, c: f64) -> f64 {
 
 #[test]
 fn eccentric_annulus_hole() {
-    let (ro, ri, e) = (0.5, 0.25, 0.1);
+    let (ro, ri, e): (f64, f64, f64) = (0.5, 0.25, 0.1);
     // Consistency of the recalled formula with the exact concentric limit (src/exact.rs).
     let concentric = PI / 8.0 * (ro.powi(4) - ri.powi(4) - (ro * ro - ri * ri).powi(2) / 2f64.ln());
     let near = eccentric_annulus_flow_integral(ro, ri, 1e-4);

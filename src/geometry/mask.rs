@@ -132,6 +132,13 @@ const MAX_SEGMENT: usize = 512;
 /// Exponent of the segment length in the tangent weights (tuned on discs and squares).
 const LENGTH_POWER: i32 = 8;
 
+/// Smallest turn between the dominant segments on either side of a chain vertex that is treated
+/// as a corner of the wall, degrees.
+const CORNER_ANGLE: f64 = 30.0;
+
+/// Farthest a reconstructed corner may lie from its staircase vertex, pixels.
+const CORNER_REACH: f64 = 2.5;
+
 /// Most sub-samples a single face is split into when a fine spacing is requested.
 const MAX_SPLIT: usize = 64;
 
@@ -156,6 +163,8 @@ struct FaceEstimate {
     point: Point,
     /// Unit tangent along the chain (fluid on the left).
     tangent: Point,
+    /// Length of wall the face stands for.
+    ds: f64,
 }
 
 impl Mask {
@@ -617,6 +626,10 @@ fn estimate(chain: &Chain) -> Vec<FaceEstimate> {
     let mut tan = vec![[0.0f64; 2]; n];
     let mut pos = vec![[0.0f64; 2]; n];
     let mut wsum = vec![0.0f64; n];
+    // Lines of the maximal segments (centroid of the face midpoints, unit direction), and for
+    // each face the segment of largest weight covering it (its "dominant" segment).
+    let mut lines: Vec<(Point, Point)> = Vec::new();
+    let mut dom = vec![(usize::MAX, 0.0f64); n];
     for i in 0..n {
         let maximal = if i == 0 {
             f[0] + n > f[n - 1]
@@ -639,6 +652,8 @@ fn estimate(chain: &Chain) -> Vec<FaceEstimate> {
             c[1] += m[1];
         }
         c = [c[0] / len as f64, c[1] / len as f64];
+        let id = lines.len();
+        lines.push((c, d));
         for k in i..=j {
             let e = (k - i) as f64 + 0.5;
             let w = lambda(e / len as f64) * weight;
@@ -650,32 +665,76 @@ fn estimate(chain: &Chain) -> Vec<FaceEstimate> {
             pos[idx][0] += w * (c[0] + along * d[0]);
             pos[idx][1] += w * (c[1] + along * d[1]);
             wsum[idx] += w;
+            if w > dom[idx].1 {
+                dom[idx] = (id, w);
+            }
         }
     }
-    (0..n)
+    let tangents: Vec<Point> = (0..n)
         .map(|i| {
             let s = STEP[code(i) as usize];
             let face = [s[0] as f64, s[1] as f64];
             let t = tan[i];
             let len = t[0].hypot(t[1]);
-            let tangent = if len.is_finite() && len > 0.0 {
+            if len.is_finite() && len > 0.0 {
                 let u = [t[0] / len, t[1] / len];
                 if u[0] * face[0] + u[1] * face[1] > 1e-12 {
-                    u
-                } else {
-                    face
+                    return u;
                 }
-            } else {
-                face
-            };
+            }
+            face
+        })
+        .collect();
+    // Wall point at each chain vertex (vertex i starts face i): the staircase vertex itself,
+    // except at a corner (see `corner_point`).
+    let vertex = |i: usize| {
+        let v = edges[i % n].0;
+        [v[0] as f64, v[1] as f64]
+    };
+    let ys: Vec<Point> = (0..n)
+        .map(|i| {
+            let v = vertex(i);
+            let (a, b) = (dom[(i + n - 1) % n].0, dom[i].0);
+            if a == b || a == usize::MAX || b == usize::MAX {
+                return v;
+            }
+            corner_point(lines[a], lines[b], v).unwrap_or(v)
+        })
+        .collect();
+    (0..n)
+        .map(|i| {
+            let t = tangents[i];
+            let (y0, y1) = (ys[i], ys[(i + 1) % n]);
+            let ds = (t[0] * (y1[0] - y0[0]) + t[1] * (y1[1] - y0[1])).max(0.0);
             let point = if wsum[i] > 0.0 && wsum[i].is_finite() {
                 [pos[i][0] / wsum[i], pos[i][1] / wsum[i]]
             } else {
                 mid(i)
             };
-            FaceEstimate { point, tangent }
+            FaceEstimate {
+                point,
+                tangent: t,
+                ds,
+            }
         })
         .collect()
+}
+
+/// The corner between two straight stretches of wall, if the dominant segments `a` (before the
+/// vertex `v`) and `b` (after it) turn by more than [`CORNER_ANGLE`]: the intersection of their
+/// lines, accepted within [`CORNER_REACH`] pixels of the staircase vertex.
+fn corner_point(a: (Point, Point), b: (Point, Point), v: Point) -> Option<Point> {
+    let ((ca, da), (cb, db)) = (a, b);
+    let cos = da[0] * db[0] + da[1] * db[1];
+    let sin = da[0] * db[1] - da[1] * db[0];
+    if cos > CORNER_ANGLE.to_radians().cos() || sin.abs() < 0.2 {
+        return None;
+    }
+    let w = [cb[0] - ca[0], cb[1] - ca[1]];
+    let s = (w[0] * db[1] - w[1] * db[0]) / sin;
+    let x = [ca[0] + s * da[0], ca[1] + s * da[1]];
+    let dist = (x[0] - v[0]).hypot(x[1] - v[1]);
+    (dist.is_finite() && dist <= CORNER_REACH).then_some(x)
 }
 
 impl Domain for Mask {
@@ -769,10 +828,9 @@ impl Domain for Mask {
             walls.names.push(format!("contour {}", ci + 1));
             let est = estimate(chain);
             let mut s = 0.0;
-            for (e, &(_, k)) in est.iter().zip(chain.edges.iter()) {
-                let step = STEP[k as usize];
+            for e in &est {
                 let t = e.tangent;
-                let ds = p * (t[0] * step[0] as f64 + t[1] * step[1] as f64);
+                let ds = p * e.ds;
                 let parts = if spacing.is_finite() && spacing > 0.0 && ds > spacing {
                     ((ds / spacing).ceil() as usize).clamp(1, MAX_SPLIT)
                 } else {
