@@ -32,7 +32,7 @@ struct Cli {
 #[derive(Subcommand)]
 enum Command {
     /// Solve one cross-section and report.
-    Solve(SolveArgs),
+    Solve(Box<SolveArgs>),
     /// List the built-in parametric shapes and their parameters.
     Shapes,
     /// Run the built-in verification cases against exact solutions.
@@ -77,10 +77,15 @@ struct SolveArgs {
     force: bool,
     /// Pressure gradient −dp/dz, Pa/m (positive: pressure falling along the flow), e.g.
     /// 1200 or 1.2kPa/m.
-    #[arg(long, value_name = "VALUE", conflicts_with = "flow")]
+    #[arg(
+        long,
+        value_name = "VALUE",
+        conflicts_with = "flow",
+        allow_hyphen_values = true
+    )]
     dpdx: Option<String>,
     /// Volumetric flow rate, e.g. 2L/min, 1e-5m3/s, 30mL/min, 0.5gpm.
-    #[arg(long, value_name = "VALUE")]
+    #[arg(long, value_name = "VALUE", allow_hyphen_values = true)]
     flow: Option<String>,
     /// Dynamic viscosity, Pa·s (also mPa.s, cP).
     #[arg(long, value_name = "VALUE", conflicts_with = "fluid")]
@@ -163,7 +168,7 @@ fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
             )
         })?;
         let pixel = units::parse_length(pixel, "--pixel")?;
-        if !(pixel > 0.0) {
+        if pixel <= 0.0 || pixel.is_nan() {
             return Err(Error::param("--pixel", "must be a positive length"));
         }
         Input::Mask {

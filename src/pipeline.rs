@@ -275,6 +275,18 @@ pub fn run(config: &SolveConfig) -> Result<Outcome> {
             (path.display().to_string(), Box::new(mask), false)
         }
     };
+    let origin = match &config.input {
+        Input::ShapeFile(p) | Input::Mask { path: p, .. } => p.display().to_string(),
+        Input::Builtin(spec) => spec.clone(),
+    };
+    // A cross-section whose holes cover all its regions has no wetted wall and no area.
+    let (lo, hi) = domain.bbox();
+    let extent = (hi[0] - lo[0]).max(hi[1] - lo[1]);
+    if domain.lattice().is_none() && domain.walls(extent / 64.0).area <= 1e-12 * extent * extent {
+        return Err(Error::geometry(format!(
+            "{origin}: no fluid is left: the holes cover every region"
+        )));
+    }
     let grid = match domain.lattice() {
         Some(l) => {
             if config.cells.is_some() {
@@ -294,7 +306,6 @@ pub fn run(config: &SolveConfig) -> Result<Outcome> {
                     ),
                 ));
             }
-            let (lo, hi) = domain.bbox();
             Grid::covering(lo, hi, cells)
         }
     };

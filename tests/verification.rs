@@ -157,6 +157,13 @@ fn ellipse_half_rotated_30_degrees_wall_shear() {
         .map(|&n| solve_case(&c.shape, n))
         .collect();
     let f = &solutions[1].figures;
+    println!(
+        "{}: f·Re at 400 cells {:.10}, exact {:.10}, relative error {:.2e}\n",
+        c.title,
+        f.fanning_f_re,
+        c.fanning_f_re,
+        rel_err(f.fanning_f_re, c.fanning_f_re)
+    );
     // Exact closed form as above: rotation leaves f·Re unchanged.
     assert!(
         rel_err(f.fanning_f_re, c.fanning_f_re) < VALUE_TOL,
@@ -279,20 +286,33 @@ fn concentric_annulus_half() {
     study(&c);
 }
 
-/// f·Re of `shape` at 200 and 400 cells, printed as a table against `reference` (exact, or
-/// the 400-cell value itself when no exact value is known). Returns the two solutions.
+/// f·Re of `shape` at 200 and 400 cells, printed as a table against the exact `reference`
+/// when there is one, else with the relative change between the grids. Returns the two
+/// solutions.
 fn pair(title: &str, shape: &Shape, reference: Option<f64>) -> [UnitSolution; 2] {
     let coarse = solve_case(shape, 200);
     let fine = solve_case(shape, 400);
-    let r = reference.unwrap_or(fine.figures.fanning_f_re);
-    let mut t = Table::new(title, "Fanning f·Re", r);
-    t.push(200, coarse.figures.fanning_f_re);
-    t.push(400, fine.figures.fanning_f_re);
+    let (f1, f2) = (coarse.figures.fanning_f_re, fine.figures.fanning_f_re);
+    let table = match reference {
+        Some(r) => {
+            let mut t = Table::new(title, "Fanning f·Re", r);
+            t.push(200, f1);
+            t.push(400, f2);
+            t.render()
+        }
+        None => format!(
+            "{title} — Fanning f·Re (no exact value)\n{:>7}  {:>16}\n{:>7}  {f1:>16.10}\n\
+             {:>7}  {f2:>16.10}  relative change {:.2e}\n",
+            "cells",
+            "value",
+            200,
+            400,
+            rel_err(f1, f2)
+        ),
+    };
     println!(
-        "{}force balance |∮τ ds − A|/A:  200: {:.2e}  400: {:.2e}\n",
-        t.render(),
-        coarse.figures.force_balance_rel_error,
-        fine.figures.force_balance_rel_error
+        "{table}force balance |∮τ ds − A|/A:  200: {:.2e}  400: {:.2e}\n",
+        coarse.figures.force_balance_rel_error, fine.figures.force_balance_rel_error
     );
     [coarse, fine]
 }
@@ -434,7 +454,7 @@ fn eccentric_annulus_hole() {
 }
 
 #[test]
-fn union_of_overlapping_regions() {
+fn union_of_two_overlapping_squares() {
     // Two overlapping unit squares, rotated off the grid: their union is a 1.5 × 1 rectangle
     // with the exact Fourier-series f·Re (classical; Shah & London 1978, rectangular ducts).
     let square = |x: f64| Primitive::Polygon {
@@ -452,14 +472,15 @@ fn union_of_overlapping_regions() {
         &squares,
         Some(exact_f_re),
     );
-    // Exact geometry of the union: A = 1.5, P = 5 (common practice, no source).
+    // Exact geometry of the union: A = 1.5, P = 5 (common practice, no source); the wall
+    // junctions are located by bisection (src/geometry), hence 1e-7 rather than round-off.
     assert!(
-        rel_err(fine.figures.area, 1.5) < 1e-9,
+        rel_err(fine.figures.area, 1.5) < 1e-7,
         "{}",
         fine.figures.area
     );
     assert!(
-        rel_err(fine.figures.perimeter, 5.0) < 1e-9,
+        rel_err(fine.figures.perimeter, 5.0) < 1e-7,
         "{}",
         fine.figures.perimeter
     );
@@ -470,9 +491,14 @@ fn union_of_overlapping_regions() {
     );
     assert!(rel_err(coarse.figures.fanning_f_re, f2) < 1e-4);
     assert!(fine.figures.force_balance_rel_error < FORCE_TOL);
+}
 
-    // Two overlapping circles (re-entrant corners where they meet): no exact value; the force
-    // balance (exact, common practice, no source) and convergence are checked.
+#[test]
+fn union_of_two_overlapping_circles() {
+    // Two overlapping circles: the union has two re-entrant corners where the circles meet
+    // (there ũ ~ r^{π/α} with interior angle α > π, so ∇ũ is singular). No exact value; the
+    // force balance ∮τ ds = G·A (exact, common practice, no source) must hold to 1e-3 and
+    // f·Re must change by less than 1e-4 from 200 to 400 cells (issue 2, item 4).
     let circles = Shape {
         name: Some("two overlapping circles".to_string()),
         regions: vec![
@@ -489,10 +515,11 @@ fn union_of_overlapping_regions() {
     };
     let [coarse, fine] = pair("union of two overlapping circles", &circles, None);
     let (f1, f2) = (coarse.figures.fanning_f_re, fine.figures.fanning_f_re);
-    assert!(rel_err(f1, f2) < 1e-4, "circles f·Re {f1} → {f2}");
+    let fb = fine.figures.force_balance_rel_error;
     assert!(
-        fine.figures.force_balance_rel_error < FORCE_TOL,
-        "circles force balance {:.3e}",
-        fine.figures.force_balance_rel_error
+        rel_err(f1, f2) < 1e-4 && fb < FORCE_TOL,
+        "two circles: f·Re {f1} → {f2} (relative change {:.3e}, limit 1e-4); force balance \
+         {fb:.3e} at 400 cells (limit {FORCE_TOL:e})",
+        rel_err(f1, f2)
     );
 }

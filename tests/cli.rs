@@ -1,0 +1,784 @@
+//! The real `canalis` binary, run in a fresh temporary directory: happy paths (JSON keys,
+//! exact Hagen–Poiseuille values, shape files, masks, `--out`, `shapes`, `verify`) and every
+//! kind of bad input (exit status 2, a message on standard error naming the file, line or
+//! parameter, never a panic), plus a solve that cannot finish (exit status 1).
+//!
+//! One helper per boundary: [`Sandbox`] runs the binary, [`Run`] holds what it printed, and
+//! [`Sandbox::input_error`] checks the contract of a bad input in one place.
+
+use serde_json::Value;
+use std::f64::consts::PI;
+use std::path::{Path, PathBuf};
+use std::process::Command;
+
+/// A fresh temporary directory that the binary runs in (files are named relative to it).
+struct Sandbox {
+    dir: tempfile::TempDir,
+}
+
+/// What one run of the binary produced.
+struct Run {
+    code: Option<i32>,
+    stdout: String,
+    stderr: String,
+    args: String,
+}
+
+impl Run {
+    /// Everything a failing assertion should show.
+    fn context(&self) -> String {
+        format!(
+            "canalis {}\nexit status {:?}\n--- stdout ---\n{}\n--- stderr ---\n{}",
+            self.args, self.code, self.stdout, self.stderr
+        )
+    }
+
+    fn assert_no_panic(&self) {
+        assert!(
+            !self.stderr.contains("panicked") && !self.stdout.contains("panicked"),
+            "the binary panicked\n{}",
+            self.context()
+        );
+    }
+
+    fn assert_success(&self) -> &Self {
+        self.assert_no_panic();
+        assert_eq!(self.code, Some(0), "expected success\n{}", self.context());
+        self
+    }
+
+    /// Stdout parsed as exactly one JSON object (serde_json rejects anything after it).
+    fn json(&self) -> Value {
+        let v: Value = match serde_json::from_str(&self.stdout) {
+            Ok(v) => v,
+            Err(e) => panic!(
+                "stdout is not exactly one JSON value: {e}\n{}",
+                self.context()
+            ),
+        };
+        assert!(
+            v.is_object(),
+            "stdout is not a JSON object\n{}",
+            self.context()
+        );
+        v
+    }
+}
+
+impl Sandbox {
+    fn new() -> Sandbox {
+        Sandbox {
+            dir: tempfile::tempdir().expect("create a temporary directory"),
+        }
+    }
+
+    fn path(&self, name: &str) -> PathBuf {
+        self.dir.path().join(name)
+    }
+
+    /// Writes a text file into the sandbox and returns its name (relative to the sandbox).
+    fn write(&self, name: &str, text: &str) -> String {
+        std::fs::write(self.path(name), text).expect("write a test file");
+        name.to_string()
+    }
+
+    fn run(&self, args: &[&str]) -> Run {
+        let out = Command::new(env!("CARGO_BIN_EXE_canalis"))
+            .args(args)
+            .current_dir(self.dir.path())
+            .env("RUST_BACKTRACE", "0")
+            .output()
+            .expect("start the canalis binary");
+        Run {
+            code: out.status.code(),
+            stdout: String::from_utf8_lossy(&out.stdout).into_owned(),
+            stderr: String::from_utf8_lossy(&out.stderr).into_owned(),
+            args: args.join(" "),
+        }
+    }
+
+    /// Runs `args`, expects `--json` output and returns the report.
+    fn report(&self, args: &[&str]) -> Value {
+        let run = self.run(args);
+        run.assert_success();
+        run.json()
+    }
+
+    /// The contract of a bad input: exit status 2, no panic, nothing on stdout, and an error
+    /// message on stderr that contains every one of `needles`. Returns the run for further checks.
+    fn input_error(&self, args: &[&str], needles: &[&str]) -> Run {
+        let run = self.run(args);
+        run.assert_no_panic();
+        assert_eq!(
+            run.code,
+            Some(2),
+            "expected exit status 2 (bad input)\n{}",
+            run.context()
+        );
+        assert!(
+            run.stdout.trim().is_empty(),
+            "nothing belongs on stdout after an error\n{}",
+            run.context()
+        );
+        // The progress line ("solving FILE ...") names the file too; only the error
+        // message itself counts.
+        let message = run.stderr.find("error").map_or("", |i| &run.stderr[i..]);
+        for needle in needles {
+            assert!(
+                message.contains(needle),
+                "stderr should contain {needle:?}\n{}",
+                run.context()
+            );
+        }
+        run
+    }
+}
+
+/// Relative difference |value − reference| / |reference|.
+fn rel(value: f64, reference: f64) -> f64 {
+    ((value - reference) / reference).abs()
+}
+
+/// A number at `key` (a path of object keys) of a report.
+fn num(report: &Value, key: &str) -> f64 {
+    let mut v = report;
+    for k in key.split('.') {
+        v = match v.get(k) {
+            Some(x) => x,
+            None => panic!("report has no key {key:?}: {report:#}"),
+        };
+    }
+    match v.as_f64() {
+        Some(x) => x,
+        None => panic!("report key {key:?} is not a number: {v}"),
+    }
+}
+
+/// Keys present in every report (INTERFACE.md, "Report keys").
+const ALWAYS: [&str; 9] = [
+    "area_m2",
+    "perimeter_m",
+    "hydraulic_diameter_m",
+    "fanning_f_re",
+    "darcy_f_re",
+    "max_to_mean_velocity",
+    "wall_shear_max_to_mean",
+    "wall_shear_min_to_mean",
+    "force_balance_rel_error",
+];
+
+/// Keys present at an operating point (INTERFACE.md, "Report keys").
+const OPERATING: [&str; 8] = [
+    "flow_rate_m3_s",
+    "pressure_gradient_pa_m",
+    "mean_velocity_m_s",
+    "max_velocity_m_s",
+    "reynolds",
+    "wall_shear_mean_pa",
+    "wall_shear_max_pa",
+    "wall_shear_min_pa",
+];
+
+/// Diameter of the test tube, m.
+const D: f64 = 8e-3;
+
+/// Hagen–Poiseuille flow rate of a round tube, Q = π G d⁴ / (128 μ) (exact solution of
+/// fully developed laminar flow; White, Fluid Mechanics, from memory).
+fn hagen_poiseuille_q(g: f64, d: f64, mu: f64) -> f64 {
+    PI * g * d.powi(4) / (128.0 * mu)
+}
+
+// ---------------------------------------------------------------------------------------------
+// Happy paths
+
+#[test]
+fn json_report_of_a_circle_has_every_key_and_f_re_16() {
+    let sb = Sandbox::new();
+    let r = sb.report(&["solve", "circle:d=8mm", "--cells", "80", "--json"]);
+    for key in ALWAYS {
+        num(&r, key);
+    }
+    for key in ["cells_x", "cells_y", "unknowns", "spacing_m"] {
+        num(&r, &format!("grid.{key}"));
+    }
+    for key in ["iterations", "relative_residual", "seconds"] {
+        num(&r, &format!("solver.{key}"));
+    }
+    assert!(r["warnings"].is_array(), "warnings must be an array: {r:#}");
+    assert!(
+        r["warnings"].as_array().is_some_and(|w| w.is_empty()),
+        "a plain circle has no warnings: {r:#}"
+    );
+    // No operating point was given, so no operating keys.
+    for key in OPERATING {
+        assert!(r.get(key).is_none(), "unexpected key {key}: {r:#}");
+    }
+    // Hagen–Poiseuille: Fanning f·Re = 16, u_max/ū = 2, D_h = d, A = πd²/4, P = πd
+    // (exact solution of the round tube; White, Fluid Mechanics, from memory).
+    let fre = num(&r, "fanning_f_re");
+    assert!(rel(fre, 16.0) < 5e-3, "f·Re = {fre}");
+    // Darcy f = 4 × Fanning f (definition, common practice, no source).
+    assert!(rel(num(&r, "darcy_f_re"), 4.0 * fre) < 1e-12, "{r:#}");
+    assert!(rel(num(&r, "max_to_mean_velocity"), 2.0) < 5e-3, "{r:#}");
+    assert!(rel(num(&r, "hydraulic_diameter_m"), D) < 5e-3, "{r:#}");
+    assert!(rel(num(&r, "area_m2"), PI * D * D / 4.0) < 5e-3, "{r:#}");
+    assert!(rel(num(&r, "perimeter_m"), PI * D) < 5e-3, "{r:#}");
+    // Uniform wall shear on a circle (symmetry).
+    assert!(rel(num(&r, "wall_shear_max_to_mean"), 1.0) < 1e-2, "{r:#}");
+    assert!(rel(num(&r, "wall_shear_min_to_mean"), 1.0) < 1e-2, "{r:#}");
+    assert!(num(&r, "force_balance_rel_error") < 1e-2, "{r:#}");
+}
+
+#[test]
+fn pressure_gradient_and_given_fluid_match_hagen_poiseuille() {
+    let sb = Sandbox::new();
+    let (g, mu, rho) = (100.0, 1e-3, 1000.0);
+    let r = sb.report(&[
+        "solve",
+        "circle:d=8mm",
+        "--cells",
+        "80",
+        "--json",
+        "--dpdx",
+        "100",
+        "--viscosity",
+        "1e-3",
+        "--density",
+        "1000",
+    ]);
+    for key in OPERATING {
+        num(&r, key);
+    }
+    let q = hagen_poiseuille_q(g, D, mu);
+    assert!(rel(num(&r, "flow_rate_m3_s"), q) < 5e-3, "Q vs {q}: {r:#}");
+    assert!(rel(num(&r, "pressure_gradient_pa_m"), g) < 1e-12, "{r:#}");
+    // ū = G d² / (32 μ), u_max = 2 ū, τ_w = G d / 4, Re = ρ ū d / μ (same exact solution).
+    let mean = g * D * D / (32.0 * mu);
+    assert!(rel(num(&r, "mean_velocity_m_s"), mean) < 5e-3, "{r:#}");
+    assert!(rel(num(&r, "max_velocity_m_s"), 2.0 * mean) < 5e-3, "{r:#}");
+    assert!(
+        rel(num(&r, "reynolds"), rho * mean * D / mu) < 5e-3,
+        "{r:#}"
+    );
+    let tau = g * D / 4.0;
+    for key in [
+        "wall_shear_mean_pa",
+        "wall_shear_max_pa",
+        "wall_shear_min_pa",
+    ] {
+        assert!(rel(num(&r, key), tau) < 1e-2, "{key} vs {tau}: {r:#}");
+    }
+}
+
+#[test]
+fn flow_rate_of_water_at_20c_matches_hagen_poiseuille() {
+    let sb = Sandbox::new();
+    let r = sb.report(&[
+        "solve",
+        "circle:d=8mm",
+        "--cells",
+        "80",
+        "--json",
+        "--flow",
+        "1L/min",
+        "--fluid",
+        "water",
+        "--temperature",
+        "20C",
+    ]);
+    for key in OPERATING {
+        num(&r, key);
+    }
+    // Viscosity of liquid water at 20 °C and 1 atm: 1.0016e-3 Pa·s (IAPWS R12-08, from memory).
+    let mu = 1.0016e-3;
+    let q = 1e-3 / 60.0;
+    assert!(rel(num(&r, "flow_rate_m3_s"), q) < 1e-12, "{r:#}");
+    // G = 128 μ Q / (π d⁴) (Hagen–Poiseuille solved for G).
+    let g = 128.0 * mu * q / (PI * D.powi(4));
+    let got = num(&r, "pressure_gradient_pa_m");
+    assert!(
+        rel(got, g) < 5e-3,
+        "dp/dx = {got}, Hagen–Poiseuille {g}: {r:#}"
+    );
+}
+
+#[test]
+fn high_reynolds_number_is_warned_about() {
+    let sb = Sandbox::new();
+    // ū = G d²/(32 μ) = 2 m/s, Re = 16 000: far beyond laminar flow in a round tube.
+    let r = sb.report(&[
+        "solve",
+        "circle:d=8mm",
+        "--cells",
+        "60",
+        "--json",
+        "--dpdx",
+        "1000",
+        "--viscosity",
+        "1e-3",
+        "--density",
+        "1000",
+    ]);
+    let warnings = r["warnings"].as_array().cloned().unwrap_or_default();
+    assert!(
+        warnings
+            .iter()
+            .any(|w| w.as_str().is_some_and(|s| s.contains("Reynolds"))),
+        "expected a Reynolds warning: {r:#}"
+    );
+}
+
+#[test]
+fn text_summary_shows_f_re_and_the_caution() {
+    let sb = Sandbox::new();
+    let run = sb.run(&["solve", "circle:d=8mm", "--cells", "60"]);
+    run.assert_success();
+    assert!(run.stdout.contains("f·Re"), "{}", run.context());
+    assert!(
+        run.stdout.contains("licensed engineering practice"),
+        "{}",
+        run.context()
+    );
+}
+
+#[test]
+fn shapes_lists_the_builtin_shapes() {
+    let sb = Sandbox::new();
+    let run = sb.run(&["shapes"]);
+    run.assert_success();
+    for name in ["circle", "rect", "ellipse", "triangle", "annulus"] {
+        assert!(
+            run.stdout
+                .lines()
+                .any(|l| l.split_whitespace().next() == Some(name)),
+            "{name} is not listed\n{}",
+            run.context()
+        );
+    }
+}
+
+#[test]
+fn builtin_shapes_of_the_interface_solve() {
+    let sb = Sandbox::new();
+    for spec in [
+        "rect:w=20mm,h=5mm",
+        "ellipse:a=6mm,b=3mm",
+        "triangle:side=10mm",
+        "annulus:do=20mm,di=10mm,offset=2mm",
+    ] {
+        let r = sb.report(&["solve", spec, "--cells", "60", "--json"]);
+        let fre = num(&r, "fanning_f_re");
+        assert!(fre > 10.0 && fre < 30.0, "{spec}: f·Re = {fre}");
+    }
+    // Equilateral triangle: f·Re = 40/3 (exact solution, Shah & London 1978, from memory);
+    // the corners limit the accuracy on a coarse grid.
+    let r = sb.report(&["solve", "triangle:side=10mm", "--cells", "60", "--json"]);
+    let fre = num(&r, "fanning_f_re");
+    assert!(rel(fre, 40.0 / 3.0) < 1e-2, "triangle f·Re = {fre}");
+}
+
+#[test]
+fn a_shape_file_solves() {
+    let sb = Sandbox::new();
+    let file = sb.write(
+        "square.toml",
+        "name = \"square duct\"\n\
+         units = \"mm\"\n\
+         \n\
+         [[region]]\n\
+         kind = \"rect\"\n\
+         corner = [0, 0]\n\
+         size = [10, 10]\n",
+    );
+    let r = sb.report(&["solve", &file, "--cells", "60", "--json"]);
+    // Square duct: f·Re = 14.227 (Shah & London 1978, rectangular ducts, from memory).
+    let fre = num(&r, "fanning_f_re");
+    assert!(rel(fre, 14.227) < 1e-2, "square f·Re = {fre}");
+    // D_h of a square is its side.
+    assert!(rel(num(&r, "hydraulic_diameter_m"), 10e-3) < 1e-3, "{r:#}");
+}
+
+/// Writes a PNG of `size`² pixels: a dark disc of `diameter` pixels, centred, on white.
+fn write_disc_png(path: &Path, size: u32, diameter: f64) {
+    let c = 0.5 * size as f64;
+    let r = 0.5 * diameter;
+    let img = image::GrayImage::from_fn(size, size, |x, y| {
+        let (dx, dy) = (x as f64 + 0.5 - c, y as f64 + 0.5 - c);
+        image::Luma([if dx * dx + dy * dy < r * r { 0 } else { 255 }])
+    });
+    img.save(path).expect("write the mask image");
+}
+
+#[test]
+fn a_png_mask_of_a_disc_solves() {
+    let sb = Sandbox::new();
+    write_disc_png(&sb.path("disc.png"), 140, 120.0);
+    let r = sb.report(&["solve", "disc.png", "--pixel", "0.05mm", "--json"]);
+    let d = 120.0 * 0.05e-3;
+    // Hagen–Poiseuille f·Re = 16 (White, Fluid Mechanics, from memory); the staircase
+    // wall of a mask costs accuracy, hence 3 %.
+    let fre = num(&r, "fanning_f_re");
+    assert!(rel(fre, 16.0) < 3e-2, "mask f·Re = {fre}: {r:#}");
+    let p = num(&r, "perimeter_m");
+    assert!(
+        rel(p, PI * d) < 1e-2,
+        "mask perimeter {p} vs πd = {}",
+        PI * d
+    );
+}
+
+#[test]
+fn out_dir_report_is_not_overwritten_without_force() {
+    let sb = Sandbox::new();
+    let args = ["solve", "circle:d=8mm", "--cells", "60", "--out", "results"];
+    sb.run(&args).assert_success();
+    let report = sb.path("results").join("report.json");
+    let first = std::fs::read_to_string(&report).expect("--out writes results/report.json");
+    let v: Value = serde_json::from_str(&first).expect("report.json is JSON");
+    num(&v, "fanning_f_re");
+
+    // Ask for a different shape, so that an overwrite would show.
+    let run = sb.input_error(
+        &[
+            "solve",
+            "rect:w=20mm,h=5mm",
+            "--cells",
+            "60",
+            "--out",
+            "results",
+        ],
+        &["report.json", "--force"],
+    );
+    let after = std::fs::read_to_string(&report).expect("report.json still exists");
+    assert_eq!(first, after, "report.json was changed\n{}", run.context());
+
+    sb.run(&[
+        "solve",
+        "rect:w=20mm,h=5mm",
+        "--cells",
+        "60",
+        "--out",
+        "results",
+        "--force",
+    ])
+    .assert_success();
+    let forced = std::fs::read_to_string(&report).expect("report.json exists");
+    assert_ne!(first, forced, "--force should replace report.json");
+}
+
+#[test]
+fn verify_passes() {
+    let sb = Sandbox::new();
+    let run = sb.run(&["verify", "--cells", "100"]);
+    run.assert_success();
+    assert!(run.stdout.contains("pass"), "{}", run.context());
+    assert!(!run.stdout.contains("FAIL"), "{}", run.context());
+}
+
+// ---------------------------------------------------------------------------------------------
+// Bad input: exit status 2, a message naming the file, line or parameter, no panic.
+
+/// A circle of radius 1 m as the first region, for files that need a valid region.
+const DISC: &str = "[[region]]\nkind = \"circle\"\ncenter = [0, 0]\nradius = 1\n";
+
+#[test]
+fn missing_shape_file() {
+    let sb = Sandbox::new();
+    sb.input_error(
+        &["solve", "no_such_shape.toml", "--cells", "60"],
+        &["no_such_shape.toml"],
+    );
+}
+
+#[test]
+fn toml_syntax_error_names_the_line() {
+    let sb = Sandbox::new();
+    let f = sb.write(
+        "syntax.toml",
+        "units = \"mm\"\n\n[[region]]\nkind = = \"circle\"\n",
+    );
+    sb.input_error(&["solve", &f, "--cells", "60"], &["syntax.toml", "line 4"]);
+}
+
+#[test]
+fn unknown_kind() {
+    let sb = Sandbox::new();
+    let f = sb.write("kind.toml", "[[region]]\nkind = \"hexagon\"\n");
+    sb.input_error(
+        &["solve", &f, "--cells", "60"],
+        &["kind.toml", "line 2", "hexagon"],
+    );
+}
+
+#[test]
+fn unknown_parameter() {
+    let sb = Sandbox::new();
+    let f = sb.write(
+        "param.toml",
+        "[[region]]\nkind = \"circle\"\ncenter = [0, 0]\nradus = 1\n",
+    );
+    sb.input_error(
+        &["solve", &f, "--cells", "60"],
+        &["param.toml", "line 4", "radus"],
+    );
+}
+
+#[test]
+fn polygon_with_two_points() {
+    let sb = Sandbox::new();
+    let f = sb.write(
+        "two.toml",
+        "[[region]]\nkind = \"polygon\"\npoints = [[0, 0], [1, 0]]\n",
+    );
+    sb.input_error(
+        &["solve", &f, "--cells", "60"],
+        &["two.toml", "line 3", "points"],
+    );
+}
+
+#[test]
+fn zero_area_polygon() {
+    let sb = Sandbox::new();
+    let f = sb.write(
+        "flat.toml",
+        "[[region]]\nkind = \"polygon\"\npoints = [[0, 0], [1, 0], [2, 0]]\n",
+    );
+    sb.input_error(
+        &["solve", &f, "--cells", "60"],
+        &["flat.toml", "line", "zero area"],
+    );
+}
+
+#[test]
+fn self_intersecting_polygon() {
+    let sb = Sandbox::new();
+    let f = sb.write(
+        "bowtie.toml",
+        "[[region]]\nkind = \"polygon\"\npoints = [[0, 0], [1, 1], [1, 0], [0, 1]]\n",
+    );
+    sb.input_error(
+        &["solve", &f, "--cells", "60"],
+        &["bowtie.toml", "line", "crosses itself"],
+    );
+}
+
+#[test]
+fn non_finite_numbers() {
+    let sb = Sandbox::new();
+    // TOML 1.0 has `nan` and `inf` as floats; the parser reads them, the shape file refuses them.
+    let f = sb.write(
+        "nan.toml",
+        "[[region]]\nkind = \"circle\"\ncenter = [0, 0]\nradius = nan\n",
+    );
+    sb.input_error(
+        &["solve", &f, "--cells", "60"],
+        &["nan.toml", "line 4", "radius", "finite"],
+    );
+    let f = sb.write(
+        "inf.toml",
+        "[[region]]\nkind = \"polygon\"\npoints = [[0, 0], [1, 0], [1, -inf]]\n",
+    );
+    sb.input_error(&["solve", &f, "--cells", "60"], &["inf.toml", "finite"]);
+    // On the command line too.
+    sb.input_error(
+        &["solve", "circle:d=nan", "--cells", "60"],
+        &["circle:d=nan", "d"],
+    );
+}
+
+#[test]
+fn hole_that_removes_all_fluid() {
+    let sb = Sandbox::new();
+    let f = sb.write(
+        "plugged.toml",
+        &format!("{DISC}\n[[hole]]\nkind = \"circle\"\ncenter = [0, 0]\nradius = 2\n"),
+    );
+    // The message must name the file at fault (INTERFACE.md, "Exit status").
+    sb.input_error(&["solve", &f, "--cells", "60"], &["plugged.toml"]);
+}
+
+#[test]
+fn mask_without_fluid_pixels() {
+    let sb = Sandbox::new();
+    let img = image::GrayImage::from_pixel(64, 64, image::Luma([255]));
+    img.save(sb.path("white.png"))
+        .expect("write the mask image");
+    sb.input_error(&["solve", "white.png", "--pixel", "0.05mm"], &["white.png"]);
+}
+
+#[test]
+fn unreadable_image() {
+    let sb = Sandbox::new();
+    sb.write("garbage.png", "this is not a PNG file\n");
+    sb.input_error(
+        &["solve", "garbage.png", "--pixel", "0.05mm"],
+        &["garbage.png"],
+    );
+}
+
+#[test]
+fn mask_without_pixel_size() {
+    let sb = Sandbox::new();
+    write_disc_png(&sb.path("disc.png"), 40, 30.0);
+    sb.input_error(&["solve", "disc.png"], &["--pixel"]);
+}
+
+#[test]
+fn unknown_units() {
+    let sb = Sandbox::new();
+    sb.input_error(
+        &["solve", "circle:d=8furlong", "--cells", "60"],
+        &["circle:d=8furlong", "furlong"],
+    );
+    let f = sb.write("feet.toml", &format!("units = \"ft\"\n{DISC}"));
+    sb.input_error(
+        &["solve", &f, "--cells", "60"],
+        &["feet.toml", "line 1", "ft"],
+    );
+}
+
+#[test]
+fn too_few_cells() {
+    let sb = Sandbox::new();
+    sb.input_error(&["solve", "circle:d=8mm", "--cells", "2"], &["--cells"]);
+}
+
+#[test]
+fn absurd_cells_hit_the_memory_limit() {
+    let sb = Sandbox::new();
+    sb.input_error(
+        &["solve", "circle:d=8mm", "--cells", "100000"],
+        &["--cells", "--max-memory"],
+    );
+}
+
+#[test]
+fn unknown_builtin_shape() {
+    let sb = Sandbox::new();
+    // The message should help: it lists the known names.
+    sb.input_error(
+        &["solve", "blob:d=8mm", "--cells", "60"],
+        &["blob", "circle", "annulus"],
+    );
+}
+
+#[test]
+fn viscosity_without_density() {
+    let sb = Sandbox::new();
+    sb.input_error(
+        &[
+            "solve",
+            "circle:d=8mm",
+            "--cells",
+            "60",
+            "--dpdx",
+            "100",
+            "--viscosity",
+            "1e-3",
+        ],
+        &["--density"],
+    );
+}
+
+#[test]
+fn flow_without_a_fluid() {
+    let sb = Sandbox::new();
+    sb.input_error(
+        &["solve", "circle:d=8mm", "--cells", "60", "--flow", "1L/min"],
+        &["--fluid"],
+    );
+}
+
+#[test]
+fn water_without_temperature() {
+    let sb = Sandbox::new();
+    sb.input_error(
+        &[
+            "solve",
+            "circle:d=8mm",
+            "--cells",
+            "60",
+            "--flow",
+            "1L/min",
+            "--fluid",
+            "water",
+        ],
+        &["--temperature"],
+    );
+}
+
+#[test]
+fn water_out_of_range() {
+    let sb = Sandbox::new();
+    sb.input_error(
+        &[
+            "solve",
+            "circle:d=8mm",
+            "--cells",
+            "60",
+            "--flow",
+            "1L/min",
+            "--fluid",
+            "water",
+            "--temperature",
+            "300C",
+        ],
+        &["water", "temperature", "300"],
+    );
+}
+
+#[test]
+fn negative_pressure_gradient() {
+    let sb = Sandbox::new();
+    let fluid = ["--viscosity", "1e-3", "--density", "1000"];
+    let mut args = vec!["solve", "circle:d=8mm", "--cells", "60", "--dpdx=-100"];
+    args.extend(fluid);
+    sb.input_error(&args, &["--dpdx", "positive"]);
+    // Written the way people type it, with a space: still a bad input naming --dpdx.
+    let mut args = vec!["solve", "circle:d=8mm", "--cells", "60", "--dpdx", "-100"];
+    args.extend(fluid);
+    sb.input_error(&args, &["--dpdx"]);
+}
+
+#[test]
+fn svg_is_not_supported_yet() {
+    let sb = Sandbox::new();
+    sb.write(
+        "drawing.svg",
+        "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"10mm\" height=\"10mm\">\
+         <circle cx=\"5\" cy=\"5\" r=\"4\"/></svg>\n",
+    );
+    sb.input_error(
+        &["solve", "drawing.svg", "--cells", "60"],
+        &["drawing.svg", "SVG"],
+    );
+}
+
+#[test]
+fn unknown_subcommand_and_missing_shape_are_usage_errors() {
+    let sb = Sandbox::new();
+    sb.input_error(&["rate", "circle:d=8mm"], &["rate"]);
+    sb.input_error(&["solve"], &["SHAPE"]);
+    sb.input_error(&["solve", "circle:d=8mm", "--cells", "many"], &["--cells"]);
+}
+
+// ---------------------------------------------------------------------------------------------
+// A run that cannot finish: exit status 1.
+
+#[test]
+fn non_converging_solve_exits_1() {
+    let sb = Sandbox::new();
+    let run = sb.run(&[
+        "solve",
+        "circle:d=8mm",
+        "--cells",
+        "60",
+        "--json",
+        "--max-iterations",
+        "3",
+    ]);
+    run.assert_no_panic();
+    assert_eq!(run.code, Some(1), "{}", run.context());
+    assert!(run.stdout.trim().is_empty(), "{}", run.context());
+    assert!(run.stderr.contains("did not converge"), "{}", run.context());
+}
