@@ -163,110 +163,76 @@ impl Classified {
     }
 }
 
-/// Cut fractions along one grid line. `crossings` are the sorted wall parameters measured from
-/// node 0 of the line (s = 0), nodes sit at s = k·h. Crossings alternate entry (even index) and
-/// exit (odd index), because outside the bounded cross-section is solid. Returns for each node
-/// the fluid flag and the θ of the + and − links (None = regular link or no fluid).
-fn line_cuts(crossings: &[f64], n: usize, h: f64) -> Vec<(bool, Option<f64>, Option<f64>)> {
-    let mut out = Vec::with_capacity(n);
-    let mut below = 0usize; // crossings strictly below the current node
-    for k in 0..n {
-        let s = k as f64 * h;
-        while below < crossings.len() && crossings[below] < s {
-            below += 1;
-        }
-        let fluid = below % 2 == 1;
-        if !fluid {
-            out.push((false, None, None));
-            continue;
-        }
-        // The exit wall ahead is crossings[below] (the first crossing >= s), the entry wall
-        // behind is crossings[below - 1].
-        let ahead = crossings.get(below).map(|&c| (c - s) / h);
-        let behind = (s - crossings[below - 1]) / h;
-        let plus = match ahead {
-            Some(t) if t < 1.0 => Some(t.max(THETA_MIN)),
-            _ if k + 1 == n => Some(1.0),
-            _ => None,
-        };
-        let minus = if behind < 1.0 {
-            Some(behind.max(THETA_MIN))
-        } else if k == 0 {
-            Some(1.0)
-        } else {
-            None
-        };
-        out.push((true, plus, minus));
-    }
-    out
+/// Relative distance (in h) within which a node counts as lying on a wall.
+const ON_WALL: f64 = 1e-9;
+
+/// Is the node at s within ON_WALL·h of a crossing? `crossings` sorted.
+fn on_wall(crossings: &[f64], s: f64, h: f64) -> bool {
+    let i = crossings.partition_point(|&c| c < s);
+    let near = |j: usize| {
+        crossings
+            .get(j)
+            .is_some_and(|&c| (c - s).abs() <= ON_WALL * h)
+    };
+    near(i) || (i > 0 && near(i - 1))
+}
+
+/// Parity of the crossings below s: odd = inside.
+fn inside(crossings: &[f64], s: f64) -> bool {
+    crossings.partition_point(|&c| c < s) % 2 == 1
+}
+
+/// θ of the links of a fluid node at s along a line: (+ direction, − direction), None for a
+/// regular link. `plus_fluid` / `minus_fluid` say whether the neighbours are fluid nodes.
+fn link_thetas(
+    crossings: &[f64],
+    s: f64,
+    h: f64,
+    plus_fluid: bool,
+    minus_fluid: bool,
+) -> (Option<f64>, Option<f64>) {
+    let i = crossings.partition_point(|&c| c <= s);
+    let ahead = crossings.get(i).map(|&c| (c - s) / h);
+    let behind = if i > 0 {
+        Some((s - crossings[i - 1]) / h)
+    } else {
+        None
+    };
+    let theta = |d: Option<f64>, neighbour_fluid: bool| match d {
+        Some(t) if t < 1.0 => Some(t.max(THETA_MIN)),
+        // No wall within the link: regular if the neighbour is fluid; otherwise the neighbour
+        // lies on the wall itself (it was made solid as an on-wall node), θ = 1.
+        _ if neighbour_fluid => None,
+        _ => Some(1.0),
+    };
+    (theta(ahead, plus_fluid), theta(behind, minus_fluid))
 }
 
 /// Classifies the nodes of `grid` over `domain` and finds every cut link.
 ///
-/// Rows decide which nodes are fluid (parity of the wall crossings to the left of the node);
-/// columns use the same flags, so a node lying on a wall to round-off is classified once. A link
-/// between a fluid node and a solid one without a crossing between them (possible only for a
-/// node on the wall to round-off) gets θ = 1. A link between two fluid nodes with a solid
-/// sliver between them (a fin thinner than h) is cut at both ends, so no flow leaks through it.
+/// A node is fluid when the parity of the wall crossings before it along its row says so and
+/// it does not lie on a wall (within 1e-9·h) along its row or its column; a node on a wall is
+/// solid, which is exact (ũ = 0 there), and its neighbours then see the wall at θ = 1. A link
+/// between two fluid nodes with a solid sliver between them (a fin thinner than h) is cut at
+/// both ends, so no flow leaks through it.
 pub fn classify(domain: &dyn Domain, grid: Grid) -> Result<Classified> {
     let n = grid.len();
+    let h = grid.h;
+    let rows: Vec<Vec<f64>> = (0..grid.ny)
+        .map(|j| domain.wall_crossings(grid.node(0, j), [1.0, 0.0]))
+        .collect();
+    let cols: Vec<Vec<f64>> = (0..grid.nx)
+        .map(|i| domain.wall_crossings(grid.node(i, 0), [0.0, 1.0]))
+        .collect();
     let mut fluid = vec![false; n];
-    // θ per node and direction; 0 = regular.
-    let mut theta = vec![[0.0f64; 4]; n];
     for j in 0..grid.ny {
-        let origin = grid.node(0, j);
-        let c = domain.wall_crossings(origin, [1.0, 0.0]);
-        for (i, (f, plus, minus)) in line_cuts(&c, grid.nx, grid.h).into_iter().enumerate() {
-            let k = grid.index(i, j);
-            fluid[k] = f;
-            theta[k][Dir::East as usize] = plus.unwrap_or(0.0);
-            theta[k][Dir::West as usize] = minus.unwrap_or(0.0);
+        for i in 0..grid.nx {
+            let (sx, sy) = (i as f64 * h, j as f64 * h);
+            fluid[grid.index(i, j)] =
+                inside(&rows[j], sx) && !on_wall(&rows[j], sx, h) && !on_wall(&cols[i], sy, h);
         }
     }
-    // A fluid neighbour across a regular row link must be fluid; a solid one forces a cut.
-    for k in 0..n {
-        if !fluid[k] {
-            continue;
-        }
-        for d in [Dir::East, Dir::West] {
-            if theta[k][d as usize] == 0.0 && !grid.neighbour(k, d).is_some_and(|m| fluid[m]) {
-                theta[k][d as usize] = 1.0;
-            }
-        }
-    }
-    for i in 0..grid.nx {
-        let origin = grid.node(i, 0);
-        let c = domain.wall_crossings(origin, [0.0, 1.0]);
-        for (j, (_, plus, minus)) in line_cuts(&c, grid.ny, grid.h).into_iter().enumerate() {
-            let k = grid.index(i, j);
-            if !fluid[k] {
-                continue;
-            }
-            theta[k][Dir::North as usize] = plus.unwrap_or(0.0);
-            theta[k][Dir::South as usize] = minus.unwrap_or(0.0);
-        }
-    }
-    // Make every link consistent: a link is regular only if both ends are fluid and neither end
-    // sees a wall on it; otherwise each fluid end is cut (θ = 1 where it saw no wall).
-    for k in 0..n {
-        if !fluid[k] {
-            continue;
-        }
-        for (d, back) in [
-            (Dir::East, Dir::West),
-            (Dir::West, Dir::East),
-            (Dir::North, Dir::South),
-            (Dir::South, Dir::North),
-        ] {
-            if theta[k][d as usize] != 0.0 {
-                continue;
-            }
-            match grid.neighbour(k, d) {
-                Some(m) if fluid[m] && theta[m][back as usize] == 0.0 => {}
-                _ => theta[k][d as usize] = 1.0,
-            }
-        }
-    }
+    let is_fluid = |k: Option<usize>| k.is_some_and(|m| fluid[m]);
     let mut cuts = Vec::new();
     let mut cut_start = Vec::with_capacity(n + 1);
     for k in 0..n {
@@ -274,13 +240,32 @@ pub fn classify(domain: &dyn Domain, grid: Grid) -> Result<Classified> {
         if !fluid[k] {
             continue;
         }
-        for d in Dir::ALL {
-            let t = theta[k][d as usize];
-            if t != 0.0 {
+        let (i, j) = grid.ij(k);
+        let (e, w) = link_thetas(
+            &rows[j],
+            i as f64 * h,
+            h,
+            is_fluid(grid.neighbour(k, Dir::East)),
+            is_fluid(grid.neighbour(k, Dir::West)),
+        );
+        let (no, so) = link_thetas(
+            &cols[i],
+            j as f64 * h,
+            h,
+            is_fluid(grid.neighbour(k, Dir::North)),
+            is_fluid(grid.neighbour(k, Dir::South)),
+        );
+        for (d, t) in [
+            (Dir::East, e),
+            (Dir::West, w),
+            (Dir::North, no),
+            (Dir::South, so),
+        ] {
+            if let Some(theta) = t {
                 cuts.push(Cut {
                     node: k,
                     dir: d,
-                    theta: t,
+                    theta,
                 });
             }
         }
@@ -289,19 +274,66 @@ pub fn classify(domain: &dyn Domain, grid: Grid) -> Result<Classified> {
     if cuts.len() > u32::MAX as usize {
         return Err(Error::param("--cells", "the grid is too large"));
     }
-    let out = Classified {
+    let mut out = Classified {
         grid,
         fluid,
         cuts,
         cut_start,
     };
+    make_links_symmetric(&mut out);
     if out.fluid_count() == 0 {
         return Err(Error::geometry(
-            "no grid node lies in the fluid: the cross-section is empty or too thin for the grid \
+            "no grid node lies in the fluid: the cross-section is too thin for the grid \
              (raise --cells)",
         ));
     }
     Ok(out)
+}
+
+/// A link is regular only if neither end sees a wall on it. Row and column crossings of a
+/// consistent geometry agree, so this changes nothing in practice; it guarantees a symmetric
+/// matrix whatever round-off does (an end that saw no wall gets θ = 1).
+fn make_links_symmetric(c: &mut Classified) {
+    let g = c.grid;
+    let mut extra = Vec::new();
+    for k in 0..g.len() {
+        if !c.fluid[k] {
+            continue;
+        }
+        for (d, back) in [
+            (Dir::East, Dir::West),
+            (Dir::West, Dir::East),
+            (Dir::North, Dir::South),
+            (Dir::South, Dir::North),
+        ] {
+            if c.theta(k, d).is_some() {
+                continue;
+            }
+            if let Some(m) = g.neighbour(k, d) {
+                if c.fluid[m] && c.theta(m, back).is_some() {
+                    extra.push(Cut {
+                        node: k,
+                        dir: d,
+                        theta: 1.0,
+                    });
+                }
+            }
+        }
+    }
+    if extra.is_empty() {
+        return;
+    }
+    let mut all: Vec<Cut> = c.cuts.drain(..).chain(extra).collect();
+    all.sort_by_key(|cut| (cut.node, cut.dir as u8));
+    let mut start = vec![0u32; g.len() + 1];
+    for cut in &all {
+        start[cut.node + 1] += 1;
+    }
+    for k in 0..g.len() {
+        start[k + 1] += start[k];
+    }
+    c.cuts = all;
+    c.cut_start = start;
 }
 
 #[cfg(test)]

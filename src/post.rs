@@ -267,14 +267,22 @@ impl<'a> LocalFit<'a> {
         }
         self.rows.clear();
         let weight = |x: [f64; 2]| (-(x[0] * x[0] + x[1] * x[1]) / (r * r)).exp();
+        // Only data on the fluid side of the tangent line at p (up to half a cell beyond it): next
+        // to a re-entrant corner the far face of the corner would otherwise pull the smooth
+        // model towards the corner's singular field.
+        let half = 0.5;
+        let side = |x: [f64; 2]| x[0] * n_out[0] + x[1] * n_out[1];
         for &k in &self.set {
             let x = rel(k);
             let q = self.num.unknown_of[k];
+            if side(x) > half {
+                continue;
+            }
             self.rows.push((x, self.u[q as usize], weight(x), false));
             for cut in c.cuts_of(k) {
                 let wpt = c.wall_point(cut);
                 let xw = [(wpt[0] - p[0]) / h, (wpt[1] - p[1]) / h];
-                if xw[0] * xw[0] + xw[1] * xw[1] <= r * r {
+                if xw[0] * xw[0] + xw[1] * xw[1] <= r * r && side(xw) <= half {
                     self.rows.push((xw, 0.0, weight(xw), true));
                 }
             }
