@@ -1059,17 +1059,4 @@ mod tests {
         assert!(ellipse_perimeter(0.0, 1.0).is_nan());
         assert!(ellipse_wall_shear_extremes_over_mean(-1.0).0.is_nan());
     }
-
-    #[test]
-    #[ignore = "prints the values for the report"]
-    fn print_values() {
-        for c in cases() {
-            println!(
-                "{:10} f·Re = {:.6}  u_max/ū = {:.6}  A = {:.6}  P = {:.6}  I = {:.6e}",
-                c.key, c.fanning_f_re, c.max_to_mean_velocity, c.area, c.perimeter, c.flow_integral
-            );
-        }
-        let (mx, mn) = ellipse_wall_shear_extremes_over_mean(0.5);
-        println!("ellipse shear max/mean = {mx:.6}, min/mean = {mn:.6}");
-    }
 }

@@ -235,9 +235,9 @@ pub fn classify(domain: &dyn Domain, grid: Grid) -> Result<Classified> {
     let is_fluid = |k: Option<usize>| k.is_some_and(|m| fluid[m]);
     let mut cuts = Vec::new();
     let mut cut_start = Vec::with_capacity(n + 1);
-    for k in 0..n {
+    for (k, &is_fluid_node) in fluid.iter().enumerate() {
         cut_start.push(cuts.len() as u32);
-        if !fluid[k] {
+        if !is_fluid_node {
             continue;
         }
         let (i, j) = grid.ij(k);

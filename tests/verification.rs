@@ -528,3 +528,41 @@ fn union_of_two_overlapping_circles() {
         rel_err(f1, f2)
     );
 }
+
+#[test]
+fn mask_of_a_circle_400_pixels() {
+    // A binary mask of a circle 400 px across (wall on the pixel faces): f·Re within 1 % of 16
+    // (Hagen–Poiseuille, exact) and the sub-pixel contour perimeter within 1 % of π·d (exact
+    // geometry, common practice, no source).
+    use canalis::geometry::mask::Mask;
+    use canalis::geometry::Domain;
+    use canalis::grid::Grid;
+    use canalis::pipeline::{solve_unit, UnitOptions};
+    let (n, d) = (420usize, 400.0);
+    let c = [210.3, 209.6];
+    let (mask, _warnings) = Mask::from_fn(n, n, 1e-5, |col, row| {
+        let (x, y) = (col as f64 + 0.5 - c[0], row as f64 + 0.5 - c[1]);
+        x * x + y * y < 0.25 * d * d
+    })
+    .expect("mask");
+    let grid = Grid::from_lattice(mask.lattice().expect("a mask has a lattice"));
+    let sol = solve_unit(&mask, grid, false, &UnitOptions::default()).expect("solve");
+    let f = &sol.figures;
+    let p_exact = std::f64::consts::PI * d * 1e-5;
+    println!(
+        "mask circle 400 px: f·Re {:.5} (error {:.2e}), perimeter error {:.2e}",
+        f.fanning_f_re,
+        (f.fanning_f_re - 16.0) / 16.0,
+        (f.perimeter - p_exact) / p_exact
+    );
+    assert!(
+        (f.fanning_f_re - 16.0).abs() / 16.0 < 1e-2,
+        "{}",
+        f.fanning_f_re
+    );
+    assert!(
+        (f.perimeter - p_exact).abs() / p_exact < 1e-2,
+        "{}",
+        f.perimeter
+    );
+}

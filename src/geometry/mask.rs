@@ -26,40 +26,58 @@
 //!    pixels touch only at a corner the chain turns so as to keep them apart.
 //! 2. Along each chain the *maximal digital straight segments* are found: the longest runs of
 //!    consecutive faces that are the digitisation of some straight line (the points of the chain
-//!    lie in a strip μ ≤ a·x − b·y < μ + |a| + |b|, arithmetic definition of Reveillès; tested
-//!    here through the convex hull of the run: a run with steps only along two perpendicular
-//!    directions e₁, e₂, at local coordinates (x_k, y_k) after k steps, is straight iff
-//!    min over t ∈ [0, 1] of the spread of t·x_k − (1−t)·y_k is below 1, the minimum being taken
-//!    at the direction of a hull edge). The direction (1−t)·e₁ + t·e₂ at the minimum is the
-//!    segment's slope.
+//!    lie in a strip μ ≤ a·x − b·y < μ + |a| + |b|, the arithmetic line of Reveillès, 1991, from
+//!    memory). Test used here: a run with steps only along two perpendicular directions e₁, e₂,
+//!    at local coordinates (x_k, y_k) after k steps, is straight iff the minimum over t ∈ [0, 1]
+//!    of the spread of t·x_k − (1−t)·y_k is below 1; that spread is convex and piecewise linear
+//!    in t with its breaks at the directions of the convex-hull edges of the points, so trying
+//!    those finds the minimum exactly. The direction (1−t)·e₁ + t·e₂ at the minimum is the
+//!    segment's slope. The runs are found for every start face with two pointers (the end of the
+//!    longest run never moves back), at most 512 faces long.
 //! 3. The tangent at each face is the weighted mean of the slopes of all maximal segments that
 //!    cover it, weight λ(e)·L⁸, with e ∈ (0, 1) the position of the face in the segment,
-//!    λ(e) = 64·e³(1−e)³ (the smooth bump of the λ-maximal-segment tangent estimator of Lachaud,
-//!    Vialard and de Vieilleville, 2007) and L the segment length in faces (longer segments fix
-//!    the slope better; the power 8 was tuned on the test cases below).
-//! 4. Tangent projection (a Cauchy–Crofton type estimator): a wall at angle φ crosses, per unit
-//!    length, |sin φ| faces normal to x and |cos φ| faces normal to y, so a face with unit
-//!    outward normal n_f under the true wall normal n contributes p·(n·n_f), and the total is the
-//!    wall length, exact for straight walls with the right normal. The error is second order in
-//!    the normal error (cos δ ≈ 1 − δ²/2) plus O(p) per corner of a polygon (where the count
-//!    of faces of each side is only known to ±1).
+//!    λ(e) = 64·e³(1−e)³ (the bump of the λ-maximal-segment tangent estimator of Lachaud,
+//!    Vialard and de Vieilleville, Image Vision Comput. 2007, from memory) and L the segment
+//!    length in faces (longer segments fix the slope better; the power 8 was tuned on discs).
+//! 4. Tangent projection: a straight wall at angle φ to the x axis crosses, per unit length,
+//!    |cos φ| faces whose normal is ±y and |sin φ| faces whose normal is ±x, so a face with unit
+//!    vector e_f (along the chain) under the true unit tangent t stands for p·(t·e_f) of wall,
+//!    and the sum is the wall length, exact for a straight wall with the right tangent. The
+//!    error is second order in the tangent error (cos δ ≈ 1 − δ²/2) …
+//! 5. … plus O(p) at each corner of a polygonal wall, where the number of faces of each side is
+//!    only known to ±1. By summation by parts the estimate is Σ_i V_i·(t_{i−1} − t_i) over the
+//!    staircase vertices V_i: the turning of the wall is charged at the vertices, and at a corner
+//!    the whole turn falls on vertices up to a pixel from the true corner. Where the dominant
+//!    (largest-weight) segments on the two sides of a vertex turn by more than 30°, both are at
+//!    least 8 faces long, the tangent has settled on their directions within 3° four faces
+//!    either side, and the sharp corner X where their lines meet (fitted to the middle half of
+//!    each segment) is within 2.5 pixels and reproduces every pixel of the mask within 4 pixels
+//!    of it, the vertices of that span are moved to X (see `correct_corners`). Rounded corners
+//!    fail the last test and keep the plain estimate.
 //!
-//! Measured (unit tests below, 3 sub-pixel centre offsets each): binary discs of 100, 200 and
-//! 400 pixels across give the perimeter πd to better than about 0.1 %, 0.06 % and 0.02 %; squares
-//! of 100 pixels aligned with the pixels or turned by 30° and 45° give 4·side to about 0.3 %
-//! (the corner term), 200 pixels to about 0.15 %. For comparison the 0.5 iso-line of a
-//! Gaussian-smoothed mask traced by marching squares, σ = 1 pixel, was measured at +0.53 % on the
-//! discs and −0.85 % on the 100-pixel squares (corners are rounded off), σ = 1.5 at +0.15 % and
-//! −1.25 %: smoothing cannot serve both.
+//! Measured (unit tests below and a wider survey with 12 random sub-pixel offsets per case,
+//! perimeter errors): binary discs of 50, 100, 200 and 400 pixels across +0.10…+0.44 %,
+//! −0.01…+0.12 %, +0.02…+0.06 %, −0.003…+0.016 % (discs of 20–30 pixels up to 1.4 %); an
+//! ellipse 300 × 150 pixels below 0.1 %; squares of 100 pixels aligned with the pixels or turned
+//! by 10°, 30° or 60° within 0.05 %, turned by 45° −0.30…+0.41 % (a 45° wall is the same
+//! staircase for every offset within 0.35 pixel, so its place is only known to that); regular
+//! triangles, hexagons, octagons and 12-gons of circumradius 60 pixels within 0.55 % (a
+//! triangle tip that the digitisation leaves as a separate pixel adds its own contour, 4
+//! pixels); a 120 × 60 rectangle with corner radius 3 to 20 pixels within 1.2 %. For
+//! comparison, the 0.5 iso-line of a Gaussian-smoothed mask traced by marching squares measured
+//! +0.53 % on discs and −0.85 % on 100-pixel squares with σ = 1 pixel (corners are rounded
+//! off), +0.15 % and −1.25 % with σ = 1.5: smoothing cannot serve both, hence this method.
+//! Features only a few pixels across are not resolved (a disc 10 pixels across: up to +5 %).
 //!
 //! The wall samples (one per face, split further when the requested spacing is finer) lie on the
-//! estimated wall: each covering segment's straight line (slope as above, through the centroid
-//! of its face midpoints) gives the foot of the perpendicular from the face midpoint, and these
-//! are averaged with the same weights. They are within about half a pixel of the staircase
-//! (which is where the solver's wall actually is); the normals are the estimated ones. The area
-//! reported with the walls is the fluid pixel count × p², the area of the staircase domain the
-//! solver integrates over, so that A, the flow integral and the force balance refer to the same
-//! domain.
+//! estimated wall: each covering segment's straight line (fitted to the middle half of the
+//! segment: slope as above, through the centroid of its face midpoints) gives the foot of the
+//! perpendicular from the face midpoint, and these are averaged with the same weights. They are
+//! within about half a pixel of the staircase (which is where the solver's wall actually is);
+//! the normals are the estimated ones; each sample carries the length of wall its face stands
+//! for, so Σ ds is the perimeter. The area reported with the walls is the fluid pixel count ×
+//! p², the area of the staircase domain the solver integrates over, so that A, the flow
+//! integral and the force balance refer to the same domain.
 
 use super::{Domain, Lattice, Point, WallSample, Walls};
 use crate::error::{Error, Result};
@@ -141,7 +159,14 @@ const CORNER_SPAN: usize = 4;
 
 /// Shortest dominant segment (faces) on either side of a corner for the corner to be rebuilt:
 /// features of a few pixels carry no information on their shape beyond the staircase.
-const MIN_CORNER_SIDE: usize = 4;
+const MIN_CORNER_SIDE: usize = 8;
+
+/// Largest angle between the tangent at either end of a corner's span and the direction of the
+/// straight wall on that side, degrees.
+const CORNER_SETTLED: f64 = 3.0;
+
+/// Radius round a rebuilt corner within which it must reproduce the mask, pixels.
+const CORNER_CHECK: f64 = 4.0;
 
 /// Farthest a reconstructed corner may lie from its staircase vertex, pixels.
 const CORNER_REACH: f64 = 2.5;
@@ -407,6 +432,37 @@ impl Mask {
         Some((col, self.height - 1 - up))
     }
 
+    /// [`Domain::wall_crossings`] along axis `a` (0 = x, 1 = y) for a line whose other
+    /// coordinate lies inside the image: the faces at c·p, c = 0..=count, where the pixels on
+    /// their two sides differ (outside the image is solid), as s = (c·p − origin_a)/d.
+    fn axis_crossings(&self, a: usize, origin: Point, d: f64) -> Vec<f64> {
+        let p = self.pixel;
+        let other = origin[1 - a] / p;
+        // The pixel line the ray runs along (checked inside the image by the caller).
+        let k = (other.floor() as usize).min(if a == 0 { self.height } else { self.width } - 1);
+        let count = if a == 0 { self.width } else { self.height };
+        let at = |c: usize| -> bool {
+            if a == 0 {
+                self.fluid[(self.height - 1 - k) * self.width + c]
+            } else {
+                self.fluid[(self.height - 1 - c) * self.width + k]
+            }
+        };
+        let mut out = Vec::new();
+        let mut prev = false;
+        for c in 0..=count {
+            let cur = c < count && at(c);
+            if cur != prev {
+                out.push((c as f64 * p - origin[a]) / d);
+                prev = cur;
+            }
+        }
+        if d < 0.0 {
+            out.reverse();
+        }
+        out
+    }
+
     /// Traces every closed boundary chain of the fluid pixels.
     ///
     /// A face is a boundary face when it separates a fluid pixel from a solid one (or from the
@@ -602,8 +658,9 @@ fn convex_hull(pts: &[[f64; 2]]) -> Vec<[f64; 2]> {
     hull
 }
 
-/// Tangent and wall point at every face of a chain (see the module documentation, steps 2–3).
-fn estimate(chain: &Chain) -> Vec<FaceEstimate> {
+/// Tangent, wall point and length of wall at every face of a chain (module documentation,
+/// steps 2–5), pixel units.
+fn estimate(chain: &Chain, fluid: &dyn Fn(i64, i64) -> bool) -> Vec<FaceEstimate> {
     let edges = &chain.edges;
     let n = edges.len();
     let code = |i: usize| edges[i % n].1;
@@ -621,20 +678,20 @@ fn estimate(chain: &Chain) -> Vec<FaceEstimate> {
     // f[i]: last face of the longest straight run starting at face i (indices unwrapped).
     let mut f = vec![0usize; n];
     let mut j = 0usize;
-    for i in 0..n {
+    for (i, fi) in f.iter_mut().enumerate() {
         if j < i {
             j = i;
         }
         while j + 2 - i <= max_len && straight((i..=j + 1).map(code), &mut buf).is_some() {
             j += 1;
         }
-        f[i] = j;
+        *fi = j;
     }
     let mut tan = vec![[0.0f64; 2]; n];
     let mut pos = vec![[0.0f64; 2]; n];
     let mut wsum = vec![0.0f64; n];
-    // Lines of the maximal segments (centroid of the face midpoints, unit direction), and for
-    // each face the segment of largest weight covering it (its "dominant" segment).
+    // Lines of the maximal segments (a point, the unit direction, the segment length in faces),
+    // and for each face the segment of largest weight covering it (its "dominant" segment).
     let mut lines: Vec<(Point, Point, usize)> = Vec::new();
     let mut dom = vec![(usize::MAX, 0.0f64); n];
     for i in 0..n {
@@ -654,9 +711,11 @@ fn estimate(chain: &Chain) -> Vec<FaceEstimate> {
         let weight = (len as f64).powi(LENGTH_POWER);
         // The line of the segment, for the wall points and the corners: its end faces may
         // belong to the next stretch of wall (a straight run of N faces and the first face
-        // round a corner form a segment of slope 1/N), so it is fitted to the segment without
-        // its first and last face when it has at least four.
-        let (ti, tj) = if len >= 4 { (i + 1, j - 1) } else { (i, j) };
+        // round a corner form a segment of slope 1/N; a straight wall running into a small
+        // arc takes in the first steps of the arc), so it is fitted to the middle half of the
+        // segment.
+        let trim = len / 4;
+        let (ti, tj) = (i + trim, j - trim);
         let dl = straight((ti..=tj).map(code), &mut buf).unwrap_or(d);
         let mut c = [0.0, 0.0];
         for k in ti..=tj {
@@ -706,9 +765,7 @@ fn estimate(chain: &Chain) -> Vec<FaceEstimate> {
             tangents[i][0] * s[0] as f64 + tangents[i][1] * s[1] as f64
         })
         .collect();
-    if std::env::var("MASK_NOCORNER").is_err() {
-        correct_corners(edges, &tangents, &dom, &lines, &mut ds);
-    }
+    correct_corners(edges, &tangents, &dom, &lines, fluid, &mut ds);
     (0..n)
         .map(|i| {
             let point = if wsum[i] > 0.0 && wsum[i].is_finite() {
@@ -733,16 +790,21 @@ fn estimate(chain: &Chain) -> Vec<FaceEstimate> {
 /// every vertex and the half-pixel scatter of the vertices averages out; at a corner the whole
 /// turn falls on a few vertices up to about a pixel from the true corner, an error of O(1)
 /// pixel per corner. So where the dominant segments on the two sides of a vertex turn by more
-/// than [`CORNER_ANGLE`], the corner X is taken as the intersection of their lines and the
-/// vertices V_k within [`CORNER_SPAN`] faces (and nearer to this corner than to the next)
-/// are replaced by X: the estimate changes by δ = Σ_k (X − V_k)·(t_{k−1} − t_k), which is
-/// spread over the faces of that span in proportion to their lengths. For a polygon this
-/// recovers the length of the straight sides up to their intersections.
+/// than [`CORNER_ANGLE`], the corner X is taken as the intersection of their lines
+/// ([`corner_point`], which also asks for straight stretches of [`MIN_CORNER_SIDE`] faces and
+/// X within [`CORNER_REACH`]) provided the sharp corner reproduces the mask round it
+/// ([`corner_fits`]), and the vertices V_k within [`CORNER_SPAN`] faces (and short of half-way
+/// to the next corner) are replaced by X, provided the tangent has settled within
+/// [`CORNER_SETTLED`] on the two sides' directions at the ends of that span. The estimate
+/// changes by δ = Σ_k (X − V_k)·(t_{k−1} − t_k), which is spread over the faces of the span in
+/// proportion to their lengths. For a polygon this recovers the length of the straight sides
+/// up to their intersections.
 fn correct_corners(
     edges: &[([i64; 2], u8)],
     tangents: &[Point],
     dom: &[(usize, f64)],
     lines: &[(Point, Point, usize)],
+    fluid: &dyn Fn(i64, i64) -> bool,
     ds: &mut [f64],
 ) {
     let n = edges.len();
@@ -751,18 +813,20 @@ fn correct_corners(
         [v[0] as f64, v[1] as f64]
     };
     // Corner vertices and their corner points.
-    let mut corners: Vec<(usize, Point)> = Vec::new();
+    let mut corners: Vec<(usize, Point, Point, Point)> = Vec::new();
     for i in 0..n {
         let (a, b) = (dom[(i + n - 1) % n].0, dom[i].0);
         if a == b || a == usize::MAX || b == usize::MAX {
             continue;
         }
         if let Some(x) = corner_point(lines[a], lines[b], vertex(i)) {
-            corners.push((i, x));
+            if corner_fits(lines[a], lines[b], x, fluid) {
+                corners.push((i, x, lines[a].1, lines[b].1));
+            }
         }
     }
     let m = corners.len();
-    for (ci, &(i, x)) in corners.iter().enumerate() {
+    for (ci, &(i, x, da, db)) in corners.iter().enumerate() {
         // Half-width of the span: up to CORNER_SPAN, and short of half-way to the neighbours.
         let gap = |other: usize, forward: bool| {
             if m == 1 {
@@ -780,7 +844,14 @@ fn correct_corners(
         if fwd + back + 2 > n {
             continue;
         }
-        // Vertices k = i − back ..= i + fwd; faces i − back − 1 ..= i + fwd.
+        // Vertices k = i − back ..= i + fwd; faces i − back − 1 ..= i + fwd. The tangent must
+        // have settled on the two sides' directions at the ends of the span, else the turning
+        // is not all this corner's (a rounded corner, a curve running into a straight wall).
+        let (ta, tb) = (tangents[(i + n - back - 1) % n], tangents[(i + fwd) % n]);
+        let settled = CORNER_SETTLED.to_radians().cos();
+        if ta[0] * da[0] + ta[1] * da[1] < settled || tb[0] * db[0] + tb[1] * db[1] < settled {
+            continue;
+        }
         let mut delta = 0.0;
         for off in 0..=(back + fwd) {
             let k = (i + n - back + off) % n;
@@ -796,9 +867,6 @@ fn correct_corners(
             continue;
         }
         let factor = 1.0 + delta / total;
-        if std::env::var("MASK_DEBUG").is_ok() {
-            eprintln!("corner at {i} v={:?} x={x:?} back {back} fwd {fwd} delta {delta:.4} total {total:.4} dom {:?} {:?}", vertex(i), lines[dom[(i + n - 1) % n].0], lines[dom[i].0]);
-        }
         if factor < 0.25 {
             continue;
         }
@@ -806,6 +874,46 @@ fn correct_corners(
             ds[k] *= factor;
         }
     }
+}
+
+/// Does the sharp corner at `x` between the lines of `a` (before) and `b` (after) digitise to
+/// the mask? Every pixel centre within [`CORNER_CHECK`] pixels of `x` must be fluid exactly when
+/// it lies on the fluid side (the left) of both lines at a convex corner, of either line at a
+/// concave one; centres within 0.1 pixel of a line are not counted. A rounded corner fails:
+/// the sharp corner would take in pixels between the arc and the corner that are solid.
+fn corner_fits(
+    a: (Point, Point, usize),
+    b: (Point, Point, usize),
+    x: Point,
+    fluid: &dyn Fn(i64, i64) -> bool,
+) -> bool {
+    let ((ca, da, _), (cb, db, _)) = (a, b);
+    let convex = da[0] * db[1] - da[1] * db[0] > 0.0;
+    let side = |c: Point, d: Point, p: Point| d[0] * (p[1] - c[1]) - d[1] * (p[0] - c[0]);
+    let r = CORNER_CHECK;
+    let (x0, x1) = ((x[0] - r).floor() as i64, (x[0] + r).ceil() as i64);
+    let (y0, y1) = ((x[1] - r).floor() as i64, (x[1] + r).ceil() as i64);
+    for py in y0..=y1 {
+        for px in x0..=x1 {
+            let q = [px as f64 + 0.5, py as f64 + 0.5];
+            if (q[0] - x[0]).hypot(q[1] - x[1]) > r {
+                continue;
+            }
+            let (sa, sb) = (side(ca, da, q), side(cb, db, q));
+            if sa.abs() < 0.1 || sb.abs() < 0.1 {
+                continue;
+            }
+            let inside = if convex {
+                sa > 0.0 && sb > 0.0
+            } else {
+                sa > 0.0 || sb > 0.0
+            };
+            if inside != fluid(px, py) {
+                return false;
+            }
+        }
+    }
+    true
 }
 
 /// The corner between two straight stretches of wall, if the dominant segments `a` (before the
@@ -871,8 +979,15 @@ impl Domain for Mask {
                 s_hi = s_hi.min(s1.max(s2));
             }
         }
-        if !(s_lo < s_hi) {
+        if s_lo.partial_cmp(&s_hi) != Some(std::cmp::Ordering::Less) {
             return Vec::new();
+        }
+        // Axis-aligned (the grid's case): walk the pixel row or column directly.
+        for a in 0..2 {
+            let b = 1 - a;
+            if dir[b] == 0.0 {
+                return self.axis_crossings(a, origin, dir[a]);
+            }
         }
         let mut cand = vec![s_lo, s_hi];
         for a in 0..2 {
@@ -917,7 +1032,7 @@ impl Domain for Mask {
         };
         for (ci, chain) in chains.iter().enumerate() {
             walls.names.push(format!("contour {}", ci + 1));
-            let est = estimate(chain);
+            let est = estimate(chain, &|x, y| self.fluid_up(x, y));
             let mut s = 0.0;
             for e in &est {
                 let t = e.tangent;
@@ -1039,6 +1154,62 @@ mod tests {
         }
     }
 
+    /// Binary image of `inside(x, y)` (pixel units, origin at the image centre shifted by
+    /// `off`), n × n pixels of size 1.
+    fn raster(n: usize, off: [f64; 2], inside: impl Fn(f64, f64) -> bool) -> Mask {
+        let c = [0.5 * n as f64 + off[0], 0.5 * n as f64 + off[1]];
+        Mask::from_fn(n, n, 1.0, |col, row| {
+            inside(col as f64 + 0.5 - c[0], (n - 1 - row) as f64 + 0.5 - c[1])
+        })
+        .unwrap()
+        .0
+    }
+
+    #[test]
+    fn polygon_and_rounded_corner_perimeters() {
+        // Regular n-gon of circumradius R: P = 2nR·sin(π/n); rectangle w × h with corner
+        // radius r: P = 2(w + h) − 8r + 2πr (common practice, no source).
+        for (sides, ang) in [(3usize, 0.1f64), (6, 0.37), (8, 0.1)] {
+            let rr = 60.0;
+            let exact = 2.0 * sides as f64 * rr * (PI / sides as f64).sin();
+            let apothem = rr * (PI / sides as f64).cos();
+            for off in OFFSETS {
+                let m = raster(140, off, |x, y| {
+                    (0..sides).all(|k| {
+                        let phi = ang + (k as f64 + 0.5) * 2.0 * PI / sides as f64;
+                        x * phi.cos() + y * phi.sin() < apothem
+                    })
+                });
+                let err = m.walls(1.0).perimeter / exact - 1.0;
+                eprintln!(
+                    "{sides}-gon R 60 px at {ang} rad, offset {off:?}: {:+.4} %",
+                    100.0 * err
+                );
+                assert!(err.abs() < 0.01, "{sides}-gon: {err}");
+            }
+        }
+        let (w, h) = (120.0f64, 60.0f64);
+        for (r, ang) in [(5.0f64, 0.0f64), (10.0, 0.3), (20.0, 0.785)] {
+            let (s, c) = ang.sin_cos();
+            let exact = 2.0 * (w + h) - 8.0 * r + 2.0 * PI * r;
+            for off in OFFSETS {
+                let m = raster(150, off, |x, y| {
+                    let (u, v) = ((c * x + s * y).abs(), (-s * x + c * y).abs());
+                    let du = (u - (0.5 * w - r)).max(0.0);
+                    let dv = (v - (0.5 * h - r)).max(0.0);
+                    u < 0.5 * w && v < 0.5 * h && du * du + dv * dv < r * r
+                });
+                let err = m.walls(1.0).perimeter / exact - 1.0;
+                eprintln!(
+                    "rectangle 120 × 60 px, corner radius {r} px, at {ang} rad, offset {off:?}: \
+                     {:+.4} %",
+                    100.0 * err
+                );
+                assert!(err.abs() < 0.01, "r = {r}: {err}");
+            }
+        }
+    }
+
     #[test]
     fn ellipse_and_annulus_perimeters() {
         // Ellipse a = 150, b = 75 px: Ramanujan's second approximation (from memory), far more
@@ -1071,7 +1242,7 @@ mod tests {
             let x = col as f64 + 0.5 - c;
             let y = (n - 1 - row) as f64 + 0.5 - c;
             let r2 = x * x + y * y;
-            r2 < 100.0 * 100.0 && r2 >= 50.0 * 50.0
+            (50.0 * 50.0..100.0 * 100.0).contains(&r2)
         })
         .unwrap()
         .0;
@@ -1205,7 +1376,7 @@ mod tests {
     #[test]
     fn lattice_maps_nodes_to_pixel_centres() {
         let (w, h) = (7, 4);
-        let fl = |c: usize, r: usize| (c * 3 + r * 5) % 4 == 0 || (c == 2 && r == 3);
+        let fl = |c: usize, r: usize| (c * 3 + r * 5).is_multiple_of(4) || (c == 2 && r == 3);
         let p = 0.25;
         let m = Mask::from_fn(w, h, p, fl).unwrap().0;
         let l = m.lattice().unwrap();
@@ -1251,7 +1422,10 @@ mod tests {
             warn[0].contains("8 fluid pixels touch the image border"),
             "{warn:?}"
         );
-        assert!((m.walls(1.0).perimeter - 12.0).abs() < 1e-9);
+        // The 3 × 3 staircase has length 12; a shape this small could as well be rounder, so
+        // the estimate is a little less.
+        let per = m.walls(1.0).perimeter;
+        assert!((11.0..=12.0 + 1e-9).contains(&per), "{per}");
         assert_eq!(m.wall_crossings([-1.0, 1.5], [1.0, 0.0]), vec![1.0, 4.0]);
         let (_, warn) = Mask::from_fn(3, 3, 1.0, |c, r| c == 1 && r == 1).unwrap();
         assert!(warn.is_empty(), "{warn:?}");
@@ -1341,122 +1515,5 @@ mod tests {
         std::fs::write(&junk, b"this is not a picture").unwrap();
         let e = Mask::load(&junk, &mm).unwrap_err();
         assert!(e.to_string().contains("junk.dat"), "{e}");
-    }
-}
-#[cfg(test)]
-mod scratch {
-    use super::*;
-    use std::f64::consts::PI;
-    fn raster(n: usize, off: [f64; 2], f: impl Fn(f64, f64) -> bool) -> Mask {
-        let c = [0.5 * n as f64 + off[0], 0.5 * n as f64 + off[1]];
-        Mask::from_fn(n, n, 1.0, |col, row| {
-            let x = col as f64 + 0.5 - c[0];
-            let y = (n - 1 - row) as f64 + 0.5 - c[1];
-            f(x, y)
-        })
-        .unwrap()
-        .0
-    }
-    fn stats(name: &str, exact: f64, mk: impl Fn([f64; 2]) -> Mask) {
-        let mut lo: f64 = 1.0;
-        let mut hi: f64 = -1.0;
-        let mut sum = 0.0;
-        let mut k = 0;
-        let mut rng = 12345u64;
-        let mut rnd = || {
-            rng = rng
-                .wrapping_mul(6364136223846793005)
-                .wrapping_add(1442695040888963407);
-            (rng >> 11) as f64 / (1u64 << 53) as f64
-        };
-        for _ in 0..12 {
-            let off = [rnd(), rnd()];
-            let m = mk(off);
-            let e = m.walls(1.0).perimeter / exact - 1.0;
-            lo = lo.min(e);
-            hi = hi.max(e);
-            sum += e;
-            k += 1;
-        }
-        eprintln!(
-            "{name:40}: min {:+.3}% max {:+.3}% mean {:+.3}%",
-            lo * 100.0,
-            hi * 100.0,
-            sum / k as f64 * 100.0
-        );
-    }
-    #[test]
-    fn scan_all() {
-        for d in [10.0f64, 20.0, 30.0, 50.0, 75.0, 100.0, 150.0, 200.0, 400.0] {
-            stats(&format!("disc {d}"), PI * d, |off| {
-                raster(d as usize + 8, off, |x, y| x * x + y * y < 0.25 * d * d)
-            });
-        }
-        for (a, b) in [(100.0f64, 50.0f64), (150.0, 30.0), (60.0, 10.0)] {
-            let hh = ((a - b) / (a + b)).powi(2);
-            let ram = PI * (a + b) * (1.0 + 3.0 * hh / (10.0 + (4.0 - 3.0 * hh).sqrt()));
-            for ang in [0.0f64, 0.3, 0.785] {
-                let (s, c) = ang.sin_cos();
-                stats(&format!("ellipse {a}x{b} ang {ang}"), ram, |off| {
-                    raster(2 * a as usize + 8, off, |x, y| {
-                        let u = c * x + s * y;
-                        let v = -s * x + c * y;
-                        (u / a).powi(2) + (v / b).powi(2) < 1.0
-                    })
-                });
-            }
-        }
-        for r in [3.0f64, 5.0, 10.0, 20.0] {
-            let (w, h) = (120.0f64, 60.0f64);
-            for ang in [0.0f64, 0.3, 0.785] {
-                let (s, c) = ang.sin_cos();
-                let exact = 2.0 * (w + h) - 8.0 * r + 2.0 * PI * r;
-                stats(&format!("rrect 120x60 r {r} ang {ang}"), exact, |off| {
-                    raster(150, off, |x, y| {
-                        let u = (c * x + s * y).abs();
-                        let v = (-s * x + c * y).abs();
-                        let du = (u - (0.5 * w - r)).max(0.0);
-                        let dv = (v - (0.5 * h - r)).max(0.0);
-                        u < 0.5 * w && v < 0.5 * h && du * du + dv * dv < r * r
-                    })
-                });
-            }
-        }
-        for nside in [3usize, 6, 8, 12] {
-            let rr = 60.0f64;
-            for ang in [0.0f64, 0.1, 0.37] {
-                let exact = 2.0 * nside as f64 * rr * (PI / nside as f64).sin();
-                stats(&format!("{nside}-gon R 60 ang {ang}"), exact, |off| {
-                    raster(140, off, |x, y| {
-                        (0..nside).all(|k| {
-                            let phi = ang + (k as f64 + 0.5) * 2.0 * PI / nside as f64;
-                            x * phi.cos() + y * phi.sin() < rr * (PI / nside as f64).cos()
-                        })
-                    })
-                });
-            }
-        }
-    }
-    #[test]
-    fn big_timing() {
-        let d = 3900.0f64;
-        let t0 = std::time::Instant::now();
-        let m = raster(4000, [0.3, 0.2], |x, y| x * x + y * y < 0.25 * d * d);
-        let t1 = std::time::Instant::now();
-        let w = m.walls(0.5);
-        let t2 = std::time::Instant::now();
-        eprintln!(
-            "4000^2 disc: build {:?} walls {:?} err {:+.4}% samples {}",
-            t1 - t0,
-            t2 - t1,
-            (w.perimeter / (PI * d) - 1.0) * 100.0,
-            w.samples.len()
-        );
-        let t3 = std::time::Instant::now();
-        let mut k = 0;
-        for j in 0..4000 {
-            k += m.wall_crossings([0.5, j as f64 + 0.5], [1.0, 0.0]).len();
-        }
-        eprintln!("crossings {:?} {k}", t3.elapsed());
     }
 }
