@@ -346,14 +346,14 @@ fn run_verify(cells: usize) -> Result<bool, Error> {
         "Verification at {cells} cells across (exact solutions of fully developed laminar flow)"
     );
     println!(
-        "{:<28} {:<32} {:>14} {:>14} {:>10} {:>9}  result",
+        "{:<42} {:<32} {:>14} {:>14} {:>10} {:>9}  result",
         "case", "quantity", "value", "reference", "error", "limit"
     );
     let mut all = true;
     for c in &checks {
         all &= c.passed();
         println!(
-            "{:<28} {:<32} {:>14.8} {:>14.8} {:>10.2e} {:>9.1e}  {}",
+            "{:<42} {:<32} {:>14.8} {:>14.8} {:>10.2e} {:>9.1e}  {}",
             c.case,
             c.quantity,
             c.value,
