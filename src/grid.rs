@@ -51,13 +51,15 @@ pub struct Grid {
 
 impl Grid {
     /// A grid of `cells` cells across the longer side of the box `(lo, hi)`, nodes at the cell
-    /// centres; the shorter side gets as many cells of the same size as it needs, centred.
+    /// centres; the shorter side gets as many cells of the same size as it needs, centred. Like
+    /// every grid here it carries one extra ring of nodes outside the box, always solid, so that
+    /// every fluid node has all four neighbours inside the grid (branch-free stencil loops).
     pub fn covering(lo: Point, hi: Point, cells: usize) -> Grid {
         let ext = [hi[0] - lo[0], hi[1] - lo[1]];
         let long = ext[0].max(ext[1]);
         let h = long / cells as f64;
         let n = |e: f64| ((e / h) - 1e-9).ceil().max(1.0) as usize;
-        let (nx, ny) = (n(ext[0]), n(ext[1]));
+        let (nx, ny) = (n(ext[0]) + 2, n(ext[1]) + 2);
         let mid = [0.5 * (lo[0] + hi[0]), 0.5 * (lo[1] + hi[1])];
         Grid {
             origin: [
@@ -70,13 +72,18 @@ impl Grid {
         }
     }
 
-    /// The grid of a fixed lattice (a mask's pixel centres).
+    /// Cells across and down, without the solid ring.
+    pub fn cells(&self) -> (usize, usize) {
+        (self.nx - 2, self.ny - 2)
+    }
+
+    /// The grid of a fixed lattice (a mask's pixel centres), with the solid ring around it.
     pub fn from_lattice(l: Lattice) -> Grid {
         Grid {
-            origin: l.origin,
+            origin: [l.origin[0] - l.pitch, l.origin[1] - l.pitch],
             h: l.pitch,
-            nx: l.nx,
-            ny: l.ny,
+            nx: l.nx + 2,
+            ny: l.ny + 2,
         }
     }
 
@@ -382,7 +389,7 @@ mod tests {
         let (lo, hi) = s.bbox();
         let c = classify(&s, Grid::covering(lo, hi, 10)).unwrap();
         // Row through the fin: nodes 4 and 5 are fluid on either side of x = 0.
-        let k = c.grid.index(4, 5);
+        let k = c.grid.index(5, 6);
         assert!(c.fluid[k] && c.fluid[k + 1]);
         let t1 = c.theta(k, Dir::East).unwrap();
         let t2 = c.theta(k + 1, Dir::West).unwrap();

@@ -14,6 +14,7 @@ pub mod exact;
 pub mod fluids;
 pub mod geometry;
 pub mod grid;
+pub mod multigrid;
 pub mod operator;
 pub mod pipeline;
 pub mod post;

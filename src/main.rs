@@ -51,6 +51,8 @@ enum MaskFluid {
 
 #[derive(Clone, Copy, ValueEnum)]
 enum MethodArg {
+    /// Conjugate gradient preconditioned by a multigrid V-cycle (fast; the default).
+    Multigrid,
     /// Conjugate gradient with Jacobi preconditioning.
     Jacobi,
     /// Plain conjugate gradient (for checking).
@@ -109,7 +111,7 @@ struct SolveArgs {
     #[arg(long, value_name = "SIZE")]
     pixel: Option<String>,
     /// Preconditioner of the conjugate gradient.
-    #[arg(long, value_enum, default_value = "jacobi")]
+    #[arg(long, value_enum, default_value = "multigrid")]
     method: MethodArg,
     /// Largest estimated memory a solve may use, e.g. 4GiB, 512MiB [default: 4GiB].
     #[arg(long, value_name = "SIZE")]
@@ -206,6 +208,7 @@ fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
     let mut c = SolveConfig::new(input);
     c.cells = a.cells;
     c.unit.method = match a.method {
+        MethodArg::Multigrid => Method::Multigrid,
         MethodArg::Jacobi => Method::Jacobi,
         MethodArg::Plain => Method::Plain,
     };

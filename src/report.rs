@@ -39,8 +39,8 @@ pub fn json_report(o: &Outcome) -> Value {
     m.insert(
         "grid".into(),
         json!({
-            "cells_x": g.nx,
-            "cells_y": g.ny,
+            "cells_x": g.cells().0,
+            "cells_y": g.cells().1,
             "unknowns": o.unit.numbering.len(),
             "spacing_m": g.h,
         }),
@@ -140,9 +140,9 @@ pub fn summary(o: &Outcome) -> String {
         &mut s,
         "grid",
         format!(
-            "{} × {} nodes, spacing {}, {} unknowns",
-            g.nx,
-            g.ny,
+            "{} × {} cells, spacing {}, {} unknowns",
+            g.cells().0,
+            g.cells().1,
             length(g.h),
             o.unit.numbering.len()
         ),

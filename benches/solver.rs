@@ -1,0 +1,192 @@
+//! Solver benchmark: `cargo bench --bench solver` (or `cargo bench`).
+//!
+//! For each shape (circle, annulus, four-fin finned tube, L-shaped mask) and each size (128 to
+//! 4096 cells across), runs one solve in a child process (so that its peak memory is its own)
+//! and prints unknowns, iterations, assembly, setup, solve and total seconds (assembly + setup +
+//! solve, the grid classification included in assembly), post-processing seconds, and peak
+//! memory in bytes per unknown. Then fits the exponent of total time against unknowns from 256 to
+//! 2048 cells. Options: `--sizes 128,256`, `--shapes circle,annulus`, `--repeat N` (median of N
+//! runs, default 3), `--method multigrid|jacobi`.
+
+use canalis::geometry::builtin::parse_builtin;
+use canalis::geometry::mask::Mask;
+use canalis::geometry::Domain;
+use canalis::grid::Grid;
+use canalis::pipeline::{solve_unit, Method, UnitOptions};
+use std::process::Command;
+
+const SHAPES: [&str; 4] = ["circle", "annulus", "finned", "lmask"];
+const SIZES: [usize; 6] = [128, 256, 512, 1024, 2048, 4096];
+
+fn peak_rss_bytes() -> u64 {
+    std::fs::read_to_string("/proc/self/status")
+        .ok()
+        .and_then(|s| {
+            s.lines().find(|l| l.starts_with("VmHWM:")).and_then(|l| {
+                l.split_whitespace()
+                    .nth(1)
+                    .and_then(|v| v.parse::<u64>().ok())
+            })
+        })
+        .map(|kib| kib * 1024)
+        .unwrap_or(0)
+}
+
+/// One solve in this process; prints one line of numbers.
+fn child(shape: &str, cells: usize, method: Method) {
+    let opts = UnitOptions {
+        method,
+        ..Default::default()
+    };
+    let (domain, grid, exact): (Box<dyn Domain>, Grid, bool) = match shape {
+        "lmask" => {
+            // An L-shaped passage drawn as a binary mask, cells × cells pixels: the square
+            // minus its upper right quarter, with a two-pixel solid border.
+            let n = cells;
+            let (mask, _) = Mask::from_fn(n, n, 1e-3 / n as f64, |c, r| {
+                let border = c < 2 || r < 2 || c + 2 >= n || r + 2 >= n;
+                let cut = c >= n / 2 && r < n / 2;
+                !border && !cut
+            })
+            .expect("mask");
+            let g = Grid::from_lattice(mask.lattice().expect("lattice"));
+            (Box::new(mask), g, false)
+        }
+        name => {
+            let spec = match name {
+                "circle" => "circle:d=10mm",
+                "annulus" => "annulus:do=20mm,di=10mm,offset=2mm",
+                _ => "finned:d=16mm,fins=4,height=3mm,thickness=1mm",
+            };
+            let s = parse_builtin(spec).expect("shape");
+            let (lo, hi) = s.bbox();
+            (Box::new(s), Grid::covering(lo, hi, cells), true)
+        }
+    };
+    let sol = solve_unit(domain.as_ref(), grid, exact, &opts).expect("solve");
+    let t = sol.seconds;
+    println!(
+        "{} {} {:.6} {:.6} {:.6} {:.6} {:.6} {} {:.9}",
+        sol.numbering.len(),
+        sol.info.iterations,
+        t.grid + t.assembly,
+        t.setup,
+        t.solve,
+        t.post,
+        sol.figures.fanning_f_re,
+        peak_rss_bytes(),
+        sol.info.relative_residual
+    );
+}
+
+fn median(v: &mut [f64]) -> f64 {
+    v.sort_by(|a, b| a.total_cmp(b));
+    v[v.len() / 2]
+}
+
+fn main() {
+    let args: Vec<String> = std::env::args().collect();
+    let get = |key: &str| {
+        args.iter()
+            .position(|a| a == key)
+            .and_then(|i| args.get(i + 1).cloned())
+    };
+    let method = match get("--method").as_deref() {
+        Some("jacobi") => Method::Jacobi,
+        _ => Method::Multigrid,
+    };
+    if let (Some(shape), Some(cells)) = (get("--child-shape"), get("--child-cells")) {
+        child(&shape, cells.parse().expect("cells"), method);
+        return;
+    }
+    let sizes: Vec<usize> = get("--sizes")
+        .map(|s| s.split(',').filter_map(|v| v.parse().ok()).collect())
+        .unwrap_or_else(|| SIZES.to_vec());
+    let shapes: Vec<String> = get("--shapes")
+        .map(|s| s.split(',').map(str::to_string).collect())
+        .unwrap_or_else(|| SHAPES.iter().map(|s| s.to_string()).collect());
+    let repeat: usize = get("--repeat").and_then(|v| v.parse().ok()).unwrap_or(3);
+    let exe = std::env::current_exe().expect("own path");
+    println!(
+        "| shape | cells | unknowns | iterations | assembly s | setup s | solve s | total s | post s | peak B/unknown | f·Re |"
+    );
+    println!("|---|---|---|---|---|---|---|---|---|---|---|");
+    for shape in &shapes {
+        let mut fit: Vec<(f64, f64)> = Vec::new();
+        for &cells in &sizes {
+            let mut cols: Vec<Vec<f64>> = vec![Vec::new(); 9];
+            let mut iters = 0;
+            let mut unknowns = 0;
+            let mut fre = 0.0;
+            for _ in 0..repeat.max(1) {
+                let out = Command::new(&exe)
+                    .args([
+                        "--child-shape",
+                        shape,
+                        "--child-cells",
+                        &cells.to_string(),
+                        "--method",
+                        if method == Method::Jacobi {
+                            "jacobi"
+                        } else {
+                            "multigrid"
+                        },
+                        "--bench",
+                    ])
+                    .output()
+                    .expect("child");
+                let text = String::from_utf8_lossy(&out.stdout);
+                let line = text.lines().last().unwrap_or("");
+                let v: Vec<f64> = line
+                    .split_whitespace()
+                    .filter_map(|x| x.parse().ok())
+                    .collect();
+                if v.len() < 9 {
+                    eprintln!(
+                        "{shape} {cells}: child failed: {}",
+                        String::from_utf8_lossy(&out.stderr)
+                    );
+                    break;
+                }
+                unknowns = v[0] as usize;
+                iters = v[1] as usize;
+                fre = v[6];
+                for (c, x) in cols.iter_mut().zip(&v) {
+                    c.push(*x);
+                }
+            }
+            if cols[2].is_empty() {
+                continue;
+            }
+            let asm = median(&mut cols[2]);
+            let setup = median(&mut cols[3]);
+            let solve = median(&mut cols[4]);
+            let post = median(&mut cols[5]);
+            let total = {
+                let mut t: Vec<f64> = (0..cols[2].len())
+                    .map(|i| cols[2][i] + cols[3][i] + cols[4][i])
+                    .collect();
+                median(&mut t)
+            };
+            let peak = median(&mut cols[7]);
+            println!(
+                "| {shape} | {cells} | {unknowns} | {iters} | {asm:.4} | {setup:.4} | {solve:.4} | {total:.4} | {post:.4} | {:.0} | {fre:.6} |",
+                peak / unknowns as f64
+            );
+            if (256..=2048).contains(&cells) {
+                fit.push(((unknowns as f64).ln(), total.ln()));
+            }
+        }
+        if fit.len() >= 2 {
+            let n = fit.len() as f64;
+            let (sx, sy) = fit.iter().fold((0.0, 0.0), |a, p| (a.0 + p.0, a.1 + p.1));
+            let (mx, my) = (sx / n, sy / n);
+            let num: f64 = fit.iter().map(|p| (p.0 - mx) * (p.1 - my)).sum();
+            let den: f64 = fit.iter().map(|p| (p.0 - mx).powi(2)).sum();
+            println!(
+                "| {shape} | fitted exponent of total time vs unknowns, 256–2048 cells: {:.3} |",
+                num / den
+            );
+        }
+    }
+}
