@@ -291,6 +291,43 @@ fn write_new(path: &Path, text: &str, force: bool) -> Result<(), Error> {
     })
 }
 
+/// A residual line on standard error that updates in place, shown only for solves that take
+/// longer than half a second.
+struct Progress {
+    start: std::time::Instant,
+    last: std::cell::Cell<f64>,
+    shown: std::cell::Cell<bool>,
+}
+
+impl Progress {
+    fn new() -> Progress {
+        Progress {
+            start: std::time::Instant::now(),
+            last: std::cell::Cell::new(0.0),
+            shown: std::cell::Cell::new(false),
+        }
+    }
+
+    fn finish(&self) {
+        if self.shown.get() {
+            eprintln!();
+        }
+    }
+}
+
+impl canalis::solver::Monitor for Progress {
+    fn iteration(&self, iteration: usize, relative_residual: f64) {
+        let t = self.start.elapsed().as_secs_f64();
+        if t > 0.5 && t - self.last.get() > 0.2 {
+            self.last.set(t);
+            self.shown.set(true);
+            eprint!(
+                "\r  solving: iteration {iteration:>5}, relative residual {relative_residual:.2e}, {t:.1} s   "
+            );
+        }
+    }
+}
+
 fn solve(a: &SolveArgs) -> Result<(), Error> {
     let cfg = config(a)?;
     if let Some(dir) = &a.out {
@@ -306,10 +343,14 @@ fn solve(a: &SolveArgs) -> Result<(), Error> {
             ));
         }
     }
-    if !a.json && !a.quiet {
-        eprintln!("solving {} ...", a.shape);
-    }
-    let outcome = pipeline::run(&cfg)?;
+    let outcome = if a.json || a.quiet {
+        pipeline::run(&cfg)?
+    } else {
+        let progress = Progress::new();
+        let o = pipeline::run_monitored(&cfg, &progress);
+        progress.finish();
+        o?
+    };
     let json = report::json_report(&outcome);
     let text = serde_json::to_string_pretty(&json).unwrap_or_default();
     if let Some(dir) = &a.out {

@@ -47,14 +47,17 @@ impl LinearOperator for GridOperator {
         self.diag.len()
     }
 
+    /// y = A·x, branch-free: solid nodes have d = 0 and no links, so y = 0 there; the solid
+    /// ring keeps every neighbour read inside the grid.
     fn apply(&self, x: &[f64], y: &mut [f64]) {
-        for k in 0..self.diag.len() {
-            let d = self.diag[k];
-            y[k] = if d == 0.0 {
-                0.0
-            } else {
-                d * x[k] - self.neighbour_sum(k, x)
-            };
+        let nx = self.nx;
+        let n = self.diag.len();
+        y[..nx + 1].iter_mut().for_each(|v| *v = 0.0);
+        y[n - nx - 1..].iter_mut().for_each(|v| *v = 0.0);
+        for k in nx + 1..n - nx - 1 {
+            let w = &LINK_WEIGHTS[self.links[k] as usize];
+            y[k] = self.diag[k] * x[k]
+                - (w[0] * x[k + 1] + w[1] * x[k - 1] + w[2] * x[k + nx] + w[3] * x[k - nx]);
         }
     }
 
@@ -69,6 +72,9 @@ struct Level {
     ny: usize,
     active: Vec<bool>,
     stencil: Vec<[f64; 9]>,
+    /// 1/diagonal, 0 where inactive (inactive rows of `stencil` are all zero, so the smoother
+    /// needs no branch).
+    inv_diag: Vec<f64>,
 }
 
 impl Level {
@@ -199,16 +205,23 @@ fn coarsen(fine: &dyn StencilRows) -> Level {
             }
         }
     }
+    let inv_diag = stencil
+        .iter()
+        .zip(&active)
+        .map(|(st, &a)| if a { 1.0 / st[CENTRE] } else { 0.0 })
+        .collect();
     Level {
         nx,
         ny,
         active,
         stencil,
+        inv_diag,
     }
 }
 
 /// Scratch vectors of one coarse level.
 struct Scratch {
+    tmp: Vec<f64>,
     x: Vec<Vec<f64>>,
     b: Vec<Vec<f64>>,
     r: Vec<Vec<f64>>,
@@ -221,6 +234,8 @@ pub struct Multigrid<'a> {
     fine: &'a GridOperator,
     /// 1/d on the fine level, 0 at solid nodes.
     inv_diag: Vec<f64>,
+    /// 1 at active nodes, 0 elsewhere: masks[0] the fine level, masks[l + 1] coarse level l.
+    masks: Vec<Vec<f64>>,
     levels: Vec<Level>,
     /// Dense Cholesky factor of the coarsest level and the grid indices of its unknowns; None
     /// when there is only the fine level and it is solved by smoothing alone.
@@ -282,6 +297,7 @@ impl<'a> Multigrid<'a> {
             (chol, idx)
         });
         let scratch = Scratch {
+            tmp: Vec::with_capacity(fine.diag.len() / 2 + 4 * fine.ny),
             x: levels.iter().map(|l| vec![0.0; l.len()]).collect(),
             b: levels.iter().map(|l| vec![0.0; l.len()]).collect(),
             r: levels.iter().map(|l| vec![0.0; l.len()]).collect(),
@@ -292,9 +308,23 @@ impl<'a> Multigrid<'a> {
             .iter()
             .map(|&d| if d != 0.0 { 1.0 / d } else { 0.0 })
             .collect();
+        let mut masks = vec![fine
+            .diag
+            .iter()
+            .map(|&d| if d != 0.0 { 1.0 } else { 0.0 })
+            .collect::<Vec<f64>>()];
+        for l in &levels {
+            masks.push(
+                l.active
+                    .iter()
+                    .map(|&a| if a { 1.0 } else { 0.0 })
+                    .collect(),
+            );
+        }
         Multigrid {
             fine,
             inv_diag,
+            masks,
             levels,
             coarsest,
             scratch: RefCell::new(scratch),
@@ -333,53 +363,53 @@ const LINK_WEIGHTS: [[f64; 4]; 16] = {
 /// of pre-smoothing and the V-cycle symmetric. Branch-free: solid nodes have 1/d = 0 and zero
 /// right-hand side, so they stay 0; the solid ring keeps every read inside the grid.
 fn smooth_fine(a: &GridOperator, inv_diag: &[f64], b: &[f64], x: &mut [f64], forward: bool) {
-    let nx = a.nx;
-    let colours: [usize; 2] = if forward { [0, 1] } else { [1, 0] };
-    for c in colours {
-        for j in 1..a.ny - 1 {
-            let row = j * nx;
-            let start = 1 + (j + 1 + c) % 2;
-            let mut k = row + start;
-            while k < row + nx - 1 {
-                let w = &LINK_WEIGHTS[a.links[k] as usize];
-                let s = w[0] * x[k + 1] + w[1] * x[k - 1] + w[2] * x[k + nx] + w[3] * x[k - nx];
-                x[k] = (b[k] + s) * inv_diag[k];
-                k += 2;
-            }
+    let (nx, ny) = (a.nx, a.ny);
+    let (first, second) = if forward { (0, 1) } else { (1, 0) };
+    let colour_row = |x: &mut [f64], j: usize, c: usize| {
+        let row = j * nx;
+        let mut k = row + 1 + (j + 1 + c) % 2;
+        while k < row + nx - 1 {
+            let w = &LINK_WEIGHTS[a.links[k] as usize];
+            let s = w[0] * x[k + 1] + w[1] * x[k - 1] + w[2] * x[k + nx] + w[3] * x[k - nx];
+            x[k] = (b[k] + s) * inv_diag[k];
+            k += 2;
+        }
+    };
+    // The second colour of row j − 1 only needs the first colour of rows j − 2 .. j, so the two
+    // half-sweeps are fused into one pass over the grid (same result, one trip through memory).
+    for j in 1..ny {
+        if j < ny - 1 {
+            colour_row(x, j, first);
+        }
+        if j >= 2 {
+            colour_row(x, j - 1, second);
         }
     }
 }
 
-/// Four-colour Gauss–Seidel on a coarse level (colour (i mod 2) + 2·(j mod 2)): nodes of one
-/// colour are never neighbours in the 9-point stencil. Colours 0..3 forward, 3..0 backward.
+/// Symmetric Gauss–Seidel on a coarse level: a lexicographic sweep forward (pre-smoothing) or
+/// backward (post-smoothing), each one pass through the 9-point stencils.
 fn smooth_coarse(l: &Level, b: &[f64], x: &mut [f64], forward: bool) {
     let nx = l.nx;
-    let order: [usize; 4] = if forward { [0, 1, 2, 3] } else { [3, 2, 1, 0] };
-    for c in order {
-        let (ci, cj) = (c % 2, c / 2);
-        let mut j = 1 + (cj + 1) % 2;
-        while j < l.ny - 1 {
-            let mut i = 1 + (ci + 1) % 2;
-            while i < nx - 1 {
-                let k = j * nx + i;
-                let st = &l.stencil[k];
-                let d = st[CENTRE];
-                if d != 0.0 {
-                    let s = b[k]
-                        - st[0] * x[k - nx - 1]
-                        - st[1] * x[k - nx]
-                        - st[2] * x[k - nx + 1]
-                        - st[3] * x[k - 1]
-                        - st[5] * x[k + 1]
-                        - st[6] * x[k + nx - 1]
-                        - st[7] * x[k + nx]
-                        - st[8] * x[k + nx + 1];
-                    x[k] = s / d;
-                }
-                i += 2;
-            }
-            j += 2;
-        }
+    let mut step = |k: usize| {
+        let st = &l.stencil[k];
+        let s = b[k]
+            - st[0] * x[k - nx - 1]
+            - st[1] * x[k - nx]
+            - st[2] * x[k - nx + 1]
+            - st[3] * x[k - 1]
+            - st[5] * x[k + 1]
+            - st[6] * x[k + nx - 1]
+            - st[7] * x[k + nx]
+            - st[8] * x[k + nx + 1];
+        x[k] = s * l.inv_diag[k];
+    };
+    // Ring nodes inside this range have 1/d = 0 and stay 0; every read stays in the grid.
+    let inner = nx + 1..l.len() - nx - 1;
+    if forward {
+        inner.for_each(&mut step);
+    } else {
+        inner.rev().for_each(&mut step);
     }
 }
 
@@ -408,50 +438,82 @@ fn residual_coarse(l: &Level, b: &[f64], x: &[f64], r: &mut [f64]) {
     }
 }
 
-/// b_c = Pᵀ·r (r on a fine grid of fnx × fny, b_c on the next coarser one).
-fn restrict(r: &[f64], fnx: usize, fny: usize, bc: &mut [f64], cnx: usize) {
-    bc.iter_mut().for_each(|v| *v = 0.0);
-    for j in 1..fny - 1 {
-        let (pj, cj) = parents(j);
-        for i in 1..fnx - 1 {
-            let v = r[j * fnx + i];
-            if v == 0.0 {
-                continue;
-            }
-            let (pi, ci) = parents(i);
-            for &(jj, wj) in &pj[..cj] {
-                for &(ii, wi) in &pi[..ci] {
-                    bc[jj * cnx + ii] += wi * wj * v;
-                }
-            }
+/// 1-D restriction along a line: coarse node I takes fine 2I − 1 (weight 1) and fine 2I − 2,
+/// 2I (weight ½), inner nodes only (the transpose of [`parents`]).
+#[inline]
+fn restrict_line(f: impl Fn(usize) -> f64, fn_len: usize, out: &mut [f64]) {
+    let last = fn_len - 2; // last inner fine index
+    let len = out.len();
+    for (ci, o) in out.iter_mut().enumerate() {
+        if ci == 0 || ci + 1 == len {
+            *o = 0.0;
+            continue;
+        }
+        let odd = 2 * ci - 1;
+        let mut v = if odd <= last { f(odd) } else { 0.0 };
+        if 2 * ci - 2 >= 1 && 2 * ci - 2 <= last {
+            v += 0.5 * f(2 * ci - 2);
+        }
+        if 2 * ci <= last {
+            v += 0.5 * f(2 * ci);
+        }
+        *o = v;
+    }
+}
+
+/// b_c = Pᵀ·r (r on a fine grid of fnx × fny, b_c on the next coarser one), separably: along
+/// x into `tmp` (fny × cnx), then along y. The fine residual is zero at solid nodes, so
+/// restricting to the fluid needs no mask.
+fn restrict(r: &[f64], fnx: usize, fny: usize, bc: &mut [f64], cnx: usize, tmp: &mut Vec<f64>) {
+    let cny = bc.len() / cnx;
+    tmp.resize(fny * cnx, 0.0);
+    for j in 0..fny {
+        let row = &r[j * fnx..(j + 1) * fnx];
+        restrict_line(|i| row[i], fnx, &mut tmp[j * cnx..(j + 1) * cnx]);
+    }
+    let mut col = vec![0.0; cny];
+    for ci in 0..cnx {
+        restrict_line(|j| tmp[j * cnx + ci], fny, &mut col);
+        for (cj, v) in col.iter().enumerate() {
+            bc[cj * cnx + ci] = *v;
         }
     }
 }
 
-/// x += P·x_c on the fine nodes that are active.
+/// x += P·x_c on the fine nodes that are active (`mask` is 1 there, 0 elsewhere), separably:
+/// along y into `tmp` (fny × cnx), then along x.
 fn prolong_add(
     xc: &[f64],
     cnx: usize,
     x: &mut [f64],
     fnx: usize,
     fny: usize,
-    active: &dyn Fn(usize) -> bool,
+    mask: &[f64],
+    tmp: &mut Vec<f64>,
 ) {
+    tmp.resize(fny * cnx, 0.0);
     for j in 1..fny - 1 {
-        let (pj, cj) = parents(j);
+        let (p, n) = parents(j);
+        let t = &mut tmp[j * cnx..(j + 1) * cnx];
+        if n == 1 {
+            t.copy_from_slice(&xc[p[0].0 * cnx..(p[0].0 + 1) * cnx]);
+        } else {
+            let (a, b) = (p[0].0 * cnx, p[1].0 * cnx);
+            for (ci, tv) in t.iter_mut().enumerate() {
+                *tv = 0.5 * (xc[a + ci] + xc[b + ci]);
+            }
+        }
+    }
+    for j in 1..fny - 1 {
+        let t = &tmp[j * cnx..(j + 1) * cnx];
+        let row = j * fnx;
         for i in 1..fnx - 1 {
-            let k = j * fnx + i;
-            if !active(k) {
-                continue;
-            }
-            let (pi, ci) = parents(i);
-            let mut s = 0.0;
-            for &(jj, wj) in &pj[..cj] {
-                for &(ii, wi) in &pi[..ci] {
-                    s += wi * wj * xc[jj * cnx + ii];
-                }
-            }
-            x[k] += s;
+            let v = if i % 2 == 1 {
+                t[i.div_ceil(2)]
+            } else {
+                0.5 * (t[i / 2] + t[i / 2 + 1])
+            };
+            x[row + i] += mask[row + i] * v;
         }
     }
 }
@@ -476,12 +538,25 @@ impl Multigrid<'_> {
         s.x[l].iter_mut().for_each(|v| *v = 0.0);
         smooth_coarse(lev, &s.b[l], &mut s.x[l], true);
         residual_coarse(lev, &s.b[l], &s.x[l], &mut s.r[l]);
-        restrict(&s.r[l], lev.nx, lev.ny, &mut s.b[l + 1], next.nx);
+        restrict(
+            &s.r[l],
+            lev.nx,
+            lev.ny,
+            &mut s.b[l + 1],
+            next.nx,
+            &mut s.tmp,
+        );
         self.cycle(l + 1, s);
         let (head, tail) = s.x.split_at_mut(l + 1);
-        prolong_add(&tail[0], next.nx, &mut head[l], lev.nx, lev.ny, &|k| {
-            lev.active[k]
-        });
+        prolong_add(
+            &tail[0],
+            next.nx,
+            &mut head[l],
+            lev.nx,
+            lev.ny,
+            &self.masks[l + 1],
+            &mut s.tmp,
+        );
         smooth_coarse(lev, &s.b[l], &mut s.x[l], false);
     }
 }
@@ -500,9 +575,9 @@ impl Preconditioner for Multigrid<'_> {
                 *rf = ri - *rf;
             }
             let c0 = &self.levels[0];
-            restrict(&s.r_fine, a.nx, a.ny, &mut s.b[0], c0.nx);
+            restrict(&s.r_fine, a.nx, a.ny, &mut s.b[0], c0.nx, &mut s.tmp);
             self.cycle(0, s);
-            prolong_add(&s.x[0], c0.nx, z, a.nx, a.ny, &|k| a.diag[k] != 0.0);
+            prolong_add(&s.x[0], c0.nx, z, a.nx, a.ny, &self.masks[0], &mut s.tmp);
         }
         smooth_fine(a, &self.inv_diag, r, z, false);
     }

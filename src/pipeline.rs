@@ -13,7 +13,10 @@ use crate::grid::{classify, Classified, Grid};
 use crate::multigrid::Multigrid;
 use crate::operator::{assemble, unit_rhs, GridOperator, Numbering};
 use crate::post::{self, Figures, ShearSample};
-use crate::solver::{pcg, CgInfo, CgParams, Identity, Jacobi, LinearOperator, Preconditioner};
+use crate::solver::{
+    pcg_monitored, CgInfo, CgParams, Identity, Jacobi, LinearOperator, Monitor, Preconditioner,
+    Silent,
+};
 use std::path::PathBuf;
 use std::time::Instant;
 
@@ -96,6 +99,17 @@ pub fn solve_unit(
     exact_wall: bool,
     options: &UnitOptions,
 ) -> Result<UnitSolution> {
+    solve_unit_monitored(domain, grid, exact_wall, options, &Silent)
+}
+
+/// [`solve_unit`] reporting the solver's iterations to `monitor` (progress display).
+pub fn solve_unit_monitored(
+    domain: &dyn Domain,
+    grid: Grid,
+    exact_wall: bool,
+    options: &UnitOptions,
+    monitor: &dyn Monitor,
+) -> Result<UnitSolution> {
     let (method, params) = (options.method, &options.cg);
     let t0 = Instant::now();
     let classified = classify(domain, grid)?;
@@ -144,13 +158,21 @@ pub fn solve_unit(
                 gb[k] = rhs[q];
                 gx[k] = x[q];
             }
-            let info = pcg(op, pre.as_ref(), &gb, &mut gx, params, method.name())?;
+            let info = pcg_monitored(
+                op,
+                pre.as_ref(),
+                &gb,
+                &mut gx,
+                params,
+                method.name(),
+                monitor,
+            )?;
             for (q, &k) in numbering.node_of.iter().enumerate() {
                 x[q] = gx[k];
             }
             Ok(info)
         } else {
-            pcg(op, pre.as_ref(), rhs, x, params, method.name())
+            pcg_monitored(op, pre.as_ref(), rhs, x, params, method.name(), monitor)
         }
     };
     let mut u = vec![0.0; numbering.len()];
@@ -305,6 +327,11 @@ pub const LAMINAR_WARNING_RE: f64 = 2000.0;
 /// Runs a whole `solve`: load the cross-section, lay the grid, solve, post-process, and
 /// evaluate the operating point.
 pub fn run(config: &SolveConfig) -> Result<Outcome> {
+    run_monitored(config, &Silent)
+}
+
+/// [`run`] reporting the solver's iterations to `monitor`.
+pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outcome> {
     let start = Instant::now();
     let mut warnings = Vec::new();
     let (name, domain, exact_wall): (String, Box<dyn Domain>, bool) = match &config.input {
@@ -380,7 +407,7 @@ pub fn run(config: &SolveConfig) -> Result<Outcome> {
             ),
         ));
     }
-    let unit = solve_unit(domain.as_ref(), grid, exact_wall, &config.unit)?;
+    let unit = solve_unit_monitored(domain.as_ref(), grid, exact_wall, &config.unit, monitor)?;
     let fluid_nodes = unit.numbering.len();
     if fluid_nodes < MIN_FLUID_NODES {
         return Err(Error::param(

@@ -47,6 +47,19 @@ impl LinearOperator for CsMat<f64> {
     }
 }
 
+/// Watches a solve: called after every iteration with the recursively updated relative
+/// residual (cheap; the true residual is checked at the end).
+pub trait Monitor {
+    fn iteration(&self, iteration: usize, relative_residual: f64);
+}
+
+/// A monitor that does nothing.
+pub struct Silent;
+
+impl Monitor for Silent {
+    fn iteration(&self, _: usize, _: f64) {}
+}
+
 /// The identity: plain CG.
 pub struct Identity;
 
@@ -130,6 +143,19 @@ pub fn pcg(
     params: &CgParams,
     method: &str,
 ) -> Result<CgInfo> {
+    pcg_monitored(op, pre, b, x, params, method, &Silent)
+}
+
+/// [`pcg`] reporting every iteration to `monitor`.
+pub fn pcg_monitored(
+    op: &dyn LinearOperator,
+    pre: &dyn Preconditioner,
+    b: &[f64],
+    x: &mut [f64],
+    params: &CgParams,
+    method: &str,
+    monitor: &dyn Monitor,
+) -> Result<CgInfo> {
     let n = op.dim();
     assert_eq!(b.len(), n);
     assert_eq!(x.len(), n);
@@ -184,6 +210,7 @@ pub fn pcg(
             }
             it += 1;
             let rn = dot(&r, &r).sqrt();
+            monitor.iteration(it, rn / b_norm);
             if rn <= target {
                 break;
             }
