@@ -65,6 +65,12 @@ fn child(shape: &str, cells: usize, method: Method) {
     };
     let sol = solve_unit(domain.as_ref(), grid, exact, &opts).expect("solve");
     let t = sol.seconds;
+    let per_pass: Vec<String> = sol
+        .passes
+        .iter()
+        .map(|p| p.iterations.to_string())
+        .collect();
+    eprintln!("passes {}", per_pass.join("+"));
     println!(
         "{} {} {:.6} {:.6} {:.6} {:.6} {:.6} {} {:.9}",
         sol.numbering.len(),
@@ -108,7 +114,7 @@ fn main() {
     let repeat: usize = get("--repeat").and_then(|v| v.parse().ok()).unwrap_or(3);
     let exe = std::env::current_exe().expect("own path");
     println!(
-        "| shape | cells | unknowns | iterations | assembly s | setup s | solve s | total s | post s | peak B/unknown | f·Re |"
+        "| shape | cells | unknowns | iterations (per solve) | assembly s | setup s | solve s | total s | post s | peak B/unknown | f·Re |"
     );
     println!("|---|---|---|---|---|---|---|---|---|---|---|");
     for shape in &shapes {
@@ -116,6 +122,7 @@ fn main() {
         for &cells in &sizes {
             let mut cols: Vec<Vec<f64>> = vec![Vec::new(); 9];
             let mut iters = 0;
+            let mut passes = String::new();
             let mut unknowns = 0;
             let mut fre = 0.0;
             for _ in 0..repeat.max(1) {
@@ -136,6 +143,11 @@ fn main() {
                     .output()
                     .expect("child");
                 let text = String::from_utf8_lossy(&out.stdout);
+                let err = String::from_utf8_lossy(&out.stderr);
+                passes = err
+                    .lines()
+                    .find_map(|l| l.strip_prefix("passes ").map(str::to_string))
+                    .unwrap_or_default();
                 let line = text.lines().last().unwrap_or("");
                 let v: Vec<f64> = line
                     .split_whitespace()
@@ -170,7 +182,7 @@ fn main() {
             };
             let peak = median(&mut cols[7]);
             println!(
-                "| {shape} | {cells} | {unknowns} | {iters} | {asm:.4} | {setup:.4} | {solve:.4} | {total:.4} | {post:.4} | {:.0} | {fre:.6} |",
+                "| {shape} | {cells} | {unknowns} | {iters} ({passes}) | {asm:.4} | {setup:.4} | {solve:.4} | {total:.4} | {post:.4} | {:.0} | {fre:.6} |",
                 peak / unknowns as f64
             );
             if (256..=2048).contains(&cells) {

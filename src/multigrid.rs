@@ -64,6 +64,22 @@ impl LinearOperator for GridOperator {
     fn diagonal(&self) -> Vec<f64> {
         self.diag.clone()
     }
+
+    fn abs_product_norm(&self, x: &[f64]) -> f64 {
+        let nx = self.nx;
+        let n = self.diag.len();
+        let mut sum = 0.0;
+        for k in nx + 1..n - nx - 1 {
+            let w = &LINK_WEIGHTS[self.links[k] as usize];
+            let v = self.diag[k] * x[k].abs()
+                + w[0] * x[k + 1].abs()
+                + w[1] * x[k - 1].abs()
+                + w[2] * x[k + nx].abs()
+                + w[3] * x[k - nx].abs();
+            sum += v * v;
+        }
+        sum.sqrt()
+    }
 }
 
 /// One coarse level: a 9-point stencil per node of an nx × ny grid (zero rows where inactive).

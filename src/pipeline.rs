@@ -191,6 +191,7 @@ pub fn solve_unit_monitored(
         info = CgInfo {
             iterations: info.iterations + more.iterations,
             relative_residual: more.relative_residual,
+            round_off_limited: info.round_off_limited || more.round_off_limited,
         };
     }
     let t3 = Instant::now();
@@ -416,6 +417,13 @@ pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outc
                 "only {fluid_nodes} grid nodes fall in the fluid, too few to resolve the \
                  cross-section; raise --cells"
             ),
+        ));
+    }
+    if unit.info.round_off_limited {
+        warnings.push(format!(
+            "the solver stopped at the round-off floor of double precision: relative residual \
+             {:.1e} instead of {:.0e} (a grid this fine cannot be verified further)",
+            unit.info.relative_residual, config.unit.cg.tolerance
         ));
     }
     let unresolved = unit.shear.iter().filter(|s| !s.tau.is_finite()).count();
