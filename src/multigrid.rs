@@ -8,8 +8,9 @@
 //! product as in algebraic multigrid, Ruge & Stüben 1987):
 //! - **Coarsening**: vertex-centred, coarse node (I, J) sits on fine node (2I, 2J).
 //! - **Prolongation P**: bilinear interpolation from the (up to four) coarse parents of a fine
-//!   node, restricted to the fluid; a coarse node exists where at least one fine fluid node
-//!   interpolates from it. **Restriction R = Pᵀ.**
+//!   node, restricted to the fluid, with the rows of wall nodes scaled by 4/d ([`pscale_of`]);
+//!   a coarse node exists where at least one fine fluid node interpolates from it.
+//!   **Restriction R = Pᵀ.**
 //! - **Level operators**: A_c = Pᵀ·A·P (Galerkin), a 9-point stencil on every coarse level.
 //!   Nothing of the geometry is re-discretised, so a gap thinner than the coarse spacing, a
 //!   fin or a tiny passage stays exactly as the fine operator has it.
@@ -109,6 +110,28 @@ trait StencilRows {
     fn is_active(&self, k: usize) -> bool;
     /// Entry of row k at stencil offset o (0 where there is none).
     fn entry(&self, k: usize, o: usize) -> f64;
+    /// Scale of row k of the prolongation from the next coarser level.
+    fn pscale(&self, _k: usize) -> f64 {
+        1.0
+    }
+}
+
+/// Row scale of the prolongation at a fine node with diagonal d: min(1, 4/d).
+///
+/// Next to a wall that cuts a link at θ·h the diagonal is 3 + 1/θ > 4 and the node is tied to
+/// the wall value 0; bilinear interpolation from coarse nodes (some of them beyond the wall)
+/// overstates the smooth error there, and the coarse correction loses accuracy along curved
+/// walls (measured: CG iterations on a disc grew from 11 to 16 between 128 and 2048 cells).
+/// Scaling those rows of P by 4/d, the ratio of a regular node's diagonal to this one, is a
+/// matrix-dependent prolongation (in the spirit of Alcouffe, Brandt, Dendy & Painter 1981 and de
+/// Zeeuw 1990, from memory) reduced to a row scaling, so the coarse operators stay 9-point and
+/// R = Pᵀ keeps the V-cycle symmetric. With it the count stays at 10–11 from 128 to 2048 cells.
+fn pscale_of(d: f64) -> f64 {
+    if d > 4.0 {
+        4.0 / d
+    } else {
+        1.0
+    }
 }
 
 impl StencilRows for GridOperator {
@@ -120,6 +143,13 @@ impl StencilRows for GridOperator {
     }
     fn is_active(&self, k: usize) -> bool {
         self.diag[k] != 0.0
+    }
+    fn pscale(&self, k: usize) -> f64 {
+        if self.diag[k] == 0.0 {
+            0.0
+        } else {
+            pscale_of(self.diag[k])
+        }
     }
     fn entry(&self, k: usize, o: usize) -> f64 {
         use crate::grid::Dir;
@@ -204,6 +234,7 @@ fn coarsen(fine: &dyn StencilRows) -> Level {
                     continue;
                 }
                 let (i2, j2) = ((i as isize + di) as usize, (j as isize + dj) as usize);
+                let a = a * fine.pscale(k) * fine.pscale(j2 * fnx + i2);
                 let (qi, ni) = parents(i2);
                 let (qj, nj) = parents(j2);
                 for &(cj1, wj1) in &pj[..cj] {
@@ -324,10 +355,8 @@ impl<'a> Multigrid<'a> {
             .iter()
             .map(|&d| if d != 0.0 { 1.0 / d } else { 0.0 })
             .collect();
-        let mut masks = vec![fine
-            .diag
-            .iter()
-            .map(|&d| if d != 0.0 { 1.0 } else { 0.0 })
+        let mut masks = vec![(0..fine.diag.len())
+            .map(|k| fine.pscale(k))
             .collect::<Vec<f64>>()];
         for l in &levels {
             masks.push(
@@ -582,19 +611,21 @@ impl Preconditioner for Multigrid<'_> {
         let a = self.fine;
         z.iter_mut().for_each(|v| *v = 0.0);
         smooth_fine(a, &self.inv_diag, r, z, true);
+
         if !self.levels.is_empty() {
             let mut s = self.scratch.borrow_mut();
             let s = &mut *s;
             // Fine residual r − A·z, restricted.
             a.apply(z, &mut s.r_fine);
-            for (rf, ri) in s.r_fine.iter_mut().zip(r) {
-                *rf = ri - *rf;
+            for ((rf, ri), m) in s.r_fine.iter_mut().zip(r).zip(&self.masks[0]) {
+                *rf = (ri - *rf) * m;
             }
             let c0 = &self.levels[0];
             restrict(&s.r_fine, a.nx, a.ny, &mut s.b[0], c0.nx, &mut s.tmp);
             self.cycle(0, s);
             prolong_add(&s.x[0], c0.nx, z, a.nx, a.ny, &self.masks[0], &mut s.tmp);
         }
+
         smooth_fine(a, &self.inv_diag, r, z, false);
     }
 }

@@ -117,5 +117,6 @@ fn multigrid_iterations_do_not_grow_with_the_grid() {
         .collect();
     println!("first-pass iterations at 128, 256, 512, 1024 cells: {counts:?}");
     assert!(counts.iter().all(|&c| c <= 25), "{counts:?}");
-    assert!(counts[3] <= counts[1] + 2, "{counts:?}");
+    // No growth from 256 to 1024 cells (issue 3); 4096 is in the benchmark.
+    assert!(counts[3] <= counts[1], "{counts:?}");
 }
