@@ -51,15 +51,25 @@ impl LinearOperator for GridOperator {
     /// y = A·x, branch-free: solid nodes have d = 0 and no links, so y = 0 there; the solid
     /// ring keeps every neighbour read inside the grid.
     fn apply(&self, x: &[f64], y: &mut [f64]) {
+        use rayon::prelude::*;
         let nx = self.nx;
         let n = self.diag.len();
-        y[..nx + 1].iter_mut().for_each(|v| *v = 0.0);
-        y[n - nx - 1..].iter_mut().for_each(|v| *v = 0.0);
-        for k in nx + 1..n - nx - 1 {
-            let w = &LINK_WEIGHTS[self.links[k] as usize];
-            y[k] = self.diag[k] * x[k]
-                - (w[0] * x[k + 1] + w[1] * x[k - 1] + w[2] * x[k + nx] + w[3] * x[k - nx]);
-        }
+        // Rows in parallel (each output row is written by one task): the same numbers with any
+        // number of threads.
+        y.par_chunks_mut(nx).enumerate().for_each(|(j, row)| {
+            if j == 0 || (j + 1) * nx >= n {
+                row.iter_mut().for_each(|v| *v = 0.0);
+                return;
+            }
+            row[0] = 0.0;
+            row[nx - 1] = 0.0;
+            for (i, out) in row.iter_mut().enumerate().take(nx - 1).skip(1) {
+                let k = j * nx + i;
+                let w = &LINK_WEIGHTS[self.links[k] as usize];
+                *out = self.diag[k] * x[k]
+                    - (w[0] * x[k + 1] + w[1] * x[k - 1] + w[2] * x[k + nx] + w[3] * x[k - nx]);
+            }
+        });
     }
 
     fn diagonal(&self) -> Vec<f64> {
@@ -108,12 +118,8 @@ trait StencilRows {
     fn nx(&self) -> usize;
     fn ny(&self) -> usize;
     fn is_active(&self, k: usize) -> bool;
-    /// Entry of row k at stencil offset o (0 where there is none).
-    fn entry(&self, k: usize, o: usize) -> f64;
-    /// Scale of row k of the prolongation from the next coarser level.
-    fn pscale(&self, _k: usize) -> f64 {
-        1.0
-    }
+    /// Row k as a 9-point stencil (zeros where there is no entry).
+    fn row(&self, k: usize) -> [f64; 9];
 }
 
 /// Row scale of the prolongation at a fine node with diagonal d: min(1, 4/d).
@@ -144,24 +150,15 @@ impl StencilRows for GridOperator {
     fn is_active(&self, k: usize) -> bool {
         self.diag[k] != 0.0
     }
-    fn pscale(&self, k: usize) -> f64 {
-        if self.diag[k] == 0.0 {
-            0.0
-        } else {
-            pscale_of(self.diag[k])
-        }
-    }
-    fn entry(&self, k: usize, o: usize) -> f64 {
-        use crate::grid::Dir;
-        let bit = |d: Dir| self.links[k] & (1 << d as u8) != 0;
-        match o {
-            CENTRE => self.diag[k],
-            1 if bit(Dir::South) => -1.0,
-            3 if bit(Dir::West) => -1.0,
-            5 if bit(Dir::East) => -1.0,
-            7 if bit(Dir::North) => -1.0,
-            _ => 0.0,
-        }
+    fn row(&self, k: usize) -> [f64; 9] {
+        let w = &LINK_WEIGHTS[self.links[k] as usize];
+        let mut r = [0.0; 9];
+        r[CENTRE] = self.diag[k];
+        r[5] = -w[0];
+        r[3] = -w[1];
+        r[7] = -w[2];
+        r[1] = -w[3];
+        r
     }
 }
 
@@ -175,8 +172,8 @@ impl StencilRows for Level {
     fn is_active(&self, k: usize) -> bool {
         self.active[k]
     }
-    fn entry(&self, k: usize, o: usize) -> f64 {
-        self.stencil[k][o]
+    fn row(&self, k: usize) -> [f64; 9] {
+        self.stencil[k]
     }
 }
 
@@ -200,8 +197,10 @@ fn coarse_size(n: usize) -> usize {
     n / 2 + 2
 }
 
-/// The Galerkin coarse level Pᵀ·A·P of a fine level.
-fn coarsen(fine: &dyn StencilRows) -> Level {
+/// The Galerkin coarse level Pᵀ·A·P of a fine level; `scale` holds the row scales of P (None:
+/// all 1).
+fn coarsen(fine: &dyn StencilRows, scale: Option<&[f64]>) -> Level {
+    let sc = |k: usize| scale.map_or(1.0, |s| s[k]);
     let (fnx, fny) = (fine.nx(), fine.ny());
     let (nx, ny) = (coarse_size(fnx), coarse_size(fny));
     let mut active = vec![false; nx * ny];
@@ -228,13 +227,15 @@ fn coarsen(fine: &dyn StencilRows) -> Level {
                 continue;
             }
             let (pi, ci) = parents(i);
+            let entries = fine.row(k);
+            let sk = sc(k);
             for (o, &(di, dj)) in OFFSETS.iter().enumerate() {
-                let a = fine.entry(k, o);
+                let a = entries[o];
                 if a == 0.0 {
                     continue;
                 }
                 let (i2, j2) = ((i as isize + di) as usize, (j as isize + dj) as usize);
-                let a = a * fine.pscale(k) * fine.pscale(j2 * fnx + i2);
+                let a = a * sk * sc(j2 * fnx + i2);
                 let (qi, ni) = parents(i2);
                 let (qj, nj) = parents(j2);
                 for &(cj1, wj1) in &pj[..cj] {
@@ -294,6 +295,11 @@ impl<'a> Multigrid<'a> {
     /// Builds the hierarchy: coarsen until a level has at most [`DIRECT_LIMIT`] active nodes or
     /// cannot shrink, then factor that level.
     pub fn new(fine: &'a GridOperator) -> Multigrid<'a> {
+        let fine_scale: Vec<f64> = fine
+            .diag
+            .iter()
+            .map(|&d| if d == 0.0 { 0.0 } else { pscale_of(d) })
+            .collect();
         let mut levels: Vec<Level> = Vec::new();
         loop {
             let (nx, ny, count) = match levels.last() {
@@ -308,8 +314,8 @@ impl<'a> Multigrid<'a> {
                 break;
             }
             let next = match levels.last() {
-                None => coarsen(fine),
-                Some(l) => coarsen(l),
+                None => coarsen(fine, Some(&fine_scale)),
+                Some(l) => coarsen(l, None),
             };
             levels.push(next);
         }
@@ -355,9 +361,7 @@ impl<'a> Multigrid<'a> {
             .iter()
             .map(|&d| if d != 0.0 { 1.0 / d } else { 0.0 })
             .collect();
-        let mut masks = vec![(0..fine.diag.len())
-            .map(|k| fine.pscale(k))
-            .collect::<Vec<f64>>()];
+        let mut masks = vec![fine_scale];
         for l in &levels {
             masks.push(
                 l.active
@@ -408,29 +412,42 @@ const LINK_WEIGHTS: [[f64; 4]; 16] = {
 /// of pre-smoothing and the V-cycle symmetric. Branch-free: solid nodes have 1/d = 0 and zero
 /// right-hand side, so they stay 0; the solid ring keeps every read inside the grid.
 fn smooth_fine(a: &GridOperator, inv_diag: &[f64], b: &[f64], x: &mut [f64], forward: bool) {
+    use rayon::prelude::*;
     let (nx, ny) = (a.nx, a.ny);
-    let (first, second) = if forward { (0, 1) } else { (1, 0) };
-    let colour_row = |x: &mut [f64], j: usize, c: usize| {
-        let row = j * nx;
-        let mut k = row + 1 + (j + 1 + c) % 2;
-        while k < row + nx - 1 {
-            let w = &LINK_WEIGHTS[a.links[k] as usize];
-            let s = w[0] * x[k + 1] + w[1] * x[k - 1] + w[2] * x[k + nx] + w[3] * x[k - nx];
-            x[k] = (b[k] + s) * inv_diag[k];
-            k += 2;
-        }
-    };
-    // The second colour of row j − 1 only needs the first colour of rows j − 2 .. j, so the two
-    // half-sweeps are fused into one pass over the grid (same result, one trip through memory).
-    for j in 1..ny {
-        if j < ny - 1 {
-            colour_row(x, j, first);
-        }
-        if j >= 2 {
-            colour_row(x, j - 1, second);
-        }
+    let colours: [usize; 2] = if forward { [0, 1] } else { [1, 0] };
+    let shared = SharedMut(x.as_mut_ptr());
+    let len = x.len();
+    for c in colours {
+        (1..ny - 1).into_par_iter().with_min_len(64).for_each(|j| {
+            let shared = &shared;
+            // SAFETY: within one colour, row j writes only its own entries of that colour and
+            // reads only entries of the other colour (its neighbours along the row and in rows
+            // j ± 1), which no task of this colour writes; every index lies inside the grid
+            // (solid ring). So no element is written by two tasks or read while written.
+            let p = shared.0;
+            let row = j * nx;
+            let mut k = row + 1 + (j + 1 + c) % 2;
+            while k < row + nx - 1 {
+                debug_assert!(k + nx < len);
+                let w = &LINK_WEIGHTS[a.links[k] as usize];
+                unsafe {
+                    let s = w[0] * *p.add(k + 1)
+                        + w[1] * *p.add(k - 1)
+                        + w[2] * *p.add(k + nx)
+                        + w[3] * *p.add(k - nx);
+                    *p.add(k) = (b[k] + s) * inv_diag[k];
+                }
+                k += 2;
+            }
+        });
     }
 }
+
+/// A raw pointer to share a vector between the tasks of one red–black half-sweep.
+struct SharedMut(*mut f64);
+// SAFETY: used only in `smooth_fine`, whose tasks touch disjoint elements (see there).
+unsafe impl Sync for SharedMut {}
+unsafe impl Send for SharedMut {}
 
 /// Symmetric Gauss–Seidel on a coarse level: a lexicographic sweep forward (pre-smoothing) or
 /// backward (post-smoothing), each one pass through the 9-point stencils.

@@ -132,9 +132,52 @@ pub struct CgInfo {
     pub round_off_limited: bool,
 }
 
-fn dot(a: &[f64], b: &[f64]) -> f64 {
-    // Fixed-order sum: the same numbers on every run.
-    a.iter().zip(b).map(|(x, y)| x * y).sum()
+/// Block length of the parallel vector operations. Reductions sum each block in order and then
+/// the block sums in order, so the result does not depend on the number of threads: the same
+/// numbers on every run and with `RAYON_NUM_THREADS=1`.
+pub const BLOCK: usize = 1 << 14;
+
+/// a·b with the fixed-order blocked reduction.
+pub fn dot(a: &[f64], b: &[f64]) -> f64 {
+    use rayon::prelude::*;
+    let partial: Vec<f64> = a
+        .par_chunks(BLOCK)
+        .zip(b.par_chunks(BLOCK))
+        .map(|(x, y)| x.iter().zip(y).map(|(p, q)| p * q).sum::<f64>())
+        .collect();
+    partial.iter().sum()
+}
+
+/// x += α·p and r −= α·q in one pass; returns r·r (fixed-order blocked reduction).
+fn update_xr(x: &mut [f64], r: &mut [f64], p: &[f64], q: &[f64], alpha: f64) -> f64 {
+    use rayon::prelude::*;
+    let partial: Vec<f64> = x
+        .par_chunks_mut(BLOCK)
+        .zip(r.par_chunks_mut(BLOCK))
+        .zip(p.par_chunks(BLOCK).zip(q.par_chunks(BLOCK)))
+        .map(|((x, r), (p, q))| {
+            let mut s = 0.0;
+            for i in 0..x.len() {
+                x[i] += alpha * p[i];
+                r[i] -= alpha * q[i];
+                s += r[i] * r[i];
+            }
+            s
+        })
+        .collect();
+    partial.iter().sum()
+}
+
+/// p = z + β·p.
+fn update_p(p: &mut [f64], z: &[f64], beta: f64) {
+    use rayon::prelude::*;
+    p.par_chunks_mut(BLOCK)
+        .zip(z.par_chunks(BLOCK))
+        .for_each(|(p, z)| {
+            for i in 0..p.len() {
+                p[i] = z[i] + beta * p[i];
+            }
+        });
 }
 
 fn true_residual(op: &dyn LinearOperator, b: &[f64], x: &[f64], r: &mut [f64]) -> f64 {
@@ -221,12 +264,8 @@ pub fn pcg_monitored(
                 });
             }
             let alpha = rz / pq;
-            for i in 0..n {
-                x[i] += alpha * p[i];
-                r[i] -= alpha * q[i];
-            }
+            let rn = update_xr(x, &mut r, &p, &q, alpha).sqrt();
             it += 1;
-            let rn = dot(&r, &r).sqrt();
             monitor.iteration(it, rn / b_norm);
             if rn <= target {
                 break;
@@ -235,9 +274,7 @@ pub fn pcg_monitored(
             let rz_new = dot(&r, &z);
             let beta = rz_new / rz;
             rz = rz_new;
-            for i in 0..n {
-                p[i] = z[i] + beta * p[i];
-            }
+            update_p(&mut p, &z, beta);
         }
         r_norm = true_residual(op, b, x, &mut r);
         if r_norm > target {
