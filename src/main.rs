@@ -6,7 +6,7 @@ use canalis::error::Error;
 use canalis::geometry::builtin;
 use canalis::geometry::mask::{FluidColour, MaskOptions};
 use canalis::pipeline::{
-    self, Drive, FluidSpec, Input, Method, OperatingSpec, SolveConfig, DEFAULT_CELLS,
+    self, Drive, FluidSpec, Input, Method, OperatingSpec, SolveConfig, VERIFY_CELLS,
 };
 use canalis::{report, units, verify};
 use clap::{Parser, Subcommand, ValueEnum};
@@ -38,7 +38,7 @@ enum Command {
     /// Run the built-in verification cases against exact solutions.
     Verify {
         /// Grid cells across the longer side of each case.
-        #[arg(long, default_value_t = DEFAULT_CELLS)]
+        #[arg(long, default_value_t = VERIFY_CELLS)]
         cells: usize,
     },
 }
@@ -64,7 +64,7 @@ struct SolveArgs {
     /// The cross-section: a shape file (*.toml), a mask image (*.png, *.bmp, *.tif) or a
     /// built-in shape such as circle:d=8mm (see `canalis shapes`).
     shape: String,
-    /// Grid cells across the longer side of the bounding box [default: 400]. Ignored for
+    /// Grid cells across the longer side of the bounding box [default: 600]. Ignored for
     /// masks, whose grid is the pixel grid.
     #[arg(long)]
     cells: Option<usize>,

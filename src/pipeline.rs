@@ -278,8 +278,13 @@ pub struct OperatingSpec {
     pub fluid: FluidSpec,
 }
 
-/// Default number of cells across the longer side of the bounding box.
-pub const DEFAULT_CELLS: usize = 400;
+/// Default number of cells across the longer side of the bounding box: the finest grid at which
+/// every shipped example solves in well under half a second with the multigrid solver
+/// (measured 0.10–0.32 s at 600 cells against 0.20–0.56 s at 800; BENCHMARKS.md).
+pub const DEFAULT_CELLS: usize = 600;
+/// Cells across each case of `canalis verify` unless told otherwise (the grid at which the
+/// accuracy of the exact cases is specified).
+pub const VERIFY_CELLS: usize = 400;
 /// Default limit on the estimated memory of a solve.
 pub const DEFAULT_MEMORY_LIMIT: u64 = 4 << 30;
 /// Estimated bytes per grid node (classification, numbering, matrix, solver vectors; measured
