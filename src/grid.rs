@@ -223,64 +223,89 @@ fn link_thetas(
 /// between two fluid nodes with a solid sliver between them (a fin thinner than h) is cut at
 /// both ends, so no flow leaks through it.
 pub fn classify(domain: &dyn Domain, grid: Grid) -> Result<Classified> {
+    use rayon::prelude::*;
     let n = grid.len();
     let h = grid.h;
+    // Rows and columns are independent: in parallel, collected in order (the same result with
+    // any number of threads).
     let rows: Vec<Vec<f64>> = (0..grid.ny)
+        .into_par_iter()
         .map(|j| domain.wall_crossings(grid.node(0, j), [1.0, 0.0]))
         .collect();
     let cols: Vec<Vec<f64>> = (0..grid.nx)
+        .into_par_iter()
         .map(|i| domain.wall_crossings(grid.node(i, 0), [0.0, 1.0]))
         .collect();
     let mut fluid = vec![false; n];
-    for j in 0..grid.ny {
-        for i in 0..grid.nx {
-            let (sx, sy) = (i as f64 * h, j as f64 * h);
-            fluid[grid.index(i, j)] =
-                inside(&rows[j], sx) && !on_wall(&rows[j], sx, h) && !on_wall(&cols[i], sy, h);
-        }
-    }
-    let is_fluid = |k: Option<usize>| k.is_some_and(|m| fluid[m]);
-    let mut cuts = Vec::new();
-    let mut cut_start = Vec::with_capacity(n + 1);
-    for (k, &is_fluid_node) in fluid.iter().enumerate() {
-        cut_start.push(cuts.len() as u32);
-        if !is_fluid_node {
-            continue;
-        }
-        let (i, j) = grid.ij(k);
-        let (e, w) = link_thetas(
-            &rows[j],
-            i as f64 * h,
-            h,
-            is_fluid(grid.neighbour(k, Dir::East)),
-            is_fluid(grid.neighbour(k, Dir::West)),
-        );
-        let (no, so) = link_thetas(
-            &cols[i],
-            j as f64 * h,
-            h,
-            is_fluid(grid.neighbour(k, Dir::North)),
-            is_fluid(grid.neighbour(k, Dir::South)),
-        );
-        for (d, t) in [
-            (Dir::East, e),
-            (Dir::West, w),
-            (Dir::North, no),
-            (Dir::South, so),
-        ] {
-            if let Some(theta) = t {
-                cuts.push(Cut {
-                    node: k,
-                    dir: d,
-                    theta,
-                });
+    fluid
+        .par_chunks_mut(grid.nx)
+        .enumerate()
+        .for_each(|(j, row)| {
+            for (i, f) in row.iter_mut().enumerate() {
+                let (sx, sy) = (i as f64 * h, j as f64 * h);
+                *f = inside(&rows[j], sx) && !on_wall(&rows[j], sx, h) && !on_wall(&cols[i], sy, h);
             }
-        }
-    }
-    cut_start.push(cuts.len() as u32);
-    if cuts.len() > u32::MAX as usize {
+        });
+    let is_fluid = |k: Option<usize>| k.is_some_and(|m| fluid[m]);
+    // Cuts per row in parallel, then concatenated in row order.
+    let per_row: Vec<(Vec<Cut>, Vec<u32>)> = (0..grid.ny)
+        .into_par_iter()
+        .map(|j| {
+            let mut cuts = Vec::new();
+            let mut counts = Vec::with_capacity(grid.nx);
+            for (i, col) in cols.iter().enumerate() {
+                let k = grid.index(i, j);
+                let before = cuts.len();
+                if fluid[k] {
+                    let (e, w) = link_thetas(
+                        &rows[j],
+                        i as f64 * h,
+                        h,
+                        is_fluid(grid.neighbour(k, Dir::East)),
+                        is_fluid(grid.neighbour(k, Dir::West)),
+                    );
+                    let (no, so) = link_thetas(
+                        col,
+                        j as f64 * h,
+                        h,
+                        is_fluid(grid.neighbour(k, Dir::North)),
+                        is_fluid(grid.neighbour(k, Dir::South)),
+                    );
+                    for (d, t) in [
+                        (Dir::East, e),
+                        (Dir::West, w),
+                        (Dir::North, no),
+                        (Dir::South, so),
+                    ] {
+                        if let Some(theta) = t {
+                            cuts.push(Cut {
+                                node: k,
+                                dir: d,
+                                theta,
+                            });
+                        }
+                    }
+                }
+                counts.push((cuts.len() - before) as u32);
+            }
+            (cuts, counts)
+        })
+        .collect();
+    let total: usize = per_row.iter().map(|r| r.0.len()).sum();
+    if total > u32::MAX as usize {
         return Err(Error::param("--cells", "the grid is too large"));
     }
+    let mut cuts = Vec::with_capacity(total);
+    let mut cut_start = Vec::with_capacity(n + 1);
+    for (row_cuts, counts) in per_row {
+        let mut start = cuts.len() as u32;
+        for c in counts {
+            cut_start.push(start);
+            start += c;
+        }
+        cuts.extend(row_cuts);
+    }
+    cut_start.push(cuts.len() as u32);
     let mut out = Classified {
         grid,
         fluid,

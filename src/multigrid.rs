@@ -199,7 +199,7 @@ fn coarse_size(n: usize) -> usize {
 
 /// The Galerkin coarse level Pᵀ·A·P of a fine level; `scale` holds the row scales of P (None:
 /// all 1).
-fn coarsen(fine: &dyn StencilRows, scale: Option<&[f64]>) -> Level {
+fn coarsen(fine: &(dyn StencilRows + Sync), scale: Option<&[f64]>) -> Level {
     let sc = |k: usize| scale.map_or(1.0, |s| s[k]);
     let (fnx, fny) = (fine.nx(), fine.ny());
     let (nx, ny) = (coarse_size(fnx), coarse_size(fny));
@@ -218,40 +218,60 @@ fn coarsen(fine: &dyn StencilRows, scale: Option<&[f64]>) -> Level {
             }
         }
     }
+    // Each fine row j adds to the coarse rows of its parents (one or two). Bands of BAND fine
+    // rows touch coarse rows [b·BAND/2 + 1, (b + 1)·BAND/2 + 1], so bands two apart never share
+    // a coarse row: the even bands run in parallel, then the odd ones. Within a band the sums
+    // run in row order, and a coarse row shared by two bands gets the lower band first: the
+    // same numbers with any number of threads.
+    use rayon::prelude::*;
+    const BAND: usize = 32;
     let mut stencil = vec![[0.0f64; 9]; nx * ny];
-    for j in 1..fny - 1 {
-        let (pj, cj) = parents(j);
-        for i in 1..fnx - 1 {
-            let k = j * fnx + i;
-            if !fine.is_active(k) {
-                continue;
-            }
-            let (pi, ci) = parents(i);
-            let entries = fine.row(k);
-            let sk = sc(k);
-            for (o, &(di, dj)) in OFFSETS.iter().enumerate() {
-                let a = entries[o];
-                if a == 0.0 {
-                    continue;
-                }
-                let (i2, j2) = ((i as isize + di) as usize, (j as isize + dj) as usize);
-                let a = a * sk * sc(j2 * fnx + i2);
-                let (qi, ni) = parents(i2);
-                let (qj, nj) = parents(j2);
-                for &(cj1, wj1) in &pj[..cj] {
-                    for &(ci1, wi1) in &pi[..ci] {
-                        let w1 = wi1 * wj1 * a;
-                        let row = &mut stencil[cj1 * nx + ci1];
-                        for &(cj2, wj2) in &qj[..nj] {
-                            for &(ci2, wi2) in &qi[..ni] {
-                                let oo = (cj2 + 1 - cj1) * 3 + (ci2 + 1 - ci1);
-                                row[oo] += w1 * wi2 * wj2;
+    let shared = SharedStencil(stencil.as_mut_ptr());
+    let bands = (fny - 2).div_ceil(BAND);
+    for phase in 0..2 {
+        (0..bands)
+            .into_par_iter()
+            .filter(|b| b % 2 == phase)
+            .for_each(|b| {
+                let shared = &shared;
+                for j in (1 + b * BAND)..(1 + (b + 1) * BAND).min(fny - 1) {
+                    let (pj, cj) = parents(j);
+                    for i in 1..fnx - 1 {
+                        let k = j * fnx + i;
+                        if !fine.is_active(k) {
+                            continue;
+                        }
+                        let (pi, ci) = parents(i);
+                        let entries = fine.row(k);
+                        let sk = sc(k);
+                        for (o, &(di, dj)) in OFFSETS.iter().enumerate() {
+                            let a = entries[o];
+                            if a == 0.0 {
+                                continue;
+                            }
+                            let (i2, j2) = ((i as isize + di) as usize, (j as isize + dj) as usize);
+                            let a = a * sk * sc(j2 * fnx + i2);
+                            let (qi, ni) = parents(i2);
+                            let (qj, nj) = parents(j2);
+                            for &(cj1, wj1) in &pj[..cj] {
+                                for &(ci1, wi1) in &pi[..ci] {
+                                    let w1 = wi1 * wj1 * a;
+                                    // SAFETY: coarse row cj1 belongs to this band's range,
+                                    // which no other task of this phase touches (see above);
+                                    // the index is inside the coarse grid.
+                                    let row = unsafe { &mut *shared.0.add(cj1 * nx + ci1) };
+                                    for &(cj2, wj2) in &qj[..nj] {
+                                        for &(ci2, wi2) in &qi[..ni] {
+                                            let oo = (cj2 + 1 - cj1) * 3 + (ci2 + 1 - ci1);
+                                            row[oo] += w1 * wi2 * wj2;
+                                        }
+                                    }
+                                }
                             }
                         }
                     }
                 }
-            }
-        }
+            });
     }
     let inv_diag = stencil
         .iter()
@@ -442,6 +462,12 @@ fn smooth_fine(a: &GridOperator, inv_diag: &[f64], b: &[f64], x: &mut [f64], for
         });
     }
 }
+
+/// A raw pointer to the coarse stencils shared by the band tasks of [`coarsen`].
+struct SharedStencil(*mut [f64; 9]);
+// SAFETY: used only in `coarsen`, whose concurrent tasks write disjoint coarse rows.
+unsafe impl Sync for SharedStencil {}
+unsafe impl Send for SharedStencil {}
 
 /// A raw pointer to share a vector between the tasks of one red–black half-sweep.
 struct SharedMut(*mut f64);

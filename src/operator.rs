@@ -120,27 +120,34 @@ pub struct GridOperator {
 
 impl GridOperator {
     pub fn new(c: &Classified) -> GridOperator {
+        use rayon::prelude::*;
         let n = c.grid.len();
         let mut diag = vec![0.0; n];
         let mut links = vec![0u8; n];
-        for k in 0..n {
-            if !c.fluid[k] {
-                continue;
-            }
-            let mut d = 0.0;
-            let mut mask = 0u8;
-            for dir in Dir::ALL {
-                match c.theta(k, dir) {
-                    Some(theta) => d += 1.0 / theta,
-                    None => {
-                        d += 1.0;
-                        mask |= 1 << dir as u8;
+        diag.par_chunks_mut(c.grid.nx)
+            .zip(links.par_chunks_mut(c.grid.nx))
+            .enumerate()
+            .for_each(|(j, (drow, lrow))| {
+                for i in 0..drow.len() {
+                    let k = j * c.grid.nx + i;
+                    if !c.fluid[k] {
+                        continue;
                     }
+                    let mut d = 0.0;
+                    let mut mask = 0u8;
+                    for dir in Dir::ALL {
+                        match c.theta(k, dir) {
+                            Some(theta) => d += 1.0 / theta,
+                            None => {
+                                d += 1.0;
+                                mask |= 1 << dir as u8;
+                            }
+                        }
+                    }
+                    drow[i] = d;
+                    lrow[i] = mask;
                 }
-            }
-            diag[k] = d;
-            links[k] = mask;
-        }
+            });
         GridOperator {
             nx: c.grid.nx,
             ny: c.grid.ny,

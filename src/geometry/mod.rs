@@ -716,7 +716,7 @@ pub struct Walls {
 
 /// What the grid needs to know of a cross-section, whether it comes from true curves
 /// ([`Shape`]) or from a bitmap ([`mask::Mask`]).
-pub trait Domain {
+pub trait Domain: Sync {
     /// Bounding box of the fluid, (low corner, high corner), metres.
     fn bbox(&self) -> (Point, Point);
     /// Is `p` in the fluid?
