@@ -34,8 +34,10 @@ fn peak_rss_bytes() -> u64 {
 
 /// One solve in this process; prints one line of numbers.
 fn child(shape: &str, cells: usize, method: Method) {
+    // The flow problem of issue 3 (heat transfer is timed on its own, `heat s`).
     let opts = UnitOptions {
         method,
+        heat: std::env::var("CANALIS_BENCH_HEAT").is_ok(),
         ..Default::default()
     };
     let (domain, grid, exact): (Box<dyn Domain>, Grid, bool) = match shape {

@@ -16,6 +16,7 @@ pub mod geometry;
 pub mod grid;
 pub mod multigrid;
 pub mod operator;
+pub mod output;
 pub mod pipeline;
 pub mod post;
 pub mod report;

@@ -8,7 +8,7 @@ use canalis::geometry::mask::{FluidColour, MaskOptions};
 use canalis::pipeline::{
     self, Drive, FluidSpec, Input, Method, OperatingSpec, SolveConfig, VERIFY_CELLS,
 };
-use canalis::{report, units, verify};
+use canalis::{output, report, units, verify};
 use clap::{Parser, Subcommand, ValueEnum};
 use std::io::Write;
 use std::path::{Path, PathBuf};
@@ -71,9 +71,14 @@ struct SolveArgs {
     /// Print exactly one JSON object (the report) on standard output.
     #[arg(long)]
     json: bool,
-    /// Write the report (report.json) into this directory (created if missing).
+    /// Write pictures and field files into this directory (created if missing):
+    /// velocity.png, wall_shear.png, velocity.csv, wall_shear.csv, velocity.vti (VTK) and
+    /// report.json.
     #[arg(long, value_name = "DIR")]
     out: Option<PathBuf>,
+    /// Width of the pictures written by --out, pixels (400 to 8000).
+    #[arg(long, value_name = "N", default_value_t = output::DEFAULT_IMAGE_WIDTH)]
+    image_width: u32,
     /// Overwrite existing files in --out.
     #[arg(long)]
     force: bool,
@@ -275,22 +280,6 @@ fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
     Ok(c)
 }
 
-fn write_new(path: &Path, text: &str, force: bool) -> Result<(), Error> {
-    if path.exists() && !force {
-        return Err(Error::param(
-            "--out",
-            format!(
-                "{} already exists; not overwritten (use --force to replace it)",
-                path.display()
-            ),
-        ));
-    }
-    std::fs::write(path, text).map_err(|source| Error::Io {
-        path: path.to_path_buf(),
-        source,
-    })
-}
-
 /// A residual line on standard error that updates in place, shown only for solves that take
 /// longer than half a second.
 struct Progress {
@@ -330,18 +319,14 @@ impl canalis::solver::Monitor for Progress {
 
 fn solve(a: &SolveArgs) -> Result<(), Error> {
     let cfg = config(a)?;
+    let out_options = output::OutputOptions {
+        image_width: a.image_width,
+        force: a.force,
+    };
     if let Some(dir) = &a.out {
         // Check before the solve, so a long run is not wasted on a file in the way.
-        let target = dir.join("report.json");
-        if target.exists() && !a.force {
-            return Err(Error::param(
-                "--out",
-                format!(
-                    "{} already exists; not overwritten (use --force to replace it)",
-                    target.display()
-                ),
-            ));
-        }
+        output::check_options(&out_options)?;
+        output::check_targets(dir, a.force)?;
     }
     let outcome = if a.json || a.quiet {
         pipeline::run(&cfg)?
@@ -354,11 +339,7 @@ fn solve(a: &SolveArgs) -> Result<(), Error> {
     let json = report::json_report(&outcome);
     let text = serde_json::to_string_pretty(&json).unwrap_or_default();
     if let Some(dir) = &a.out {
-        std::fs::create_dir_all(dir).map_err(|source| Error::Io {
-            path: dir.clone(),
-            source,
-        })?;
-        write_new(&dir.join("report.json"), &text, a.force)?;
+        output::write_all(&outcome, dir, &out_options)?;
     }
     let mut out = std::io::stdout().lock();
     if a.json {

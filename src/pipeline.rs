@@ -14,8 +14,8 @@ use crate::multigrid::Multigrid;
 use crate::operator::{assemble, unit_rhs, GridOperator, Numbering};
 use crate::post::{self, Figures, ShearSample};
 use crate::solver::{
-    pcg_monitored, CgInfo, CgParams, Identity, Jacobi, LinearOperator, Monitor, Preconditioner,
-    Silent,
+    pcg_monitored, smallest_eigenpair, CgInfo, CgParams, EigenInfo, EigenParams, Identity, Jacobi,
+    LinearOperator, Monitor, Preconditioner, Silent, SolveFn,
 };
 use std::path::PathBuf;
 use std::time::Instant;
@@ -52,6 +52,8 @@ pub struct UnitOptions {
     pub cg: CgParams,
     /// Apply the deferred wall correction ([`post::wall_correction`]) on exact walls.
     pub wall_correction: bool,
+    /// Also solve the two heat-transfer problems (Nu_H1, Nu_T).
+    pub heat: bool,
 }
 
 impl Default for UnitOptions {
@@ -60,6 +62,7 @@ impl Default for UnitOptions {
             method: Method::default(),
             cg: CgParams::default(),
             wall_correction: true,
+            heat: true,
         }
     }
 }
@@ -74,6 +77,8 @@ pub struct UnitSolution {
     pub walls: Walls,
     pub shear: Vec<ShearSample>,
     pub figures: Figures,
+    /// Fully developed heat transfer, when asked for.
+    pub heat: Option<HeatFigures>,
     pub info: CgInfo,
     /// Each CG solve on its own: the first solve, then the one with the wall correction.
     pub passes: Vec<CgInfo>,
@@ -89,6 +94,8 @@ pub struct Timings {
     pub assembly: f64,
     /// Preconditioner setup (the multigrid hierarchy).
     pub setup: f64,
+    /// The two heat-transfer problems (Nu_H1, Nu_T).
+    pub heat: f64,
     pub solve: f64,
     pub post: f64,
 }
@@ -216,6 +223,19 @@ pub fn solve_unit_monitored(
     let shear = post::wall_shear(&classified, &numbering, &u, &walls, exact_wall);
     let figures = post::figures(&classified, &numbering, &u, &walls, &shear);
     let t4 = Instant::now();
+    let heat = if options.heat {
+        Some(heat_transfer(
+            &classified,
+            &numbering,
+            &u,
+            &figures,
+            &mut solve,
+            method.name(),
+        )?)
+    } else {
+        None
+    };
+    let t5 = Instant::now();
     Ok(UnitSolution {
         classified,
         numbering,
@@ -223,6 +243,7 @@ pub fn solve_unit_monitored(
         walls,
         shear,
         figures,
+        heat,
         info,
         passes,
         method_name: method.name(),
@@ -232,7 +253,61 @@ pub fn solve_unit_monitored(
             setup: (t_setup - t2).as_secs_f64(),
             solve: (t3 - t_setup).as_secs_f64(),
             post: (t4 - t3).as_secs_f64(),
+            heat: (t5 - t4).as_secs_f64(),
         },
+    })
+}
+
+/// Nusselt numbers of fully developed laminar heat transfer.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct HeatFigures {
+    /// Nu_H1: axially uniform heat flux, peripherally uniform wall temperature.
+    pub nusselt_h1: f64,
+    /// Nu_T: uniform wall temperature.
+    pub nusselt_t: f64,
+    /// Inverse iterations and their CG iterations for Nu_T.
+    pub eigen: EigenInfo,
+    /// CG iterations of the Nu_H1 solve.
+    pub h1_iterations: usize,
+}
+
+/// The two heat-transfer problems on the flow problem's operator, with w = ũ/ū:
+/// - H1: −∇²ψ = w, ψ = 0 on the walls (ψ = −φ of ∇²φ = w); φ_b the w-weighted mean of ψ by the
+///   same cut-cell quadrature as the flow integral; Nu_H1 = D_h²/(4·ψ_b) (Shah & London 1978,
+///   ch. 2, from memory; circle 48/11).
+/// - T: the smallest λ of −∇²f = λ·w·f, f = 0 on the walls (the Graetz problem for uniform wall
+///   temperature); Nu_T = λ·D_h²/4 (circle 3.6568). Discretised row by row like the flow
+///   problem: A·f = λ·h²·diag(w)·f.
+fn heat_transfer(
+    c: &Classified,
+    num: &Numbering,
+    u: &[f64],
+    f: &Figures,
+    solve: &mut SolveFn<'_>,
+    method: &str,
+) -> Result<HeatFigures> {
+    let h2 = c.grid.h * c.grid.h;
+    let mean = f.flow_integral / f.area;
+    let w: Vec<f64> = u.iter().map(|v| (v / mean).max(0.0)).collect();
+    let rhs: Vec<f64> = w.iter().map(|x| h2 * x).collect();
+    // ψ ≈ ũ·(something) is a fair start; zero is safe.
+    let mut psi = vec![0.0; u.len()];
+    let info = solve(&rhs, &mut psi, &CgParams::default())?;
+    let dh = f.hydraulic_diameter;
+    let nusselt_h1 = post::nusselt_h1(c, num, &w, &psi, dh);
+    let mut mode = u.to_vec();
+    let eigen = smallest_eigenpair(
+        &rhs,
+        &mut mode,
+        solve,
+        &EigenParams::default(),
+        &format!("{method} for Nu_T"),
+    )?;
+    Ok(HeatFigures {
+        nusselt_h1,
+        nusselt_t: eigen.eigenvalue * dh * dh / 4.0,
+        eigen,
+        h1_iterations: info.iterations,
     })
 }
 
@@ -441,6 +516,15 @@ pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outc
             ),
         ));
     }
+    let passages = post::passage_count(&unit.classified);
+    if passages > 1 && unit.heat.is_some() {
+        warnings.push(format!(
+            "the cross-section has {passages} separate passages: nusselt_t is the smallest \
+             uniform-wall-temperature mode, which lives in one passage only, and nusselt_h1 mixes \
+             the passages' bulk temperatures; treat both as indicative and rate each passage \
+             on its own"
+        ));
+    }
     if unit.info.round_off_limited {
         warnings.push(format!(
             "the solver stopped at the round-off floor of double precision: relative residual \
@@ -495,6 +579,8 @@ pub fn operating_point(
                 viscosity_pa_s: *viscosity,
                 density_kg_m3: *density,
                 temperature_k: None,
+                conductivity_w_mk: None,
+                specific_heat_j_kgk: None,
                 source: "given on the command line".into(),
             }
         }

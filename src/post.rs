@@ -72,6 +72,64 @@ pub fn flow_integral(c: &Classified, num: &Numbering, u: &[f64], area: f64) -> f
     0.25 * h2 * sum + h2 * area / 24.0
 }
 
+/// Weights of the cut-cell quadrature of [`flow_integral`] without its h²A/24 term (that term
+/// belongs to −∇²ũ = 1 only): node i gets h²·(a_E + a_W + a_N + a_S)/4.
+pub fn quadrature_weights(c: &Classified, num: &Numbering) -> Vec<f64> {
+    let h2 = c.grid.h * c.grid.h;
+    num.node_of
+        .iter()
+        .map(|&k| {
+            let mut a = 4.0;
+            for cut in c.cuts_of(k) {
+                a -= 1.0 - cut.theta;
+            }
+            0.25 * h2 * a
+        })
+        .collect()
+}
+
+/// Nu_H1 = D_h²/(4·ψ_b) with ψ_b = ∫w·ψ dA / ∫w dA by the cut-cell quadrature, ψ the solution
+/// of −∇²ψ = w (w = ũ/ū), ψ = 0 on the walls.
+pub fn nusselt_h1(c: &Classified, num: &Numbering, w: &[f64], psi: &[f64], dh: f64) -> f64 {
+    let q = quadrature_weights(c, num);
+    let (mut top, mut bottom) = (0.0, 0.0);
+    for i in 0..q.len() {
+        top += q[i] * w[i] * psi[i];
+        bottom += q[i] * w[i];
+    }
+    dh * dh / (4.0 * (top / bottom))
+}
+
+/// Number of separate passages: connected groups of fluid nodes joined by regular links.
+pub fn passage_count(c: &Classified) -> usize {
+    let g = &c.grid;
+    let mut seen = vec![false; g.len()];
+    let mut stack = Vec::new();
+    let mut count = 0;
+    for start in 0..g.len() {
+        if !c.fluid[start] || seen[start] {
+            continue;
+        }
+        count += 1;
+        seen[start] = true;
+        stack.push(start);
+        while let Some(k) = stack.pop() {
+            for d in Dir::ALL {
+                if c.theta(k, d).is_some() {
+                    continue;
+                }
+                if let Some(m) = g.neighbour(k, d) {
+                    if !seen[m] {
+                        seen[m] = true;
+                        stack.push(m);
+                    }
+                }
+            }
+        }
+    }
+    count
+}
+
 /// Largest velocity: the largest node value, refined by the stationary point of the quadratic
 /// through its 3×3 neighbourhood when that neighbourhood is all fluid (a second-order estimate
 /// of an interior maximum, instead of the node value's O(h²)·|∇²u| bias... of either sign).

@@ -36,6 +36,10 @@ pub fn json_report(o: &Outcome) -> Value {
         "force_balance_rel_error".into(),
         finite(f.force_balance_rel_error),
     );
+    if let Some(h) = &o.unit.heat {
+        m.insert("nusselt_h1".into(), finite(h.nusselt_h1));
+        m.insert("nusselt_t".into(), finite(h.nusselt_t));
+    }
     m.insert(
         "grid".into(),
         json!({
@@ -187,6 +191,19 @@ pub fn summary(o: &Outcome) -> String {
         "force balance error",
         format!("{:.1e} (self-check)", f.force_balance_rel_error),
     );
+    if let Some(h) = &o.unit.heat {
+        let _ = writeln!(s, "Heat transfer (laminar, fully developed)");
+        line(
+            &mut s,
+            "Nu_H1 (uniform flux)",
+            format!("{:.5}", h.nusselt_h1),
+        );
+        line(
+            &mut s,
+            "Nu_T (uniform wall temp.)",
+            format!("{:.5}", h.nusselt_t),
+        );
+    }
     if let Some(op) = &o.operating {
         let fl = &op.fluid;
         let t = fl

@@ -16,8 +16,10 @@ fn solve(domain: &dyn Domain, cells: usize, method: Method) -> UnitSolution {
             Grid::covering(lo, hi, cells)
         }
     };
+    // The flow problem only: these tests are about the linear solver.
     let opts = UnitOptions {
         method,
+        heat: false,
         ..Default::default()
     };
     solve_unit(domain, grid, domain.lattice().is_none(), &opts).expect("solve")
@@ -123,6 +125,7 @@ fn multigrid_iterations_do_not_grow_with_the_grid() {
     let opts = UnitOptions {
         method: Method::Multigrid,
         wall_correction: false,
+        heat: false,
         ..Default::default()
     };
     let counts: Vec<usize> = [128, 256, 512, 1024]

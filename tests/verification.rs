@@ -546,7 +546,11 @@ fn mask_of_a_circle_400_pixels() {
     })
     .expect("mask");
     let grid = Grid::from_lattice(mask.lattice().expect("a mask has a lattice"));
-    let sol = solve_unit(&mask, grid, false, &UnitOptions::default()).expect("solve");
+    let opts = UnitOptions {
+        heat: false,
+        ..Default::default()
+    };
+    let sol = solve_unit(&mask, grid, false, &opts).expect("solve");
     let f = &sol.figures;
     let p_exact = std::f64::consts::PI * d * 1e-5;
     println!(

@@ -14,7 +14,12 @@ use canalis::pipeline::{solve_unit, UnitOptions, UnitSolution};
 pub fn solve_case(shape: &Shape, cells: usize) -> UnitSolution {
     let (lo, hi) = shape.bbox();
     let grid = Grid::covering(lo, hi, cells);
-    match solve_unit(shape, grid, true, &UnitOptions::default()) {
+    // The flow problem only (heat transfer has its own tests in tests/heat.rs).
+    let opts = UnitOptions {
+        heat: false,
+        ..Default::default()
+    };
+    match solve_unit(shape, grid, true, &opts) {
         Ok(sol) => sol,
         Err(e) => panic!("solving {:?} on {cells} cells failed: {e}", shape.name),
     }
