@@ -302,6 +302,18 @@ fn vti_reproduces_the_flow_at_an_operating_point() {
     let q = report["flow_rate_m3_s"].as_f64().unwrap();
     let gap = (vti_sum - q) / q;
     assert!(gap.abs() < 1e-3, "node sum {vti_sum} vs flow {q}");
+    // With the quadrature weights the VTI carries, the reported flow rate itself comes back:
+    // Q = Σ wᵢ·uᵢ + (G/μ)·h²·A/24 (the cut-cell quadrature of post::flow_integral).
+    let w = array("quadrature_weight_m2");
+    let g_over_mu = report["pressure_gradient_pa_m"].as_f64().unwrap()
+        / report["fluid"]["viscosity_pa_s"].as_f64().unwrap();
+    let area = report["area_m2"].as_f64().unwrap();
+    let q_vti: f64 =
+        u.iter().zip(&w).map(|(v, w)| v * w).sum::<f64>() + g_over_mu * h * h * area / 24.0;
+    assert!(
+        ((q_vti - q) / q).abs() < 1e-9,
+        "VTI quadrature {q_vti} vs flow {q}"
+    );
 
     // wall_shear.csv in Pa at an operating point.
     let (header, _) = csv(&out.join("wall_shear.csv"));

@@ -132,6 +132,26 @@ pub fn velocity_vti(o: &Outcome, scale: &Scale) -> String {
         s.push('\n');
     }
     let _ = writeln!(s, "        </DataArray>");
+    // The weights of the cut-cell quadrature (post::quadrature_weights), so that a reader can
+    // reproduce the reported flow rate: Q = Σ wᵢ·uᵢ + (G/μ)·h²·A/24 (post::flow_integral).
+    let weights = crate::post::quadrature_weights(c, &o.unit.numbering);
+    let mut full = vec![0.0; g.len()];
+    for (q, &k) in o.unit.numbering.node_of.iter().enumerate() {
+        full[k] = weights[q];
+    }
+    let _ = writeln!(
+        s,
+        "        <DataArray type=\"Float64\" Name=\"quadrature_weight_m2\" \
+         NumberOfComponents=\"1\" format=\"ascii\">"
+    );
+    for row in full.chunks(8) {
+        s.push_str("         ");
+        for v in row {
+            let _ = write!(s, " {v}");
+        }
+        s.push('\n');
+    }
+    let _ = writeln!(s, "        </DataArray>");
     let _ = writeln!(s, "      </PointData>");
     let _ = writeln!(s, "      <CellData>\n      </CellData>");
     let _ = writeln!(s, "    </Piece>");
