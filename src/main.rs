@@ -100,6 +100,15 @@ struct SolveArgs {
     /// Density, kg/m³.
     #[arg(long, value_name = "VALUE", conflicts_with = "fluid")]
     density: Option<String>,
+    /// Thermal conductivity, W/(m·K), for film coefficients (with --viscosity/--density).
+    #[arg(long, value_name = "VALUE", conflicts_with = "fluid")]
+    conductivity: Option<String>,
+    /// Isobaric specific heat, J/(kg·K), for the Prandtl number (with --conductivity).
+    #[arg(long, value_name = "VALUE", conflicts_with = "fluid")]
+    specific_heat: Option<String>,
+    /// Passage length, e.g. 250mm: pressure drop over it and entrance-length checks.
+    #[arg(long, value_name = "L")]
+    length: Option<String>,
     /// A named fluid with a property model: water.
     #[arg(long, value_name = "NAME")]
     fluid: Option<String>,
@@ -242,10 +251,32 @@ fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
                 .map(|t| units::parse_temperature(t, "--temperature"))
                 .transpose()?,
         }),
-        (None, Some(mu), Some(rho)) => Some(FluidSpec::Given {
-            viscosity: units::parse_viscosity(mu, "--viscosity")?,
-            density: units::parse_density(rho, "--density")?,
-        }),
+        (None, Some(mu), Some(rho)) => {
+            let number = |v: &Option<String>, name: &str| -> Result<Option<f64>, Error> {
+                v.as_deref()
+                    .map(|t| {
+                        t.trim().parse::<f64>().map_err(|_| {
+                            Error::param(name, format!("'{t}' is not a number (SI units)"))
+                        })
+                    })
+                    .transpose()
+            };
+            let conductivity = number(&a.conductivity, "--conductivity")?;
+            let specific_heat = number(&a.specific_heat, "--specific-heat")?;
+            if specific_heat.is_some() && conductivity.is_none() {
+                return Err(Error::param(
+                    "--conductivity",
+                    "the Prandtl number and film coefficients need the thermal conductivity: \
+                     --specific-heat was given without --conductivity",
+                ));
+            }
+            Some(FluidSpec::Given {
+                viscosity: units::parse_viscosity(mu, "--viscosity")?,
+                density: units::parse_density(rho, "--density")?,
+                conductivity,
+                specific_heat,
+            })
+        }
         (None, Some(_), None) => {
             return Err(Error::param(
                 "--density",
@@ -260,8 +291,30 @@ fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
         }
         (None, None, None) => None,
     };
+    if (a.conductivity.is_some() || a.specific_heat.is_some()) && a.viscosity.is_none() {
+        return Err(Error::param(
+            "--conductivity",
+            "--conductivity and --specific-heat describe a fluid given by --viscosity and \
+             --density (a named fluid brings its own)",
+        ));
+    }
+    if a.length.is_some() && (drive.is_none() || fluid.is_none()) {
+        return Err(Error::param(
+            "--length",
+            "the pressure drop over a length needs an operating point: --dpdx or --flow, and a \
+             fluid",
+        ));
+    }
     c.operating = match (drive, fluid) {
-        (Some(drive), Some(fluid)) => Some(OperatingSpec { drive, fluid }),
+        (Some(drive), Some(fluid)) => Some(OperatingSpec {
+            drive,
+            fluid,
+            length: a
+                .length
+                .as_deref()
+                .map(|l| units::parse_length(l, "--length"))
+                .transpose()?,
+        }),
         (Some(_), None) => {
             return Err(Error::param(
                 "--fluid",

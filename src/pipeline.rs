@@ -338,7 +338,14 @@ pub enum Drive {
 #[derive(Debug, Clone, PartialEq)]
 pub enum FluidSpec {
     /// Constant properties given by the user.
-    Given { viscosity: f64, density: f64 },
+    Given {
+        viscosity: f64,
+        density: f64,
+        /// Thermal conductivity, W/(m·K), for film coefficients.
+        conductivity: Option<f64>,
+        /// Isobaric specific heat, J/(kg·K), for the Prandtl number.
+        specific_heat: Option<f64>,
+    },
     /// A property model by name, at a temperature (kelvin).
     Named {
         name: String,
@@ -351,6 +358,8 @@ pub enum FluidSpec {
 pub struct OperatingSpec {
     pub drive: Drive,
     pub fluid: FluidSpec,
+    /// Passage length, m: pressure drop over it and entrance-length checks.
+    pub length: Option<f64>,
 }
 
 /// Default number of cells across the longer side of the bounding box: the finest grid at which
@@ -405,6 +414,24 @@ pub struct OperatingResult {
     pub wall_shear_mean_pa: f64,
     pub wall_shear_max_pa: f64,
     pub wall_shear_min_pa: f64,
+    /// Pr = μ·c_p/k, when both are known.
+    pub prandtl: Option<f64>,
+    /// h = Nu·k/D_h for the H1 and T boundary conditions, W/(m²·K), when k is known.
+    pub heat_transfer_coefficient_h1_w_m2k: Option<f64>,
+    pub heat_transfer_coefficient_t_w_m2k: Option<f64>,
+    /// With a length: the pressure drop over it and the entrance lengths.
+    pub length: Option<LengthResult>,
+}
+
+/// Results that need the passage length.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct LengthResult {
+    pub length_m: f64,
+    pub pressure_drop_pa: f64,
+    /// L_h ≈ 0.05·Re·D_h (common practice for round tubes, no source).
+    pub entrance_length_hydrodynamic_m: f64,
+    /// L_t ≈ 0.05·Re·Pr·D_h (common practice for round tubes, no source), when Pr is known.
+    pub entrance_length_thermal_m: Option<f64>,
 }
 
 /// Everything a `solve` run produced.
@@ -543,7 +570,12 @@ pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outc
     }
     let operating = match &config.operating {
         None => None,
-        Some(spec) => Some(operating_point(&unit.figures, spec, &mut warnings)?),
+        Some(spec) => Some(operating_point(
+            &unit.figures,
+            unit.heat.as_ref(),
+            spec,
+            &mut warnings,
+        )?),
     };
     Ok(Outcome {
         name,
@@ -557,11 +589,30 @@ pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outc
 /// Scales the unit solution to an operating point: u = (G/μ)·ũ, Q = (G/μ)·I, τ = G·τ̃.
 pub fn operating_point(
     f: &Figures,
+    heat: Option<&HeatFigures>,
     spec: &OperatingSpec,
     warnings: &mut Vec<String>,
 ) -> Result<OperatingResult> {
     let fluid = match &spec.fluid {
-        FluidSpec::Given { viscosity, density } => {
+        FluidSpec::Given {
+            viscosity,
+            density,
+            conductivity,
+            specific_heat,
+        } => {
+            for (v, name, unit) in [
+                (conductivity, "--conductivity", "W/(m·K)"),
+                (specific_heat, "--specific-heat", "J/(kg·K)"),
+            ] {
+                if let Some(v) = v {
+                    if !(v.is_finite() && *v > 0.0) {
+                        return Err(Error::param(
+                            name,
+                            format!("must be a positive number ({unit})"),
+                        ));
+                    }
+                }
+            }
             if !(viscosity.is_finite() && *viscosity > 0.0) {
                 return Err(Error::param(
                     "--viscosity",
@@ -579,8 +630,8 @@ pub fn operating_point(
                 viscosity_pa_s: *viscosity,
                 density_kg_m3: *density,
                 temperature_k: None,
-                conductivity_w_mk: None,
-                specific_heat_j_kgk: None,
+                conductivity_w_mk: *conductivity,
+                specific_heat_j_kgk: *specific_heat,
                 source: "given on the command line".into(),
             }
         }
@@ -621,7 +672,54 @@ pub fn operating_point(
              understate the pressure drop and wall shear"
         ));
     }
+    let prandtl = fluid.prandtl();
+    let film = |nu: Option<f64>| {
+        fluid
+            .conductivity_w_mk
+            .zip(nu)
+            .map(|(k, nu)| nu * k / f.hydraulic_diameter)
+    };
+    let length = match spec.length {
+        None => None,
+        Some(l) => {
+            if !(l.is_finite() && l > 0.0) {
+                return Err(Error::param("--length", "must be a positive length"));
+            }
+            let lh = 0.05 * re * f.hydraulic_diameter;
+            let lt = prandtl.map(|pr| lh * pr);
+            if l < lh {
+                warnings.push(format!(
+                    "the passage ({l:.4} m) is shorter than the hydrodynamic entrance length \
+                     ≈ 0.05·Re·D_h = {lh:.4} m (common practice for round tubes, no source): the \
+                     fully developed friction understates the pressure drop"
+                ));
+            }
+            match lt {
+                Some(lt) if l < lt => warnings.push(format!(
+                    "the passage ({l:.4} m) is shorter than the thermal entrance length \
+                     ≈ 0.05·Re·Pr·D_h = {lt:.4} m (common practice for round tubes, no source): \
+                     the fully developed Nusselt numbers understate the heat transfer"
+                )),
+                None => warnings.push(
+                    "the thermal entrance length needs the Prandtl number: give --conductivity \
+                     and --specific-heat (or a named fluid)"
+                        .to_string(),
+                ),
+                _ => {}
+            }
+            Some(LengthResult {
+                length_m: l,
+                pressure_drop_pa: g * l,
+                entrance_length_hydrodynamic_m: lh,
+                entrance_length_thermal_m: lt,
+            })
+        }
+    };
     Ok(OperatingResult {
+        prandtl,
+        heat_transfer_coefficient_h1_w_m2k: film(heat.map(|h| h.nusselt_h1)),
+        heat_transfer_coefficient_t_w_m2k: film(heat.map(|h| h.nusselt_t)),
+        length,
         flow_rate_m3_s: q,
         pressure_gradient_pa_m: g,
         mean_velocity_m_s: mean,

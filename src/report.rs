@@ -70,6 +70,26 @@ pub fn json_report(o: &Outcome) -> Value {
         m.insert("wall_shear_mean_pa".into(), finite(op.wall_shear_mean_pa));
         m.insert("wall_shear_max_pa".into(), finite(op.wall_shear_max_pa));
         m.insert("wall_shear_min_pa".into(), finite(op.wall_shear_min_pa));
+        if let Some(v) = op.prandtl {
+            m.insert("prandtl".into(), json!(v));
+        }
+        if let Some(v) = op.heat_transfer_coefficient_h1_w_m2k {
+            m.insert("heat_transfer_coefficient_h1_w_m2k".into(), finite(v));
+        }
+        if let Some(v) = op.heat_transfer_coefficient_t_w_m2k {
+            m.insert("heat_transfer_coefficient_t_w_m2k".into(), finite(v));
+        }
+        if let Some(l) = &op.length {
+            m.insert("length_m".into(), json!(l.length_m));
+            m.insert("pressure_drop_pa".into(), json!(l.pressure_drop_pa));
+            m.insert(
+                "entrance_length_hydrodynamic_m".into(),
+                json!(l.entrance_length_hydrodynamic_m),
+            );
+            if let Some(lt) = l.entrance_length_thermal_m {
+                m.insert("entrance_length_thermal_m".into(), json!(lt));
+            }
+        }
         m.insert(
             "fluid".into(),
             json!({
@@ -77,6 +97,8 @@ pub fn json_report(o: &Outcome) -> Value {
                 "viscosity_pa_s": op.fluid.viscosity_pa_s,
                 "density_kg_m3": op.fluid.density_kg_m3,
                 "temperature_k": op.fluid.temperature_k,
+                "conductivity_w_mk": op.fluid.conductivity_w_mk,
+                "specific_heat_j_kgk": op.fluid.specific_heat_j_kgk,
                 "source": op.fluid.source,
             }),
         );
@@ -249,6 +271,42 @@ pub fn summary(o: &Outcome) -> String {
             format!("{} m/s", sig(op.max_velocity_m_s, 5)),
         );
         line(&mut s, "Reynolds number", format!("{:.1}", op.reynolds));
+        if let Some(pr) = op.prandtl {
+            line(&mut s, "Prandtl number", format!("{pr:.3}"));
+        }
+        if let (Some(h1), Some(ht)) = (
+            op.heat_transfer_coefficient_h1_w_m2k,
+            op.heat_transfer_coefficient_t_w_m2k,
+        ) {
+            line(
+                &mut s,
+                "film coefficient H1 / T",
+                format!("{} / {} W/(m²·K)", sig(h1, 5), sig(ht, 5)),
+            );
+        }
+        if let Some(l) = &op.length {
+            line(
+                &mut s,
+                "pressure drop",
+                format!(
+                    "{} Pa over {}",
+                    sig(l.pressure_drop_pa, 5),
+                    length(l.length_m)
+                ),
+            );
+            let lt = l
+                .entrance_length_thermal_m
+                .map(|v| format!(", thermal ≈ {}", length(v)))
+                .unwrap_or_default();
+            line(
+                &mut s,
+                "entrance lengths",
+                format!(
+                    "hydrodynamic ≈ {}{lt} (0.05·Re·D_h, ·Pr; round-tube rule, no source)",
+                    length(l.entrance_length_hydrodynamic_m)
+                ),
+            );
+        }
         line(
             &mut s,
             "wall shear mean/max/min",

@@ -782,3 +782,78 @@ fn non_converging_solve_exits_1() {
     assert!(run.stdout.trim().is_empty(), "{}", run.context());
     assert!(run.stderr.contains("did not converge"), "{}", run.context());
 }
+
+#[test]
+fn heat_transfer_keys_and_length_results() {
+    // Nu_H1 = 48/11 and Nu_T = 3.6568 for a circle (Shah & London 1978, from memory); the film
+    // coefficient is h = Nu·k/D_h and Pr = μ·c_p/k (definitions, common practice, no source);
+    // the pressure drop over L is G·L.
+    let sb = Sandbox::new();
+    let r = sb.report(&[
+        "solve",
+        "circle:d=10mm",
+        "--cells",
+        "100",
+        "--json",
+        "--dpdx",
+        "10",
+        "--viscosity",
+        "1e-3",
+        "--density",
+        "1000",
+        "--conductivity",
+        "0.6",
+        "--specific-heat",
+        "4180",
+        "--length",
+        "2m",
+    ]);
+    let (nu_h1, nu_t) = (num(&r, "nusselt_h1"), num(&r, "nusselt_t"));
+    assert!(rel(nu_h1, 48.0 / 11.0) < 2e-3, "{r:#}");
+    assert!(rel(nu_t, 3.6568) < 5e-3, "{r:#}");
+    assert!(
+        rel(
+            num(&r, "heat_transfer_coefficient_h1_w_m2k"),
+            nu_h1 * 0.6 / 0.01
+        ) < 1e-9
+    );
+    assert!(
+        rel(
+            num(&r, "heat_transfer_coefficient_t_w_m2k"),
+            nu_t * 0.6 / 0.01
+        ) < 1e-9
+    );
+    assert!(rel(num(&r, "prandtl"), 1e-3 * 4180.0 / 0.6) < 1e-12);
+    assert!(rel(num(&r, "pressure_drop_pa"), 20.0) < 1e-12);
+    let re = num(&r, "reynolds");
+    assert!(rel(num(&r, "entrance_length_hydrodynamic_m"), 0.05 * re * 0.01) < 1e-6);
+    // Without an operating point the Nusselt numbers are still there.
+    let r = sb.report(&["solve", "square:side=5mm", "--cells", "80", "--json"]);
+    assert!(rel(num(&r, "nusselt_h1"), 3.608) < 3e-3, "{r:#}");
+}
+
+#[test]
+fn specific_heat_without_conductivity_is_refused() {
+    let sb = Sandbox::new();
+    sb.input_error(
+        &[
+            "solve",
+            "circle:d=8mm",
+            "--cells",
+            "60",
+            "--dpdx",
+            "100",
+            "--viscosity",
+            "1e-3",
+            "--density",
+            "1000",
+            "--specific-heat",
+            "4180",
+        ],
+        &["--conductivity"],
+    );
+    sb.input_error(
+        &["solve", "circle:d=8mm", "--cells", "60", "--length", "1m"],
+        &["--length"],
+    );
+}
