@@ -259,8 +259,11 @@ pub fn solve_unit_monitored(
 }
 
 /// Nusselt numbers of fully developed laminar heat transfer.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, PartialEq)]
 pub struct HeatFigures {
+    /// ψ = −φ of the H1 problem at every unknown (m²), and its bulk value ψ_b.
+    pub psi: Vec<f64>,
+    pub psi_bulk: f64,
     /// Nu_H1: axially uniform heat flux, peripherally uniform wall temperature.
     pub nusselt_h1: f64,
     /// Nu_T: uniform wall temperature.
@@ -295,6 +298,7 @@ fn heat_transfer(
     let info = solve(&rhs, &mut psi, &CgParams::default())?;
     let dh = f.hydraulic_diameter;
     let nusselt_h1 = post::nusselt_h1(c, num, &w, &psi, dh);
+    let psi_bulk = dh * dh / (4.0 * nusselt_h1);
     let mut mode = u.to_vec();
     let eigen = smallest_eigenpair(
         &rhs,
@@ -304,6 +308,8 @@ fn heat_transfer(
         &format!("{method} for Nu_T"),
     )?;
     Ok(HeatFigures {
+        psi,
+        psi_bulk,
         nusselt_h1,
         nusselt_t: eigen.eigenvalue * dh * dh / 4.0,
         eigen,

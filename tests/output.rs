@@ -344,6 +344,15 @@ fn vti_reproduces_the_flow_at_an_operating_point() {
     );
     // Solid just outside the corner.
     assert_eq!(vel.at(xmin, ymin, -8.0, 8.0), canalis::output::png::SOLID);
+
+    // temperature_h1.png: the same sheet for θ = (T − T_w)/(T_b − T_w) of the H1 problem, whose
+    // maximum also sits at the centre of a rectangle and which vanishes at the walls.
+    let temp = Picture::load(&out.join("temperature_h1.png"));
+    assert_eq!(temp.img.width(), canalis::output::DEFAULT_IMAGE_WIDTH);
+    let centre = temp.at(0.5 * (xmin + xmax), 0.5 * (ymin + ymax), 0.0, 0.0);
+    assert!(map_index(centre) >= 252, "temperature centre {centre:?}");
+    assert!(map_index(temp.at(xmin, ymin, 4.0, -4.0)) <= 3);
+    assert_eq!(temp.at(xmin, ymin, -8.0, 8.0), canalis::output::png::SOLID);
 }
 
 #[test]

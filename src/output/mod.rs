@@ -22,13 +22,14 @@ use crate::report;
 use std::path::{Path, PathBuf};
 
 /// Every file `--out` writes, in the order written.
-pub const FILES: [&str; 6] = [
+pub const FILES: [&str; 7] = [
     "report.json",
     "velocity.csv",
     "wall_shear.csv",
     "velocity.vti",
     "velocity.png",
     "wall_shear.png",
+    "temperature_h1.png",
 ];
 
 /// Default width of the pictures, pixels.
@@ -107,13 +108,15 @@ pub fn write_all(outcome: &Outcome, dir: &Path, opts: &OutputOptions) -> Result<
     let json = serde_json::to_string_pretty(&report::json_report(outcome))
         .map_err(|e| Error::param("--out", format!("the report could not be serialised: {e}")))?
         + "\n";
-    let contents: [Vec<u8>; 6] = [
-        json.into_bytes(),
-        fields::velocity_csv(outcome, &scale).into_bytes(),
-        fields::wall_shear_csv(outcome, &scale).into_bytes(),
-        fields::velocity_vti(outcome, &scale).into_bytes(),
-        png::velocity_png(outcome, &scale, opts.image_width)?,
-        png::wall_shear_png(outcome, &scale, opts.image_width)?,
+    // The temperature map exists only when heat transfer was solved.
+    let contents: [Option<Vec<u8>>; 7] = [
+        Some(json.into_bytes()),
+        Some(fields::velocity_csv(outcome, &scale).into_bytes()),
+        Some(fields::wall_shear_csv(outcome, &scale).into_bytes()),
+        Some(fields::velocity_vti(outcome, &scale).into_bytes()),
+        Some(png::velocity_png(outcome, &scale, opts.image_width)?),
+        Some(png::wall_shear_png(outcome, &scale, opts.image_width)?),
+        png::temperature_h1_png(outcome, opts.image_width)?,
     ];
     std::fs::create_dir_all(dir).map_err(|source| Error::Io {
         path: dir.to_path_buf(),
@@ -121,6 +124,7 @@ pub fn write_all(outcome: &Outcome, dir: &Path, opts: &OutputOptions) -> Result<
     })?;
     let mut written = Vec::with_capacity(FILES.len());
     for (path, bytes) in targets(dir).into_iter().zip(contents) {
+        let Some(bytes) = bytes else { continue };
         std::fs::write(&path, bytes).map_err(|source| Error::Io {
             path: path.clone(),
             source,

@@ -911,10 +911,73 @@ fn length_text(v: f64) -> String {
 
 /// `velocity.png`: the axial velocity over the cross-section.
 pub fn velocity_png(o: &Outcome, scale: &Scale, width: u32) -> Result<Vec<u8>> {
+    let sub = match &o.operating {
+        Some(op) => format!(
+            "Axial velocity, fully developed laminar flow: Q = {} L/min, mean {} m/s, Re = {:.0}",
+            sig4(op.flow_rate_m3_s * 6e4),
+            sig4(op.mean_velocity_m_s),
+            op.reynolds
+        ),
+        None => "Axial velocity over its mean, fully developed laminar flow".to_string(),
+    };
+    let f = &o.unit.figures;
+    let caption = format!(
+        "u_max / u_mean = {}    f·Re = {} (Fanning)    D_h = {}",
+        sig4(f.max_to_mean_velocity),
+        sig4(f.fanning_f_re),
+        length_text(f.hydraulic_diameter)
+    );
+    map_png(
+        o,
+        fields::node_values(o, scale),
+        &sub,
+        scale.u_label(),
+        &caption,
+        width,
+    )
+}
+
+/// `temperature_h1.png`: the fully developed temperature field of the H1 boundary condition,
+/// θ = (T − T_w)/(T_b − T_w) = φ/φ_b, same look as the velocity map. None without heat transfer.
+pub fn temperature_h1_png(o: &Outcome, width: u32) -> Result<Option<Vec<u8>>> {
+    let Some(heat) = &o.unit.heat else {
+        return Ok(None);
+    };
+    let mut values = vec![0.0; o.unit.classified.grid.len()];
+    for (q, &k) in o.unit.numbering.node_of.iter().enumerate() {
+        values[k] = heat.psi[q] / heat.psi_bulk;
+    }
+    let caption = format!(
+        "Nu_H1 = {}    Nu_T = {}    D_h = {}",
+        sig4(heat.nusselt_h1),
+        sig4(heat.nusselt_t),
+        length_text(o.unit.figures.hydraulic_diameter)
+    );
+    map_png(
+        o,
+        values,
+        "Temperature, H1 (axially uniform heat flux, uniform wall temperature around the wall), \
+         fully developed laminar flow",
+        "(T − T_w) / (T_b − T_w)",
+        &caption,
+        width,
+    )
+    .map(Some)
+}
+
+/// A field on the cross-section in the colour map, with colour bar, isolines, walls, scale bar
+/// and a caption: the common sheet of the velocity and temperature maps.
+fn map_png(
+    o: &Outcome,
+    values: Vec<f64>,
+    sub: &str,
+    bar_label: &str,
+    caption: &str,
+    width: u32,
+) -> Result<Vec<u8>> {
     let (fs, margin) = metrics(width);
     let w = width as f64;
     let samples = &o.unit.walls.samples;
-    let values = fields::node_values(o, scale);
     let vmax = values
         .iter()
         .copied()
@@ -940,16 +1003,7 @@ pub fn velocity_png(o: &Outcome, scale: &Scale, width: u32) -> Result<Vec<u8>> {
         INK,
         Align::Left,
     );
-    let sub = match &o.operating {
-        Some(op) => format!(
-            "Axial velocity, fully developed laminar flow: Q = {} L/min, mean {} m/s, Re = {:.0}",
-            sig4(op.flow_rate_m3_s * 6e4),
-            sig4(op.mean_velocity_m_s),
-            op.reynolds
-        ),
-        None => "Axial velocity over its mean, fully developed laminar flow".to_string(),
-    };
-    cv.text(margin, margin + 2.1 * fs, fs, &sub, INK, Align::Left);
+    cv.text(margin, margin + 2.1 * fs, fs, sub, INK, Align::Left);
 
     // Field, isolines, walls.
     paint_section(&mut cv, &view, &field, |p| {
@@ -974,35 +1028,22 @@ pub fn velocity_png(o: &Outcome, scale: &Scale, width: u32) -> Result<Vec<u8>> {
         &mut cv,
         (bx, top + 0.05 * band, 0.025 * w, bar_h),
         vmax,
-        scale.u_label(),
+        bar_label,
         fs,
     );
 
     // Scale bar and caption.
     let y = top + band + 1.3 * fs;
     scale_bar(&mut cv, &view, view.left.max(margin), y, fs);
-    let f = &o.unit.figures;
     let g = &o.unit.classified.grid;
     let (cx, cy) = g.cells();
-    cv.text(
-        w - margin,
-        y,
-        fs,
-        &format!(
-            "u_max / u_mean = {}    f·Re = {} (Fanning)    D_h = {}",
-            sig4(f.max_to_mean_velocity),
-            sig4(f.fanning_f_re),
-            length_text(f.hydraulic_diameter)
-        ),
-        INK,
-        Align::Right,
-    );
+    cv.text(w - margin, y, fs, caption, INK, Align::Right);
     cv.text(
         margin,
         y + 2.0 * fs,
         0.85 * fs,
         &format!(
-            "grey: solid.  White lines: isolines at the colour-bar ticks.  Grid {cx} × {cy} \
+            "grey: solid.  White lines: isolines at the colour-bar ticks below 90 % of the maximum.  Grid {cx} × {cy} \
              cells, h = {}.",
             length_text(g.h)
         ),
