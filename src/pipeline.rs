@@ -77,6 +77,8 @@ pub struct UnitSolution {
     pub walls: Walls,
     pub shear: Vec<ShearSample>,
     pub figures: Figures,
+    /// Per passage (one entry when the fluid is connected), top-left first.
+    pub passages: Vec<post::PassageFigures>,
     /// Fully developed heat transfer, when asked for.
     pub heat: Option<HeatFigures>,
     pub info: CgInfo,
@@ -222,6 +224,7 @@ pub fn solve_unit_monitored(
     let walls = domain.walls(0.5 * grid.h);
     let shear = post::wall_shear(&classified, &numbering, &u, &walls, exact_wall);
     let figures = post::figures(&classified, &numbering, &u, &walls, &shear);
+    let passages = post::passages(&classified, &numbering, &u, &walls);
     let t4 = Instant::now();
     let heat = if options.heat {
         Some(heat_transfer(
@@ -243,6 +246,7 @@ pub fn solve_unit_monitored(
         walls,
         shear,
         figures,
+        passages,
         heat,
         info,
         passes,
@@ -549,7 +553,7 @@ pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outc
             ),
         ));
     }
-    let passages = post::passage_count(&unit.classified);
+    let passages = unit.passages.len();
     if passages > 1 && unit.heat.is_some() {
         warnings.push(format!(
             "the cross-section has {passages} separate passages: nusselt_t is the smallest \

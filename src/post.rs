@@ -100,18 +100,18 @@ pub fn nusselt_h1(c: &Classified, num: &Numbering, w: &[f64], psi: &[f64], dh: f
     dh * dh / (4.0 * (top / bottom))
 }
 
-/// Number of separate passages: connected groups of fluid nodes joined by regular links.
-pub fn passage_count(c: &Classified) -> usize {
+/// Passage label of every grid node (connected groups of fluid nodes joined by regular links,
+/// numbered in the order found; `u32::MAX` for solid nodes) and the number of passages.
+pub fn passage_labels(c: &Classified) -> (Vec<u32>, usize) {
     let g = &c.grid;
-    let mut seen = vec![false; g.len()];
+    let mut label = vec![u32::MAX; g.len()];
     let mut stack = Vec::new();
-    let mut count = 0;
+    let mut count = 0u32;
     for start in 0..g.len() {
-        if !c.fluid[start] || seen[start] {
+        if !c.fluid[start] || label[start] != u32::MAX {
             continue;
         }
-        count += 1;
-        seen[start] = true;
+        label[start] = count;
         stack.push(start);
         while let Some(k) = stack.pop() {
             for d in Dir::ALL {
@@ -119,15 +119,120 @@ pub fn passage_count(c: &Classified) -> usize {
                     continue;
                 }
                 if let Some(m) = g.neighbour(k, d) {
-                    if !seen[m] {
-                        seen[m] = true;
+                    if label[m] == u32::MAX {
+                        label[m] = count;
                         stack.push(m);
                     }
                 }
             }
         }
+        count += 1;
     }
-    count
+    (label, count as usize)
+}
+
+/// Number of separate passages.
+pub fn passage_count(c: &Classified) -> usize {
+    passage_labels(c).1
+}
+
+/// Figures of one passage of a cross-section made of disconnected fluid regions, all under the
+/// same pressure gradient.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PassageFigures {
+    /// Area by Green's theorem over the passage's walls (exact on true curves), m².
+    pub area: f64,
+    pub perimeter: f64,
+    pub hydraulic_diameter: f64,
+    /// ∫ũ dA over the passage (the cut-cell quadrature of [`flow_integral`]), m⁴.
+    pub flow_integral: f64,
+    pub fanning_f_re: f64,
+    /// Share of the total flow.
+    pub flow_share: f64,
+    /// Centroid of the passage's fluid nodes (quadrature weights), m.
+    pub centroid: Point,
+}
+
+/// Per-passage figures, ordered by centroid, top-left first (descending y, then ascending x).
+/// A wall sample belongs to the passage of the nearest fluid node on its fluid side.
+pub fn passages(c: &Classified, num: &Numbering, u: &[f64], walls: &Walls) -> Vec<PassageFigures> {
+    let (label, count) = passage_labels(c);
+    let g = &c.grid;
+    let h2 = g.h * g.h;
+    let q = quadrature_weights(c, num);
+    let mut area = vec![0.0; count];
+    let mut perimeter = vec![0.0; count];
+    for smp in &walls.samples {
+        let p = smp.point;
+        let ci = ((p[0] - g.origin[0]) / g.h).round() as isize;
+        let cj = ((p[1] - g.origin[1]) / g.h).round() as isize;
+        let mut best: Option<(u32, f64)> = None;
+        for dj in -3..=3isize {
+            for di in -3..=3isize {
+                let (i, j) = (ci + di, cj + dj);
+                if i < 0 || j < 0 || i >= g.nx as isize || j >= g.ny as isize {
+                    continue;
+                }
+                let k = g.index(i as usize, j as usize);
+                if label[k] == u32::MAX {
+                    continue;
+                }
+                let x = g.node(i as usize, j as usize);
+                let d = [x[0] - p[0], x[1] - p[1]];
+                if d[0] * smp.normal[0] + d[1] * smp.normal[1] >= 0.0 {
+                    continue;
+                }
+                let d2 = d[0] * d[0] + d[1] * d[1];
+                if best.is_none_or(|(_, b)| d2 < b) {
+                    best = Some((label[k], d2));
+                }
+            }
+        }
+        if let Some((l, _)) = best {
+            area[l as usize] += smp.area;
+            perimeter[l as usize] += smp.ds;
+        }
+    }
+    let mut flow = vec![0.0; count];
+    let mut weight = vec![0.0; count];
+    let mut cx = vec![0.0; count];
+    let mut cy = vec![0.0; count];
+    for (qi, &k) in num.node_of.iter().enumerate() {
+        let l = label[k] as usize;
+        let (i, j) = g.ij(k);
+        let x = g.node(i, j);
+        flow[l] += q[qi] * u[qi];
+        weight[l] += q[qi];
+        cx[l] += q[qi] * x[0];
+        cy[l] += q[qi] * x[1];
+    }
+    for l in 0..count {
+        flow[l] += h2 * area[l] / 24.0;
+    }
+    let total: f64 = flow.iter().sum();
+    let mut out: Vec<PassageFigures> = (0..count)
+        .map(|l| {
+            let dh = 4.0 * area[l] / perimeter[l];
+            PassageFigures {
+                area: area[l],
+                perimeter: perimeter[l],
+                hydraulic_diameter: dh,
+                flow_integral: flow[l],
+                fanning_f_re: dh * dh * area[l] / (2.0 * flow[l]),
+                flow_share: flow[l] / total,
+                centroid: [cx[l] / weight[l], cy[l] / weight[l]],
+            }
+        })
+        .collect();
+    let tol = 1e-9 * (g.nx.max(g.ny) as f64 * g.h);
+    out.sort_by(|a, b| {
+        if (a.centroid[1] - b.centroid[1]).abs() > tol {
+            b.centroid[1].total_cmp(&a.centroid[1])
+        } else {
+            a.centroid[0].total_cmp(&b.centroid[0])
+        }
+    });
+    out
 }
 
 /// Largest velocity: the largest node value, refined by the stationary point of the quadratic

@@ -36,6 +36,31 @@ pub fn json_report(o: &Outcome) -> Value {
         "force_balance_rel_error".into(),
         finite(f.force_balance_rel_error),
     );
+    let g_over_mu = o
+        .operating
+        .as_ref()
+        .map(|op| op.pressure_gradient_pa_m / op.fluid.viscosity_pa_s);
+    let passages: Vec<Value> = o
+        .unit
+        .passages
+        .iter()
+        .map(|p| {
+            let mut e = Map::new();
+            e.insert("area_m2".into(), json!(p.area));
+            e.insert("perimeter_m".into(), json!(p.perimeter));
+            e.insert("hydraulic_diameter_m".into(), json!(p.hydraulic_diameter));
+            e.insert("fanning_f_re".into(), finite(p.fanning_f_re));
+            e.insert("flow_share".into(), finite(p.flow_share));
+            e.insert("centroid_m".into(), json!(p.centroid));
+            if let Some(k) = g_over_mu {
+                let q = k * p.flow_integral;
+                e.insert("flow_rate_m3_s".into(), json!(q));
+                e.insert("mean_velocity_m_s".into(), json!(q / p.area));
+            }
+            Value::Object(e)
+        })
+        .collect();
+    m.insert("passages".into(), Value::Array(passages));
     if let Some(h) = &o.unit.heat {
         m.insert("nusselt_h1".into(), finite(h.nusselt_h1));
         m.insert("nusselt_t".into(), finite(h.nusselt_t));
@@ -185,6 +210,21 @@ pub fn summary(o: &Outcome) -> String {
     line(&mut s, "area", area(f.area));
     line(&mut s, "wetted perimeter", length(f.perimeter));
     line(&mut s, "hydraulic diameter", length(f.hydraulic_diameter));
+    if o.unit.passages.len() > 1 {
+        let _ = writeln!(s, "Passages (top-left first, one pressure gradient)");
+        for (i, p) in o.unit.passages.iter().enumerate() {
+            line(
+                &mut s,
+                &format!("passage {}", i + 1),
+                format!(
+                    "D_h {}, f·Re {:.4}, {:.2} % of the flow",
+                    length(p.hydraulic_diameter),
+                    p.fanning_f_re,
+                    100.0 * p.flow_share
+                ),
+            );
+        }
+    }
     let _ = writeln!(s, "Friction (laminar, fully developed)");
     line(&mut s, "f·Re, Fanning", format!("{:.5}", f.fanning_f_re));
     line(

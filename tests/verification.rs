@@ -570,3 +570,40 @@ fn mask_of_a_circle_400_pixels() {
         f.perimeter
     );
 }
+
+#[test]
+fn two_separate_circles_report_each_passage() {
+    // Two circles of diameters 6 and 10 mm side by side under one pressure gradient: each is a
+    // Hagen–Poiseuille pipe (f·Re = 16, exact), and the flows divide as d⁴ (Q = πGd⁴/(128μ),
+    // exact), 6⁴ : 10⁴. Ordered top-left first: same height, so the left one first.
+    let shape = Shape {
+        name: None,
+        regions: vec![
+            Primitive::Circle {
+                center: [0.0, 0.0],
+                radius: 3e-3,
+            },
+            Primitive::Circle {
+                center: [11e-3, 0.0],
+                radius: 5e-3,
+            },
+        ],
+        holes: vec![],
+    };
+    let sol = solve_case(&shape, 400);
+    let p = &sol.passages;
+    assert_eq!(p.len(), 2);
+    let share_small = 6f64.powi(4) / (6f64.powi(4) + 10f64.powi(4));
+    println!(
+        "two circles: f·Re {:.6} and {:.6}, shares {:.6} and {:.6} (exact {:.6})",
+        p[0].fanning_f_re, p[1].fanning_f_re, p[0].flow_share, p[1].flow_share, share_small
+    );
+    assert!(p[0].centroid[0] < p[1].centroid[0]);
+    for q in p {
+        assert!(rel_err(q.fanning_f_re, 16.0) < 5e-4, "{}", q.fanning_f_re);
+    }
+    assert!(rel_err(p[0].flow_share, share_small) < 1e-3);
+    assert!(rel_err(p[1].flow_share, 1.0 - share_small) < 1e-3);
+    assert!(rel_err(p[0].area, std::f64::consts::PI * 9e-6) < 1e-9);
+    assert!(rel_err(p[1].perimeter, std::f64::consts::PI * 10e-3) < 1e-9);
+}

@@ -1046,12 +1046,16 @@ impl Domain for Mask {
                 let centre = [e.point[0] * p, e.point[1] * p];
                 for q in 0..parts {
                     let off = (q as f64 + 0.5) * dq - 0.5 * ds;
+                    let point = [centre[0] + off * t[0], centre[1] + off * t[1]];
+                    let normal = [t[1], -t[0]];
                     walls.samples.push(WallSample {
                         wall: ci,
                         s: s + (q as f64 + 0.5) * dq,
-                        point: [centre[0] + off * t[0], centre[1] + off * t[1]],
-                        normal: [t[1], -t[0]],
+                        point,
+                        normal,
                         ds: dq,
+                        // Midpoint rule of ½∮p·n ds on the straight piece (exact for a line).
+                        area: 0.5 * (point[0] * normal[0] + point[1] * normal[1]) * dq,
                     });
                 }
                 s += ds;

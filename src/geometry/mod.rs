@@ -699,6 +699,9 @@ pub struct WallSample {
     pub normal: Point,
     /// Length of wall this sample stands for, metres.
     pub ds: f64,
+    /// This sample's share of the enclosed fluid area by Green's theorem, ½∫p·n ds over its
+    /// piece of wall (m²); summed over the walls of one passage it gives that passage's area.
+    pub area: f64,
 }
 
 /// The wetted walls of a cross-section: every piece of boundary with fluid on one side.
@@ -945,6 +948,7 @@ impl Shape {
                             point: p,
                             normal,
                             ds,
+                            area: 0.25 * dt * area_part,
                         });
                     }
                 }
