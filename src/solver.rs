@@ -547,6 +547,25 @@ mod tests {
     }
 
     #[test]
+    fn eigen_solve_reports_how_far_it_got() {
+        let n = 63;
+        let a = laplace_1d(n);
+        let w = vec![1.0; n];
+        let mut f = vec![1.0; n];
+        let mut solve = |b: &[f64], x: &mut [f64], p: &CgParams| pcg(&a, &Identity, b, x, p, "cg");
+        let params = EigenParams {
+            max_iterations: 1,
+            ..Default::default()
+        };
+        let e = smallest_eigenpair(&w, &mut f, &mut solve, &params, "test").unwrap_err();
+        assert!(
+            matches!(e, Error::NotConverged { iterations: 1, .. }),
+            "{e}"
+        );
+        assert!(e.to_string().contains("relative residual"));
+    }
+
+    #[test]
     fn reports_non_convergence() {
         let a = laplace_1d(200);
         let b = vec![1.0; 200];
