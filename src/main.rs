@@ -61,8 +61,8 @@ enum MethodArg {
 
 #[derive(clap::Args)]
 struct SolveArgs {
-    /// The cross-section: a shape file (*.toml), a mask image (*.png, *.bmp, *.tif) or a
-    /// built-in shape such as circle:d=8mm (see `canalis shapes`).
+    /// The cross-section: a shape file (*.toml), a mask image (*.png, *.bmp, *.tif), a drawing
+    /// (*.svg) or a built-in shape such as circle:d=8mm (see `canalis shapes`).
     shape: String,
     /// Grid cells across the longer side of the bounding box [default: 600]. Ignored for
     /// masks, whose grid is the pixel grid.
@@ -124,6 +124,9 @@ struct SolveArgs {
     /// Physical size of one mask pixel, e.g. 0.02mm.
     #[arg(long, value_name = "SIZE")]
     pixel: Option<String>,
+    /// Size of one SVG user unit, e.g. 0.1mm (overrides the drawing's own width/height).
+    #[arg(long, value_name = "VALUE", allow_hyphen_values = true)]
+    scale: Option<String>,
     /// Preconditioner of the conjugate gradient.
     #[arg(long, value_enum, default_value = "multigrid")]
     method: MethodArg,
@@ -199,13 +202,20 @@ fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
             },
         }
     } else if ext == "svg" {
-        return Err(Error::param(
-            "SHAPE",
-            format!(
-                "{}: SVG drawings are not supported yet; use a shape file (*.toml) or a mask image",
-                a.shape
-            ),
-        ));
+        let scale = match a.scale.as_deref() {
+            Some(text) => {
+                let s = units::parse_length(text, "--scale")?;
+                if !(s.is_finite() && s > 0.0) {
+                    return Err(Error::param("--scale", "must be a positive length"));
+                }
+                Some(s)
+            }
+            None => None,
+        };
+        Input::Svg {
+            path: PathBuf::from(&a.shape),
+            scale,
+        }
     } else if a.shape.contains(':') && !Path::new(&a.shape).exists() {
         // Looks like a built-in spec with an unknown name: let the parser say which names exist.
         Input::Builtin(a.shape.clone())

@@ -8,6 +8,7 @@ use crate::fluids::{self, FluidProperties};
 use crate::geometry::builtin::parse_builtin;
 use crate::geometry::mask::{Mask, MaskOptions};
 use crate::geometry::shapefile::load_shape_file;
+use crate::geometry::svg::load_svg;
 use crate::geometry::{Domain, Walls};
 use crate::grid::{classify, Classified, Grid};
 use crate::multigrid::Multigrid;
@@ -333,6 +334,8 @@ pub enum Input {
     Builtin(String),
     /// A mask image.
     Mask { path: PathBuf, options: MaskOptions },
+    /// An SVG drawing; `scale` is metres per user unit (overrides the document's size).
+    Svg { path: PathBuf, scale: Option<f64> },
 }
 
 /// What drives the flow.
@@ -478,6 +481,15 @@ pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outc
                 .unwrap_or_else(|| path.display().to_string());
             (name, Box::new(shape), true)
         }
+        Input::Svg { path, scale } => {
+            let (shape, w) = load_svg(path, *scale)?;
+            warnings.extend(w);
+            let name = shape
+                .name
+                .clone()
+                .unwrap_or_else(|| path.display().to_string());
+            (name, Box::new(shape), true)
+        }
         Input::Builtin(spec) => {
             let shape = parse_builtin(spec)?;
             let name = shape.name.clone().unwrap_or_else(|| spec.clone());
@@ -495,7 +507,9 @@ pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outc
         }
     };
     let origin = match &config.input {
-        Input::ShapeFile(p) | Input::Mask { path: p, .. } => p.display().to_string(),
+        Input::ShapeFile(p) | Input::Mask { path: p, .. } | Input::Svg { path: p, .. } => {
+            p.display().to_string()
+        }
         Input::Builtin(spec) => spec.clone(),
     };
     // A cross-section whose holes cover all its regions has no wetted wall and no area.

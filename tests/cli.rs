@@ -741,20 +741,6 @@ fn negative_pressure_gradient() {
 }
 
 #[test]
-fn svg_is_not_supported_yet() {
-    let sb = Sandbox::new();
-    sb.write(
-        "drawing.svg",
-        "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"10mm\" height=\"10mm\">\
-         <circle cx=\"5\" cy=\"5\" r=\"4\"/></svg>\n",
-    );
-    sb.input_error(
-        &["solve", "drawing.svg", "--cells", "60"],
-        &["drawing.svg", "SVG"],
-    );
-}
-
-#[test]
 fn unknown_subcommand_and_missing_shape_are_usage_errors() {
     let sb = Sandbox::new();
     sb.input_error(&["rate", "circle:d=8mm"], &["rate"]);

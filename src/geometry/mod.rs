@@ -13,6 +13,7 @@
 pub mod builtin;
 pub mod mask;
 pub mod shapefile;
+pub mod svg;
 
 use crate::error::{Error, Result};
 use std::f64::consts::PI;
