@@ -304,7 +304,8 @@ fn heat_transfer(
     let dh = f.hydraulic_diameter;
     let nusselt_h1 = post::nusselt_h1(c, num, &w, &psi, dh);
     let psi_bulk = dh * dh / (4.0 * nusselt_h1);
-    let mut mode = u.to_vec();
+    // Start from ψ, one inverse-iteration step further towards the Graetz mode than ũ.
+    let mut mode = psi.clone();
     let eigen = smallest_eigenpair(
         &rhs,
         &mut mode,
