@@ -5,8 +5,9 @@
 
 use crate::error::{Error, Result};
 
-/// Splits "12.5mm" into (12.5, "mm"); white space between number and unit is allowed.
-fn split(text: &str, parameter: &str) -> Result<(f64, String)> {
+/// Splits "12.5mm" into (12.5, "mm"); white space between number and unit is allowed. None
+/// when the text does not start with a number.
+pub fn split_number(text: &str) -> Option<(f64, &str)> {
     let t = text.trim();
     let end = t
         .char_indices()
@@ -25,16 +26,20 @@ fn split(text: &str, parameter: &str) -> Result<(f64, String)> {
         .map(|(i, _)| i)
         .unwrap_or(t.len());
     let (num, unit) = t.split_at(end);
-    let value: f64 = num
-        .parse()
-        .map_err(|_| Error::param(parameter, format!("'{text}' does not start with a number")))?;
+    Some((num.parse().ok()?, unit.trim()))
+}
+
+/// [`split_number`] with the errors a user sees.
+fn split(text: &str, parameter: &str) -> Result<(f64, String)> {
+    let (value, unit) = split_number(text)
+        .ok_or_else(|| Error::param(parameter, format!("'{text}' does not start with a number")))?;
     if !value.is_finite() {
         return Err(Error::param(
             parameter,
             format!("'{text}' is not a finite number"),
         ));
     }
-    Ok((value, unit.trim().to_string()))
+    Ok((value, unit.to_string()))
 }
 
 fn unknown(parameter: &str, unit: &str, known: &str) -> Error {

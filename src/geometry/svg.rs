@@ -442,24 +442,10 @@ fn metres_per_px(
     Ok((M_PER_PX, M_PER_PX))
 }
 
-/// The unit of an SVG length attribute ("" for none), if it starts with a number.
+/// The unit of an SVG length attribute ("" for none), if it starts with a positive number.
 fn length_unit(text: &str) -> Option<&str> {
-    let t = text.trim();
-    let end = t
-        .char_indices()
-        .find(|&(i, c)| {
-            !(c.is_ascii_digit()
-                || c == '.'
-                || c == '+'
-                || c == '-'
-                || ((c == 'e' || c == 'E')
-                    && t[i + 1..]
-                        .starts_with(|d: char| d.is_ascii_digit() || d == '-' || d == '+')))
-        })
-        .map(|(i, _)| i)
-        .unwrap_or(t.len());
-    let value: f64 = t[..end].parse().ok()?;
-    (value.is_finite() && value > 0.0).then(|| t[end..].trim())
+    let (value, unit) = crate::units::split_number(text)?;
+    (value.is_finite() && value > 0.0).then_some(unit)
 }
 
 fn parse_view_box(text: &str) -> Option<[f64; 4]> {
