@@ -375,16 +375,7 @@ mod tests {
 
     #[test]
     fn square_has_half_cells_at_every_wall() {
-        let s = Shape {
-            name: None,
-            regions: vec![Primitive::Rect {
-                center: [0.0, 0.0],
-                size: [1.0, 1.0],
-                corner_radius: 0.0,
-                angle: 0.0,
-            }],
-            holes: vec![],
-        };
+        let s = Shape::new(vec![Primitive::rect([0.0, 0.0], [1.0, 1.0])], vec![]);
         let (lo, hi) = s.bbox();
         let g = Grid::covering(lo, hi, 10);
         let c = classify(&s, g).unwrap();
@@ -396,21 +387,10 @@ mod tests {
     #[test]
     fn thin_fin_blocks_links() {
         // A fin of width 0.01 between node columns: both ends cut.
-        let s = Shape {
-            name: None,
-            regions: vec![Primitive::Rect {
-                center: [0.0, 0.0],
-                size: [1.0, 1.0],
-                corner_radius: 0.0,
-                angle: 0.0,
-            }],
-            holes: vec![Primitive::Rect {
-                center: [0.0, 0.0],
-                size: [0.01, 0.6],
-                corner_radius: 0.0,
-                angle: 0.0,
-            }],
-        };
+        let s = Shape::new(
+            vec![Primitive::rect([0.0, 0.0], [1.0, 1.0])],
+            vec![Primitive::rect([0.0, 0.0], [0.01, 0.6])],
+        );
         let (lo, hi) = s.bbox();
         let c = classify(&s, Grid::covering(lo, hi, 10)).unwrap();
         // Row through the fin: nodes 4 and 5 are fluid on either side of x = 0.

@@ -682,19 +682,18 @@ mod tests {
 
     #[test]
     fn galerkin_levels_are_symmetric() {
-        let s = Shape {
-            name: None,
-            regions: vec![Primitive::Circle {
+        let s = Shape::new(
+            vec![Primitive::Circle {
                 center: [0.0, 0.0],
                 radius: 1.0,
             }],
-            holes: vec![Primitive::Rect {
+            vec![Primitive::Rect {
                 center: [0.5, 0.0],
                 size: [1.2, 0.05],
                 corner_radius: 0.0,
                 angle: 0.3,
             }],
-        };
+        );
         let (lo, hi) = s.bbox();
         let c = classify(&s, Grid::covering(lo, hi, 64)).unwrap();
         let a = GridOperator::new(&c);

@@ -190,17 +190,16 @@ mod tests {
 
     #[test]
     fn matrix_is_symmetric_with_cut_diagonals() {
-        let s = Shape {
-            name: None,
-            regions: vec![Primitive::Circle {
+        let s = Shape::new(
+            vec![Primitive::Circle {
                 center: [0.01, 0.02],
                 radius: 1.0,
             }],
-            holes: vec![Primitive::Circle {
+            vec![Primitive::Circle {
                 center: [0.2, 0.0],
                 radius: 0.3,
             }],
-        };
+        );
         let (lo, hi) = s.bbox();
         let c = classify(&s, Grid::covering(lo, hi, 24)).unwrap();
         let num = Numbering::new(&c);

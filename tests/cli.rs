@@ -98,6 +98,12 @@ impl Sandbox {
     }
 
     /// Runs `args`, expects `--json` output and returns the report.
+    /// Writes a shape file and checks that solving it is an input error naming `expect`.
+    fn bad_shape_file(&self, name: &str, text: &str, expect: &[&str]) {
+        let f = self.write(name, text);
+        self.input_error(&["solve", &f, "--cells", "60"], expect);
+    }
+
     fn report(&self, args: &[&str]) -> Value {
         let run = self.run(args);
         run.assert_success();
@@ -512,52 +518,36 @@ fn unknown_kind() {
 
 #[test]
 fn unknown_parameter() {
-    let sb = Sandbox::new();
-    let f = sb.write(
+    Sandbox::new().bad_shape_file(
         "param.toml",
         "[[region]]\nkind = \"circle\"\ncenter = [0, 0]\nradus = 1\n",
-    );
-    sb.input_error(
-        &["solve", &f, "--cells", "60"],
         &["param.toml", "line 4", "radus"],
     );
 }
 
 #[test]
 fn polygon_with_two_points() {
-    let sb = Sandbox::new();
-    let f = sb.write(
+    Sandbox::new().bad_shape_file(
         "two.toml",
         "[[region]]\nkind = \"polygon\"\npoints = [[0, 0], [1, 0]]\n",
-    );
-    sb.input_error(
-        &["solve", &f, "--cells", "60"],
         &["two.toml", "line 3", "points"],
     );
 }
 
 #[test]
 fn zero_area_polygon() {
-    let sb = Sandbox::new();
-    let f = sb.write(
+    Sandbox::new().bad_shape_file(
         "flat.toml",
         "[[region]]\nkind = \"polygon\"\npoints = [[0, 0], [1, 0], [2, 0]]\n",
-    );
-    sb.input_error(
-        &["solve", &f, "--cells", "60"],
         &["flat.toml", "line", "zero area"],
     );
 }
 
 #[test]
 fn self_intersecting_polygon() {
-    let sb = Sandbox::new();
-    let f = sb.write(
+    Sandbox::new().bad_shape_file(
         "bowtie.toml",
         "[[region]]\nkind = \"polygon\"\npoints = [[0, 0], [1, 1], [1, 0], [0, 1]]\n",
-    );
-    sb.input_error(
-        &["solve", &f, "--cells", "60"],
         &["bowtie.toml", "line", "crosses itself"],
     );
 }

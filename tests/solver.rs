@@ -28,30 +28,18 @@ fn solve(domain: &dyn Domain, cells: usize, method: Method) -> UnitSolution {
 fn shapes() -> Vec<(&'static str, Box<dyn Domain>)> {
     let b = |s: &str| -> Box<dyn Domain> { Box::new(parse_builtin(s).expect("builtin")) };
     // A slit 0.3 grid spacings wide at 200 cells: a thin solid plate nearly cutting a square.
-    let plate = Shape {
-        name: None,
-        regions: vec![Primitive::Rect {
-            center: [0.0, 0.0],
-            size: [1.0, 1.0],
-            corner_radius: 0.0,
-            angle: 0.0,
-        }],
-        holes: vec![Primitive::Rect {
-            center: [0.1, 0.0013],
-            size: [0.8, 0.0015],
-            corner_radius: 0.0,
-            angle: 0.0,
-        }],
-    };
+    let plate = Shape::new(
+        vec![Primitive::rect([0.0, 0.0], [1.0, 1.0])],
+        vec![Primitive::rect([0.1, 0.0013], [0.8, 0.0015])],
+    );
     // A wall that grazes grid nodes: a circle whose radius puts walls within 1e-6·h of nodes.
-    let grazing = Shape {
-        name: None,
-        regions: vec![Primitive::Circle {
+    let grazing = Shape::new(
+        vec![Primitive::Circle {
             center: [0.0, 0.0],
             radius: 0.5 - 1e-9,
         }],
-        holes: vec![],
-    };
+        vec![],
+    );
     let (mask, _) = Mask::from_fn(200, 200, 1e-4, |c, r| {
         let inside = (4..196).contains(&c) && (4..196).contains(&r);
         inside && !(c >= 100 && r < 100)
@@ -65,9 +53,8 @@ fn shapes() -> Vec<(&'static str, Box<dyn Domain>)> {
             b("finned:d=16mm,fins=4,height=3mm,thickness=1mm"),
         ),
         ("twin bore", {
-            let s = Shape {
-                name: None,
-                regions: vec![
+            let s = Shape::new(
+                vec![
                     Primitive::Circle {
                         center: [0.0, 0.0],
                         radius: 3e-3,
@@ -77,8 +64,8 @@ fn shapes() -> Vec<(&'static str, Box<dyn Domain>)> {
                         radius: 5e-3,
                     },
                 ],
-                holes: vec![],
-            };
+                vec![],
+            );
             Box::new(s)
         }),
         ("thin plate", Box::new(plate)),

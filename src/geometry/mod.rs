@@ -265,6 +265,16 @@ pub enum Primitive {
 }
 
 impl Primitive {
+    /// An unrotated rectangle with sharp corners, centred on `center`.
+    pub fn rect(center: Point, size: [f64; 2]) -> Primitive {
+        Primitive::Rect {
+            center,
+            size,
+            corner_radius: 0.0,
+            angle: 0.0,
+        }
+    }
+
     /// Short name of the kind, as in the shape file.
     pub fn kind(&self) -> &'static str {
         match self {
@@ -755,6 +765,15 @@ pub struct Shape {
 }
 
 impl Shape {
+    /// An unnamed cross-section of these regions minus these holes.
+    pub fn new(regions: Vec<Primitive>, holes: Vec<Primitive>) -> Shape {
+        Shape {
+            name: None,
+            regions,
+            holes,
+        }
+    }
+
     /// Validates every primitive, naming the one at fault.
     pub fn validate(&self) -> Result<()> {
         if self.regions.is_empty() {
