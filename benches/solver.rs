@@ -3,9 +3,9 @@
 //! For each shape (circle, annulus, four-fin finned tube, L-shaped mask) and each size (128 to
 //! 4096 cells across), runs one solve in a child process (so that its peak memory is its own)
 //! and prints unknowns, iterations, assembly, setup, solve and total seconds (assembly + setup +
-//! solve, the grid classification included in assembly), post-processing seconds, and peak
-//! memory in bytes per unknown. Then fits the exponent of total time against unknowns from 256 to
-//! 2048 cells. Options: `--sizes 128,256`, `--shapes circle,annulus`, `--repeat N` (median of N
+//! solve, the grid classification included in assembly), post-processing seconds, heat-transfer
+//! seconds (0 unless `CANALIS_BENCH_HEAT=1`) and peak memory in bytes per unknown. Then fits the
+//! exponent of total time against unknowns from 256 to 2048 cells. Options: `--sizes 128,256`, `--shapes circle,annulus`, `--repeat N` (median of N
 //! runs, default 3), `--method multigrid|jacobi`.
 
 use canalis::geometry::builtin::parse_builtin;
@@ -74,7 +74,7 @@ fn child(shape: &str, cells: usize, method: Method) {
         .collect();
     eprintln!("passes {}", per_pass.join("+"));
     println!(
-        "{} {} {:.6} {:.6} {:.6} {:.6} {:.6} {} {:.9}",
+        "{} {} {:.6} {:.6} {:.6} {:.6} {:.6} {} {:.9} {:.6}",
         sol.numbering.len(),
         sol.info.iterations,
         t.grid + t.assembly,
@@ -83,7 +83,8 @@ fn child(shape: &str, cells: usize, method: Method) {
         t.post,
         sol.figures.fanning_f_re,
         peak_rss_bytes(),
-        sol.info.relative_residual
+        sol.info.relative_residual,
+        t.heat
     );
 }
 
@@ -116,13 +117,13 @@ fn main() {
     let repeat: usize = get("--repeat").and_then(|v| v.parse().ok()).unwrap_or(3);
     let exe = std::env::current_exe().expect("own path");
     println!(
-        "| shape | cells | unknowns | iterations (per solve) | assembly s | setup s | solve s | total s | post s | peak B/unknown | f·Re |"
+        "| shape | cells | unknowns | iterations (per solve) | assembly s | setup s | solve s | total s | post s | heat s | peak B/unknown | f·Re |"
     );
-    println!("|---|---|---|---|---|---|---|---|---|---|---|");
+    println!("|---|---|---|---|---|---|---|---|---|---|---|---|");
     for shape in &shapes {
         let mut fit: Vec<(f64, f64)> = Vec::new();
         for &cells in &sizes {
-            let mut cols: Vec<Vec<f64>> = vec![Vec::new(); 9];
+            let mut cols: Vec<Vec<f64>> = vec![Vec::new(); 10];
             let mut iters = 0;
             let mut passes = String::new();
             let mut unknowns = 0;
@@ -155,7 +156,7 @@ fn main() {
                     .split_whitespace()
                     .filter_map(|x| x.parse().ok())
                     .collect();
-                if v.len() < 9 {
+                if v.len() < 10 {
                     eprintln!(
                         "{shape} {cells}: child failed: {}",
                         String::from_utf8_lossy(&out.stderr)
@@ -183,8 +184,9 @@ fn main() {
                 median(&mut t)
             };
             let peak = median(&mut cols[7]);
+            let heat = median(&mut cols[9]);
             println!(
-                "| {shape} | {cells} | {unknowns} | {iters} ({passes}) | {asm:.4} | {setup:.4} | {solve:.4} | {total:.4} | {post:.4} | {:.0} | {fre:.6} |",
+                "| {shape} | {cells} | {unknowns} | {iters} ({passes}) | {asm:.4} | {setup:.4} | {solve:.4} | {total:.4} | {post:.4} | {heat:.4} | {:.0} | {fre:.6} |",
                 peak / unknowns as f64
             );
             if (256..=2048).contains(&cells) {
