@@ -14,10 +14,15 @@
 //! - **Level operators**: A_c = Pᵀ·A·P (Galerkin), a 9-point stencil on every coarse level.
 //!   Nothing of the geometry is re-discretised, so a gap thinner than the coarse spacing, a
 //!   fin or a tiny passage stays exactly as the fine operator has it.
-//! - **Smoother**: one multicolour Gauss–Seidel sweep before the coarse correction and one in
-//!   the reverse colour order after it (red–black on the 5-point fine level, four colours on
-//!   the 9-point coarse levels), so the V-cycle is a symmetric positive definite operator, as CG
-//!   requires, and every colour runs in parallel.
+//! - **Smoother**: on the fine level one red–black Gauss–Seidel sweep before the coarse
+//!   correction and one in the reverse colour order after it (every colour in parallel); on the
+//!   coarse levels a lexicographic sweep forward before and backward after. Post-smoothing is
+//!   the adjoint of pre-smoothing, so the V-cycle is a symmetric positive definite operator, as
+//!   CG requires.
+//! - **Storage**: the fine level is the matrix-free [`GridOperator`] (diagonal and a link
+//!   bitmask per node); each coarse level stores every distinct stencil once with a 4-byte index
+//!   per node (see [`Level`]), and nearly all of its rows are the interior stencil, which the
+//!   sweeps apply from registers.
 //! - **Coarsest level**: dense Cholesky (nalgebra) once the level is small.
 //!
 //! Invariant: knows the grid's index layout, nothing of geometry or physics.
