@@ -55,21 +55,58 @@ impl Grid {
     /// every grid here it carries one extra ring of nodes outside the box, always solid, so that
     /// every fluid node has all four neighbours inside the grid (branch-free stencil loops).
     pub fn covering(lo: Point, hi: Point, cells: usize) -> Grid {
+        Grid::covering_with_offset(lo, hi, cells, [0.0, 0.0])
+    }
+
+    /// [`Grid::covering`] with the nodes shifted by a fraction of a cell: `offset` in [0, 1)²
+    /// (any real is taken modulo 1) moves every node by `wrap(offset)·h` along each axis, where
+    /// wrap(o) = o − round(o) lies in [−½, ½]. A shift of at most half a cell keeps the solid ring
+    /// outside the box (at worst on its edge, where a node counts as on the wall and is solid), so
+    /// the node counts do not change, while [0, 1) still reaches every placement of the grid
+    /// relative to the walls. Offset zero is [`Grid::covering`]. A convergence study varies it
+    /// between grids, so that walls falling on grid lines (a rectangle aligned with the grid) do
+    /// not make the error look smoother than it is for a general placement.
+    pub fn covering_with_offset(lo: Point, hi: Point, cells: usize, offset: [f64; 2]) -> Grid {
         let ext = [hi[0] - lo[0], hi[1] - lo[1]];
         let long = ext[0].max(ext[1]);
         let h = long / cells as f64;
         let n = |e: f64| ((e / h) - 1e-9).ceil().max(1.0) as usize;
         let (nx, ny) = (n(ext[0]) + 2, n(ext[1]) + 2);
         let mid = [0.5 * (lo[0] + hi[0]), 0.5 * (lo[1] + hi[1])];
+        let wrap = |o: f64| {
+            let o = if o.is_finite() { o } else { 0.0 };
+            (o - o.round()) * h
+        };
         Grid {
             origin: [
-                mid[0] - 0.5 * (nx as f64 - 1.0) * h,
-                mid[1] - 0.5 * (ny as f64 - 1.0) * h,
+                mid[0] - 0.5 * (nx as f64 - 1.0) * h + wrap(offset[0]),
+                mid[1] - 0.5 * (ny as f64 - 1.0) * h + wrap(offset[1]),
             ],
             h,
             nx,
             ny,
         }
+    }
+
+    /// [`Grid::covering`] shifted so that the centre of the box lies `placement` (a fraction of a
+    /// cell per axis, taken modulo 1) beyond a node. Grids of any number of cells built with the
+    /// same placement are geometrically similar about the box centre (the parity of the node
+    /// counts, which moves the centred grid of [`Grid::covering`] by half a cell, no longer
+    /// matters); a grid-convergence study needs that for Richardson extrapolation, and a
+    /// placement away from 0 and ½ keeps walls on symmetry lines off the grid lines.
+    pub fn covering_placed(lo: Point, hi: Point, cells: usize, placement: [f64; 2]) -> Grid {
+        let g = Grid::covering(lo, hi, cells);
+        let mid = [0.5 * (lo[0] + hi[0]), 0.5 * (lo[1] + hi[1])];
+        let shift = |d: usize| {
+            let now = ((mid[d] - g.origin[d]) / g.h).rem_euclid(1.0);
+            let want = if placement[d].is_finite() {
+                placement[d]
+            } else {
+                0.0
+            };
+            (now - want).rem_euclid(1.0)
+        };
+        Grid::covering_with_offset(lo, hi, cells, [shift(0), shift(1)])
     }
 
     /// Cells across and down, without the solid ring.
@@ -382,6 +419,34 @@ mod tests {
         assert_eq!(c.fluid_count(), 100);
         assert_eq!(c.cuts.len(), 40);
         assert!(c.cuts.iter().all(|c| (c.theta - 0.5).abs() < 1e-12));
+    }
+
+    #[test]
+    fn offset_and_placement_move_the_nodes_not_the_counts() {
+        let s = Shape::new(vec![Primitive::rect([0.0, 0.0], [1.0, 0.3])], vec![]);
+        let (lo, hi) = s.bbox();
+        let base = Grid::covering(lo, hi, 10);
+        assert_eq!(Grid::covering_with_offset(lo, hi, 10, [0.0, 0.0]), base);
+        let g = Grid::covering_with_offset(lo, hi, 10, [0.25, 0.75]);
+        assert_eq!((g.nx, g.ny), (base.nx, base.ny));
+        assert!((g.origin[0] - base.origin[0] - 0.25 * base.h).abs() < 1e-12);
+        assert!((g.origin[1] - base.origin[1] + 0.25 * base.h).abs() < 1e-12);
+        // Shifted walls are no longer at θ = ½, yet the fluid count of a 10 × 3 box is kept
+        // along x (a quarter-cell shift keeps 10 nodes inside 1.0).
+        let c = classify(&s, g).unwrap();
+        assert!(c.cuts.iter().any(|c| (c.theta - 0.5).abs() > 0.1));
+        // Placement: the box centre sits at the asked fraction of a cell from a node, for odd
+        // and even node counts alike.
+        for cells in [10, 11, 17, 24] {
+            let g = Grid::covering_placed(lo, hi, cells, [0.3, 0.6]);
+            let mid = [0.5 * (lo[0] + hi[0]), 0.5 * (lo[1] + hi[1])];
+            for (d, want) in [(0, 0.3), (1, 0.6)] {
+                let f = ((mid[d] - g.origin[d]) / g.h).rem_euclid(1.0);
+                assert!((f - want).abs() < 1e-9, "{cells} cells, axis {d}: {f}");
+            }
+            let c = classify(&s, g).unwrap();
+            assert!(c.fluid_count() > 0);
+        }
     }
 
     #[test]

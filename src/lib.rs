@@ -21,6 +21,7 @@ pub mod pipeline;
 pub mod post;
 pub mod report;
 pub mod solver;
+pub mod study;
 pub mod units;
 pub mod verify;
 

@@ -4,7 +4,7 @@
 
 use canalis::error::Error;
 use canalis::geometry::builtin;
-use canalis::geometry::mask::{FluidColour, MaskOptions};
+use canalis::geometry::mask::{FluidColour, MaskMode, MaskOptions, MinFeature};
 use canalis::pipeline::{
     self, Drive, FluidSpec, Input, Method, OperatingSpec, SolveConfig, VERIFY_CELLS,
 };
@@ -50,6 +50,14 @@ enum MaskFluid {
 }
 
 #[derive(Clone, Copy, ValueEnum)]
+enum MaskModeArg {
+    /// Walls traced from the grey levels at sub-pixel precision, solved on any --cells.
+    Traced,
+    /// The staircase of the fluid pixels on the pixel grid (--cells ignored; for checking).
+    Pixels,
+}
+
+#[derive(Clone, Copy, ValueEnum)]
 enum MethodArg {
     /// Conjugate gradient preconditioned by a multigrid V-cycle (fast; the default).
     Multigrid,
@@ -65,7 +73,7 @@ struct SolveArgs {
     /// (*.svg) or a built-in shape such as circle:d=8mm (see `canalis shapes`).
     shape: String,
     /// Grid cells across the longer side of the bounding box [default: 600]. Ignored for
-    /// masks, whose grid is the pixel grid.
+    /// masks with --mask-mode pixels, whose grid is the pixel grid.
     #[arg(long)]
     cells: Option<usize>,
     /// Print exactly one JSON object (the report) on standard output.
@@ -124,6 +132,16 @@ struct SolveArgs {
     /// Physical size of one mask pixel, e.g. 0.02mm.
     #[arg(long, value_name = "SIZE")]
     pixel: Option<String>,
+    /// How a mask's walls reach the solver: traced (sub-pixel walls traced from the grey levels
+    /// at the threshold, solved on --cells like a shape file) or pixels (the staircase of the
+    /// fluid pixels on the pixel grid).
+    #[arg(long, value_enum, default_value = "traced")]
+    mask_mode: MaskModeArg,
+    /// Smallest connected feature of a mask kept: fluid specks, and solid specks inside the
+    /// fluid, of a smaller area are dropped with a warning. In pixels (e.g. 20px) or as an area
+    /// (e.g. 0.01mm2; m2, cm2, mm2, um2, in2); 0 keeps everything [default: 8px].
+    #[arg(long, value_name = "AREA")]
+    min_feature: Option<String>,
     /// Size of one SVG user unit, e.g. 0.1mm (overrides the drawing's own width/height).
     #[arg(long, value_name = "VALUE", allow_hyphen_values = true)]
     scale: Option<String>,
@@ -139,6 +157,12 @@ struct SolveArgs {
     /// Print nothing but the result (no progress).
     #[arg(long)]
     quiet: bool,
+    /// Refine the grid until the relative numerical uncertainty (Grid Convergence Index) of f·Re
+    /// and of the Nusselt numbers is below TOL, e.g. 1e-4; grids of ratio 1.5 from 64 cells (or
+    /// from --cells), up to --max-memory. Without it the report carries a cheap estimate from
+    /// one coarser grid.
+    #[arg(long, value_name = "TOL")]
+    accuracy: Option<f64>,
 }
 
 fn parse_bytes(text: &str) -> Result<u64, Error> {
@@ -199,6 +223,14 @@ fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
                 },
                 threshold: a.threshold,
                 pixel,
+                mode: match a.mask_mode {
+                    MaskModeArg::Traced => MaskMode::Traced,
+                    MaskModeArg::Pixels => MaskMode::Pixels,
+                },
+                min_feature: match a.min_feature.as_deref() {
+                    Some(text) => MinFeature::parse(text)?,
+                    None => MinFeature::default(),
+                },
             },
         }
     } else if ext == "svg" {
@@ -244,6 +276,10 @@ fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
     }
     if let Some(m) = &a.max_memory {
         c.memory_limit = parse_bytes(m)?;
+    }
+    if let Some(tol) = a.accuracy {
+        // Checked by the pipeline (a fraction between 0 and 1).
+        c.error_estimate = pipeline::ErrorEstimate::Accuracy(tol);
     }
     let drive = match (&a.dpdx, &a.flow) {
         (Some(g), _) => Some(Drive::PressureGradient(units::parse_pressure_gradient(

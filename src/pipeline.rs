@@ -6,18 +6,20 @@
 use crate::error::{Error, Result};
 use crate::fluids::{self, FluidProperties};
 use crate::geometry::builtin::parse_builtin;
-use crate::geometry::mask::{Mask, MaskOptions};
+use crate::geometry::mask::{Mask, MaskMode, MaskOptions};
 use crate::geometry::shapefile::load_shape_file;
 use crate::geometry::svg::load_svg;
+use crate::geometry::trace::Traced;
 use crate::geometry::{Domain, Walls};
 use crate::grid::{classify, Classified, Grid};
 use crate::multigrid::Multigrid;
 use crate::operator::{assemble, unit_rhs, GridOperator, Numbering};
 use crate::post::{self, Figures, ShearSample};
 use crate::solver::{
-    pcg_monitored, smallest_eigenpair, CgInfo, CgParams, EigenInfo, EigenParams, Identity, Jacobi,
-    LinearOperator, Monitor, Preconditioner, Silent, SolveFn,
+    pcg_monitored, smallest_eigenpair, CgInfo, CgParams, EigenInfo, EigenParams, Identity, InnerCg,
+    Jacobi, LinearOperator, Monitor, Preconditioner, Silent, SolveFn,
 };
+use crate::study::{self, Sample, Uncertainty};
 use std::path::PathBuf;
 use std::time::Instant;
 
@@ -234,6 +236,7 @@ pub fn solve_unit_monitored(
             &u,
             &figures,
             &mut solve,
+            (op, pre.as_ref(), on_grid),
             method.name(),
         )?)
     } else {
@@ -273,11 +276,18 @@ pub struct HeatFigures {
     pub nusselt_h1: f64,
     /// Nu_T: uniform wall temperature.
     pub nusselt_t: f64,
-    /// Inverse iterations and their CG iterations for Nu_T.
+    /// The LOBPCG solve for Nu_T: steps, preconditioner applications, residuals.
     pub eigen: EigenInfo,
     /// CG iterations of the Nu_H1 solve.
     pub h1_iterations: usize,
 }
+
+/// Relative residual of the Nu_H1 solve (see [`heat_transfer`]).
+const H1_TOLERANCE: f64 = 1e-8;
+
+/// The flow problem's operator and preconditioner as `solve_unit` built them, and whether they
+/// act on whole-grid vectors (the multigrid path) rather than on unknowns.
+type FlowOperators<'a> = (&'a dyn LinearOperator, &'a dyn Preconditioner, bool);
 
 /// The two heat-transfer problems on the flow problem's operator, with w = ũ/ū:
 /// - H1: −∇²ψ = w, ψ = 0 on the walls (ψ = −φ of ∇²φ = w); φ_b the w-weighted mean of ψ by the
@@ -285,31 +295,61 @@ pub struct HeatFigures {
 ///   ch. 2, from memory; circle 48/11).
 /// - T: the smallest λ of −∇²f = λ·w·f, f = 0 on the walls (the Graetz problem for uniform wall
 ///   temperature); Nu_T = λ·D_h²/4 (circle 3.6568). Discretised row by row like the flow
-///   problem: A·f = λ·h²·diag(w)·f.
+///   problem: A·f = λ·h²·diag(w)·f, solved by LOBPCG preconditioned by the flow problem's
+///   multigrid V-cycle ([`smallest_eigenpair`]; on the checking paths by an inner CG of the
+///   chosen method to a relative residual of 1e-2).
 fn heat_transfer(
     c: &Classified,
     num: &Numbering,
     u: &[f64],
     f: &Figures,
     solve: &mut SolveFn<'_>,
+    (op, pre, on_grid): FlowOperators<'_>,
     method: &str,
 ) -> Result<HeatFigures> {
     let h2 = c.grid.h * c.grid.h;
     let mean = f.flow_integral / f.area;
     let w: Vec<f64> = u.iter().map(|v| (v / mean).max(0.0)).collect();
     let rhs: Vec<f64> = w.iter().map(|x| h2 * x).collect();
-    // ψ ≈ ũ·(something) is a fair start; zero is safe.
+    // The operator on unknown vectors, and the eigen-solver's preconditioner.
+    let on_unknowns;
+    let inner;
+    let (eop, epre): (&dyn LinearOperator, &dyn Preconditioner) = if on_grid {
+        on_unknowns = OnUnknowns::new(op, pre, &num.node_of, c.grid.len());
+        (&on_unknowns, &on_unknowns)
+    } else {
+        inner = InnerCg::new(
+            op,
+            pre,
+            CgParams {
+                tolerance: 1e-2,
+                ..CgParams::default()
+            },
+        );
+        (op, &inner)
+    };
+    // From zero, CG's iterate satisfies ψ_kᵀ·b = ψ_kᵀ·A·ψ_k (Galerkin), so bᵀψ, and with it
+    // the bulk value (the same quadrature as b away from the walls), is off by ‖ψ − ψ_k‖²_A:
+    // quadratic in the residual. Measured on the shipped shapes at 600 cells: Nu_H1 from a
+    // relative residual of 1e-8 (8 iterations) and of 1e-6 agree with a 1e-13 solve to 5e-14.
     let mut psi = vec![0.0; u.len()];
-    let info = solve(&rhs, &mut psi, &CgParams::default())?;
+    let h1 = CgParams {
+        tolerance: H1_TOLERANCE,
+        ..CgParams::default()
+    };
+    let info = solve(&rhs, &mut psi, &h1)?;
     let dh = f.hydraulic_diameter;
     let nusselt_h1 = post::nusselt_h1(c, num, &w, &psi, dh);
     let psi_bulk = dh * dh / (4.0 * nusselt_h1);
-    // Start from ψ, one inverse-iteration step further towards the Graetz mode than ũ.
+    // Start from ψ = A⁻¹·W·1, one inverse-iteration step of the pencil from the constant
+    // (measured: its relative eigen-residual is 0.13–0.27 on the shipped shapes).
     let mut mode = psi.clone();
     let eigen = smallest_eigenpair(
+        eop,
+        epre,
         &rhs,
         &mut mode,
-        solve,
+        &[],
         &EigenParams::default(),
         &format!("{method} for Nu_T"),
     )?;
@@ -321,6 +361,75 @@ fn heat_transfer(
         eigen,
         h1_iterations: info.iterations,
     })
+}
+
+/// A whole-grid operator and preconditioner (the multigrid path's, zero at solid nodes) seen
+/// on vectors of unknowns: scatter to the grid, apply, gather back. The eigen-solver's vector
+/// work then runs on the unknowns only, a third to a half of the grid nodes.
+struct OnUnknowns<'a> {
+    op: &'a dyn LinearOperator,
+    pre: &'a dyn Preconditioner,
+    node_of: &'a [usize],
+    /// Grid vectors in and out; entries at solid nodes stay zero.
+    scratch: std::cell::RefCell<(Vec<f64>, Vec<f64>)>,
+}
+
+impl<'a> OnUnknowns<'a> {
+    fn new(
+        op: &'a dyn LinearOperator,
+        pre: &'a dyn Preconditioner,
+        node_of: &'a [usize],
+        grid_len: usize,
+    ) -> Self {
+        OnUnknowns {
+            op,
+            pre,
+            node_of,
+            scratch: std::cell::RefCell::new((vec![0.0; grid_len], vec![0.0; grid_len])),
+        }
+    }
+
+    fn through(&self, x: &[f64], y: &mut [f64], f: impl Fn(&[f64], &mut [f64])) {
+        let mut s = self.scratch.borrow_mut();
+        let (gx, gy) = &mut *s;
+        for (q, &k) in self.node_of.iter().enumerate() {
+            gx[k] = x[q];
+        }
+        f(gx, gy);
+        for (q, &k) in self.node_of.iter().enumerate() {
+            y[q] = gy[k];
+        }
+    }
+}
+
+impl LinearOperator for OnUnknowns<'_> {
+    fn dim(&self) -> usize {
+        self.node_of.len()
+    }
+
+    fn apply(&self, x: &[f64], y: &mut [f64]) {
+        self.through(x, y, |gx, gy| self.op.apply(gx, gy));
+    }
+
+    fn diagonal(&self) -> Vec<f64> {
+        let d = self.op.diagonal();
+        self.node_of.iter().map(|&k| d[k]).collect()
+    }
+
+    fn abs_product_norm(&self, x: &[f64]) -> f64 {
+        let mut s = self.scratch.borrow_mut();
+        let gx = &mut s.0;
+        for (q, &k) in self.node_of.iter().enumerate() {
+            gx[k] = x[q];
+        }
+        self.op.abs_product_norm(gx)
+    }
+}
+
+impl Preconditioner for OnUnknowns<'_> {
+    fn apply(&self, r: &[f64], z: &mut [f64]) {
+        self.through(r, z, |gr, gz| self.pre.apply(gr, gz));
+    }
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -338,6 +447,61 @@ pub enum Input {
     /// An SVG drawing; `scale` is metres per user unit (overrides the document's size).
     Svg { path: PathBuf, scale: Option<f64> },
 }
+
+/// Reads a mask image and builds the domain its options ask for: [`mask_domain`] after
+/// [`Mask::load`] and [`Mask::drop_specks`]. Returns the domain, whether its walls may serve as
+/// exact walls (see [`solve_unit`]) and the warnings.
+pub fn load_mask_domain(
+    path: &std::path::Path,
+    options: &MaskOptions,
+) -> Result<(Box<dyn Domain>, bool, Vec<String>)> {
+    let (mut mask, mut warnings) = Mask::load(path, options)?;
+    let origin = path.display().to_string();
+    let min_pixels = options.min_feature.pixels(mask.pixel());
+    warnings.extend(mask.drop_specks(min_pixels, &origin)?);
+    let (domain, exact_wall, w) = mask_domain(mask, options.mode);
+    warnings.extend(w);
+    Ok((domain, exact_wall, warnings))
+}
+
+/// The domain of a mask in the given mode, whether its walls count as exact, and a note on
+/// what the walls are.
+///
+/// Traced walls are exact walls to the solver: the wall correction and the wall-shear fit with
+/// the wall points as data (both assume a smooth wall through the cut points, which a traced
+/// polyline is to within its sub-pixel vertices) measured better on traced circles and
+/// ellipses than without them (tests/mask.rs). The staircase of `pixels` mode is not: it has a
+/// re-entrant corner at every step.
+pub fn mask_domain(mask: Mask, mode: MaskMode) -> (Box<dyn Domain>, bool, Vec<String>) {
+    match mode {
+        MaskMode::Pixels => (
+            Box::new(mask),
+            false,
+            vec![
+                "mask input: the walls are the pixel faces (a staircase); the perimeter is a \
+                 sub-pixel contour estimate and the local wall shear is approximate"
+                    .to_string(),
+            ],
+        ),
+        MaskMode::Traced => {
+            let traced = Traced::from_mask(&mask);
+            let st = traced.stats();
+            let mut notes = Vec::new();
+            if st.vertices > 0 && 2 * st.binary_vertices > st.vertices {
+                notes.push(format!(
+                    "mask input: the image is binary along {:.0} % of the traced walls (no grey \
+                     levels there), so those walls were smoothed; features only a few pixels \
+                     across are not resolved (--mask-mode pixels gives the staircase)",
+                    100.0 * st.binary_vertices as f64 / st.vertices as f64
+                ));
+            }
+            (Box::new(traced), TRACED_EXACT_WALL, notes)
+        }
+    }
+}
+
+/// Whether traced mask walls are treated as exact walls (measured; see [`mask_domain`]).
+const TRACED_EXACT_WALL: bool = true;
 
 /// What drives the flow.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -402,6 +566,28 @@ pub struct SolveConfig {
     pub operating: Option<OperatingSpec>,
     /// Refuse grids whose estimated memory exceeds this many bytes.
     pub memory_limit: u64,
+    /// Shift of the grid, a fraction of a cell per axis in [0, 1)
+    /// ([`Grid::covering_with_offset`]); zero by default. Ignored for masks (pixel grid).
+    pub offset: [f64; 2],
+    /// When set, overrides `offset`: the grid is placed with the centre of the bounding box this
+    /// fraction of a cell beyond a node ([`Grid::covering_placed`]; similar grids for a study).
+    pub placement: Option<[f64; 2]>,
+    /// How the numerical uncertainty of the figures is estimated.
+    pub error_estimate: ErrorEstimate,
+}
+
+/// How a run estimates the numerical uncertainty of its figures ([`crate::study`]).
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub enum ErrorEstimate {
+    /// None (`Outcome::uncertainty` stays empty).
+    Off,
+    /// One coarser grid (cells / 1.75, a third of the cost), formal order assumed, safety
+    /// factor 3.
+    #[default]
+    Cheap,
+    /// A refinement study until the relative uncertainty (GCI) of f·Re and, when computed, of
+    /// the Nusselt numbers is below this fraction (`--accuracy`).
+    Accuracy(f64),
 }
 
 impl SolveConfig {
@@ -412,6 +598,9 @@ impl SolveConfig {
             unit: UnitOptions::default(),
             operating: None,
             memory_limit: DEFAULT_MEMORY_LIMIT,
+            offset: [0.0, 0.0],
+            placement: None,
+            error_estimate: ErrorEstimate::default(),
         }
     }
 }
@@ -456,7 +645,12 @@ pub struct Outcome {
     pub unit: UnitSolution,
     pub operating: Option<OperatingResult>,
     pub warnings: Vec<String>,
+    /// Wall-clock seconds of the whole run (every grid of an uncertainty estimate included).
     pub seconds: f64,
+    /// The numerical uncertainty of the figures, unless switched off.
+    pub uncertainty: Option<Uncertainty>,
+    /// The grid was fixed by the input (a mask's pixel grid), not chosen from `cells`.
+    pub fixed_grid: bool,
 }
 
 /// Laminar limit used for the warning (the usual transition near Re ≈ 2300 in round pipes,
@@ -471,6 +665,33 @@ pub fn run(config: &SolveConfig) -> Result<Outcome> {
 
 /// [`run`] reporting the solver's iterations to `monitor`.
 pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outcome> {
+    let start = Instant::now();
+    let mut outcome = match config.error_estimate {
+        ErrorEstimate::Off => run_once(config, monitor)?,
+        ErrorEstimate::Cheap => {
+            let fine = run_once(config, monitor)?;
+            with_cheap_estimate(config, fine, monitor)
+        }
+        ErrorEstimate::Accuracy(tol) => run_study(config, tol, monitor)?,
+    };
+    let estimated = outcome
+        .uncertainty
+        .as_ref()
+        .is_some_and(|u| !matches!(u.kind, study::Kind::Unavailable(_)));
+    if estimated && matches!(config.input, Input::Mask { .. }) {
+        outcome.warnings.push(
+            "the uncertainty (±) is that of the grid on the traced walls; the tracing of the \
+             image itself (pixel size, smoothing) adds an error no grid study sees"
+                .to_string(),
+        );
+    }
+    outcome.seconds = start.elapsed().as_secs_f64();
+    Ok(outcome)
+}
+
+/// One grid: load the cross-section, lay the grid, solve, post-process, and evaluate the
+/// operating point.
+fn run_once(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outcome> {
     let start = Instant::now();
     let mut warnings = Vec::new();
     let (name, domain, exact_wall): (String, Box<dyn Domain>, bool) = match &config.input {
@@ -497,14 +718,9 @@ pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outc
             (name, Box::new(shape), true)
         }
         Input::Mask { path, options } => {
-            let (mask, w) = Mask::load(path, options)?;
+            let (domain, exact_wall, w) = load_mask_domain(path, options)?;
             warnings.extend(w);
-            warnings.push(
-                "mask input: the walls are the pixel faces (a staircase); the perimeter is a \
-                 sub-pixel contour estimate and the local wall shear is approximate"
-                    .to_string(),
-            );
-            (path.display().to_string(), Box::new(mask), false)
+            (path.display().to_string(), domain, exact_wall)
         }
     };
     let origin = match &config.input {
@@ -540,9 +756,19 @@ pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outc
                     ),
                 ));
             }
-            Grid::covering(lo, hi, cells)
+            if !(config.offset[0].is_finite() && config.offset[1].is_finite()) {
+                return Err(Error::param(
+                    "offset",
+                    "the grid offset must be a finite fraction of a cell",
+                ));
+            }
+            match config.placement {
+                Some(p) => Grid::covering_placed(lo, hi, cells, p),
+                None => Grid::covering_with_offset(lo, hi, cells, config.offset),
+            }
         }
     };
+    let fixed_grid = domain.lattice().is_some();
     let bytes = grid.len() as u64 * BYTES_PER_NODE;
     if bytes > config.memory_limit {
         return Err(Error::param(
@@ -608,6 +834,8 @@ pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outc
         operating,
         warnings,
         seconds: start.elapsed().as_secs_f64(),
+        uncertainty: None,
+        fixed_grid,
     })
 }
 
@@ -755,4 +983,288 @@ pub fn operating_point(
         wall_shear_min_pa: g * f.wall_shear_mean * f.wall_shear_min_to_mean,
         fluid,
     })
+}
+
+// ---------------------------------------------------------------------------------------------
+// Numerical uncertainty: the grids around the run (crate::study holds the mathematics).
+
+/// Coarsest grid of an `--accuracy` study unless `--cells` says otherwise.
+pub const STUDY_FIRST_CELLS: usize = 64;
+/// Finest grid an `--accuracy` study may use (cells across; the bench harness goes this far).
+pub const STUDY_MAX_CELLS: usize = 4096;
+
+/// One grid's figures for a study: report key, value, targeted.
+type Values = Vec<(&'static str, f64, bool)>;
+
+/// The figures whose uncertainty is estimated: report key, value, and whether an `--accuracy`
+/// study refines until it meets the target (f·Re and the Nusselt numbers).
+fn study_quantities(o: &Outcome) -> Values {
+    let f = &o.unit.figures;
+    let mut q = vec![
+        ("fanning_f_re", f.fanning_f_re, true),
+        ("max_to_mean_velocity", f.max_to_mean_velocity, false),
+        ("wall_shear_max_to_mean", f.wall_shear_max_to_mean, false),
+        ("wall_shear_min_to_mean", f.wall_shear_min_to_mean, false),
+    ];
+    if let Some(h) = &o.unit.heat {
+        q.push(("nusselt_h1", h.nusselt_h1, true));
+        q.push(("nusselt_t", h.nusselt_t, true));
+    }
+    q
+}
+
+/// The per-quantity estimates of a sequence of runs, coarse to fine.
+fn estimates(runs: &[(f64, Values)]) -> Vec<study::Quantity> {
+    let Some((_, finest)) = runs.last() else {
+        return Vec::new();
+    };
+    finest
+        .iter()
+        .enumerate()
+        .map(|(i, &(key, fine, targeted))| {
+            let samples: Vec<Sample> = runs
+                .iter()
+                .map(|(h, values)| Sample {
+                    h: *h,
+                    value: values.get(i).map_or(f64::NAN, |v| v.1),
+                })
+                .collect();
+            study::Quantity {
+                key,
+                fine,
+                estimate: study::estimate(&samples),
+                targeted,
+            }
+        })
+        .collect()
+}
+
+/// An uncertainty that could not be estimated, for the quantities of `o`.
+fn unavailable(o: &Outcome, why: String) -> Uncertainty {
+    Uncertainty {
+        kind: study::Kind::Unavailable(why),
+        grids: vec![o
+            .unit
+            .classified
+            .grid
+            .cells()
+            .0
+            .max(o.unit.classified.grid.cells().1)],
+        placement: "one grid".to_string(),
+        quantities: study_quantities(o)
+            .into_iter()
+            .map(|(key, fine, targeted)| study::Quantity {
+                key,
+                fine,
+                estimate: None,
+                targeted,
+            })
+            .collect(),
+    }
+}
+
+/// Why a mask's pixel grid gives no estimate.
+const FIXED_GRID_NOTE: &str = "the grid is the mask's pixel grid (staircase walls on the pixel \
+faces), which cannot be refined or coarsened without changing the geometry itself";
+
+/// The cheap estimate: one coarser grid (cells / [`study::CHEAP_RATIO`], at another offset), the
+/// formal order assumed and safety factor 3. A coarse solve that fails leaves the fine result
+/// as it is, with the estimate marked not available and a warning.
+fn with_cheap_estimate(config: &SolveConfig, mut fine: Outcome, monitor: &dyn Monitor) -> Outcome {
+    if fine.fixed_grid {
+        fine.uncertainty = Some(unavailable(&fine, FIXED_GRID_NOTE.to_string()));
+        return fine;
+    }
+    let cells = config.cells.unwrap_or(DEFAULT_CELLS);
+    let coarse_cells = study::cheap_cells(cells);
+    let mut coarse = config.clone();
+    coarse.cells = Some(coarse_cells);
+    coarse.offset = [
+        (config.offset[0] + study::CHEAP_OFFSET[0]).fract(),
+        (config.offset[1] + study::CHEAP_OFFSET[1]).fract(),
+    ];
+    coarse.placement = config.placement;
+    coarse.operating = None;
+    coarse.error_estimate = ErrorEstimate::Off;
+    let result = if coarse_cells < 8 {
+        Err(Error::param(
+            "--cells",
+            "the grid is too coarse for a coarser one",
+        ))
+    } else {
+        run_once(&coarse, monitor)
+    };
+    match result {
+        Ok(c) => {
+            let runs = [
+                (c.unit.classified.grid.h, study_quantities(&c)),
+                (fine.unit.classified.grid.h, study_quantities(&fine)),
+            ];
+            fine.uncertainty = Some(Uncertainty {
+                kind: study::Kind::Cheap,
+                grids: vec![coarse_cells, cells],
+                placement: format!(
+                    "the coarser grid is shifted by ({:.3}, {:.3}) of a cell against the fine one",
+                    study::CHEAP_OFFSET[0],
+                    study::CHEAP_OFFSET[1]
+                ),
+                quantities: estimates(&runs),
+            });
+        }
+        Err(e) => {
+            let why = format!("the coarser grid of {coarse_cells} cells could not be solved: {e}");
+            fine.warnings
+                .push(format!("no uncertainty estimate: {why}"));
+            fine.uncertainty = Some(unavailable(&fine, why));
+        }
+    }
+    fine
+}
+
+/// An `--accuracy` study: grids of [`study::study_cells`] cells (ratio 1.5), all at the placement
+/// [`study::STUDY_PLACEMENT`] (similar grids), coarse to fine, until the GCI of every targeted quantity (f·Re, and
+/// the Nusselt numbers when computed) is below `tol` on the finest three, or the next grid would
+/// exceed the memory limit or [`STUDY_MAX_CELLS`] (a warning says which). The outcome is the
+/// finest grid's, with the uncertainty of the study.
+fn run_study(config: &SolveConfig, tol: f64, monitor: &dyn Monitor) -> Result<Outcome> {
+    if !(tol.is_finite() && tol > 0.0 && tol < 1.0) {
+        return Err(Error::param(
+            "--accuracy",
+            format!("{tol} is not a relative accuracy; give a fraction between 0 and 1, e.g. 1e-4"),
+        ));
+    }
+    let first = config.cells.unwrap_or(STUDY_FIRST_CELLS);
+    let mut runs: Vec<(f64, Values)> = Vec::new();
+    let mut grids = Vec::new();
+    let mut finest: Option<Outcome> = None;
+    let mut stop: Option<String> = None;
+    let mut reached = false;
+    for k in 0.. {
+        let cells = study::study_cells(first, k);
+        if cells > STUDY_MAX_CELLS {
+            stop = Some(format!(
+                "the next grid ({cells} cells across) is beyond the study's limit of \
+                 {STUDY_MAX_CELLS}"
+            ));
+            break;
+        }
+        if let (Some(prev), Some(&prev_cells)) = (&finest, grids.last()) {
+            let scale = cells as f64 / prev_cells as f64;
+            let nodes = prev.unit.classified.grid.len() as f64 * scale * scale;
+            let bytes = nodes * BYTES_PER_NODE as f64;
+            if bytes > config.memory_limit as f64 {
+                stop = Some(format!(
+                    "the next grid ({cells} cells across) needs an estimated {:.2} GiB, above \
+                     the limit of {:.2} GiB (--max-memory)",
+                    bytes / (1u64 << 30) as f64,
+                    config.memory_limit as f64 / (1u64 << 30) as f64
+                ));
+                break;
+            }
+        }
+        let mut c = config.clone();
+        c.cells = Some(cells);
+        c.placement = Some(study::STUDY_PLACEMENT);
+        c.error_estimate = ErrorEstimate::Off;
+        let o = match run_once(&c, monitor) {
+            Ok(o) => o,
+            // A coarse start that the cross-section does not fit (too few fluid nodes, a gap
+            // narrower than the grid): start finer, up to the default grid.
+            Err(_) if grids.is_empty() && cells < DEFAULT_CELLS && config.cells.is_none() => {
+                continue
+            }
+            Err(e) if runs.len() >= 2 => {
+                stop = Some(format!(
+                    "the grid of {cells} cells could not be solved: {e}"
+                ));
+                break;
+            }
+            Err(e) => return Err(e),
+        };
+        if o.fixed_grid {
+            let mut o = o;
+            o.uncertainty = Some(unavailable(&o, FIXED_GRID_NOTE.to_string()));
+            o.warnings.push(format!(
+                "--accuracy: no grid-convergence study is possible: {FIXED_GRID_NOTE}"
+            ));
+            return Ok(o);
+        }
+        runs.push((o.unit.classified.grid.h, study_quantities(&o)));
+        grids.push(cells);
+        finest = Some(o);
+        if runs.len() >= 3 {
+            let q = estimates(&runs);
+            reached = q
+                .iter()
+                .filter(|q| q.targeted)
+                .all(|q| q.estimate.is_some_and(|e| e.relative_uncertainty <= tol));
+            if reached {
+                break;
+            }
+        }
+    }
+    let Some(mut o) = finest else {
+        return Err(Error::param(
+            "--accuracy",
+            format!(
+                "no grid of the study could be solved{}",
+                stop.map(|s| format!(": {s}")).unwrap_or_default()
+            ),
+        ));
+    };
+    if runs.len() < 2 {
+        return Err(Error::param(
+            "--accuracy",
+            format!(
+                "nothing can be estimated from one grid: {}; raise --max-memory or ask for a \
+                 coarser start with --cells",
+                stop.unwrap_or_default()
+            ),
+        ));
+    }
+    let quantities = estimates(&runs);
+    let uncertainty = Uncertainty {
+        kind: study::Kind::Study {
+            target: tol,
+            reached,
+        },
+        grids,
+        placement: format!(
+            "every grid has the box centre ({:.3}, {:.3}) of a cell beyond a node \
+             (geometrically similar grids, off the aligned placements)",
+            study::STUDY_PLACEMENT[0],
+            study::STUDY_PLACEMENT[1]
+        ),
+        quantities,
+    };
+    if !reached {
+        let worst = uncertainty
+            .quantities
+            .iter()
+            .filter(|q| q.targeted)
+            .map(|q| {
+                format!(
+                    "{} {}",
+                    q.key,
+                    q.estimate
+                        .map(|e| format!("{:.1e}", e.relative_uncertainty))
+                        .unwrap_or_else(|| "not estimated".into())
+                )
+            })
+            .collect::<Vec<_>>()
+            .join(", ");
+        o.warnings.push(format!(
+            "--accuracy {tol:.1e} not reached: {}; the study stopped with {} grids (relative \
+             uncertainty {worst})",
+            stop.unwrap_or_else(|| "no estimate".into()),
+            uncertainty.grids.len()
+        ));
+        if uncertainty.grids.len() < 3 {
+            o.warnings
+                .push("only two grids: the formal order 2 is assumed, with safety factor 3".into());
+        }
+    }
+    o.warnings.extend(uncertainty.warnings());
+    o.uncertainty = Some(uncertainty);
+    Ok(o)
 }

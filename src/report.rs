@@ -4,6 +4,7 @@
 //! consumers of the same [`Outcome`]; nothing here computes physics.
 
 use crate::pipeline::Outcome;
+use crate::study::{Kind, Uncertainty};
 use serde_json::{json, Map, Value};
 
 /// The cautions every human-readable summary ends with.
@@ -128,8 +129,78 @@ pub fn json_report(o: &Outcome) -> Value {
             }),
         );
     }
+    if let Some(u) = &o.uncertainty {
+        m.insert("uncertainty".into(), uncertainty_json(u));
+    }
     m.insert("warnings".into(), json!(o.warnings));
     Value::Object(m)
+}
+
+/// The `uncertainty` object: keyed by quantity, each with the keys of ../shared/INTERFACE.md
+/// (`fine`, `extrapolated`, `observed_order`, `relative_uncertainty`, `grids`) and, as
+/// extensions, `estimate` ("study", "cheap", "not available"), `method`, `convergence`,
+/// `order_used`, `safety_factor`, `absolute_uncertainty`, `grid_placement`, and for a study `target`
+/// and `target_reached`.
+fn uncertainty_json(u: &Uncertainty) -> Value {
+    let method = u.method();
+    let mut m = Map::new();
+    for q in &u.quantities {
+        let mut e = Map::new();
+        e.insert("fine".into(), finite(q.fine));
+        let est = q.estimate;
+        let opt = |v: Option<f64>| v.map_or(Value::Null, finite);
+        e.insert("extrapolated".into(), opt(est.map(|x| x.extrapolated)));
+        e.insert(
+            "observed_order".into(),
+            opt(est.and_then(|x| x.observed_order)),
+        );
+        e.insert(
+            "relative_uncertainty".into(),
+            opt(est.map(|x| x.relative_uncertainty)),
+        );
+        e.insert("grids".into(), json!(u.grids));
+        e.insert("estimate".into(), json!(u.marker()));
+        e.insert("method".into(), json!(method));
+        e.insert(
+            "convergence".into(),
+            est.map_or(Value::Null, |x| json!(x.behaviour.key())),
+        );
+        e.insert("order_used".into(), opt(est.and_then(|x| x.order_used)));
+        e.insert("safety_factor".into(), opt(est.map(|x| x.safety_factor)));
+        e.insert(
+            "absolute_uncertainty".into(),
+            opt(est.map(|x| x.absolute())),
+        );
+        e.insert("grid_placement".into(), json!(u.placement));
+        if let Kind::Study { target, reached } = u.kind {
+            e.insert("target".into(), json!(target));
+            e.insert("targeted".into(), json!(q.targeted));
+            e.insert("target_reached".into(), json!(reached));
+        }
+        m.insert(q.key.into(), Value::Object(e));
+    }
+    Value::Object(m)
+}
+
+/// `value` with `decimals` decimals, followed by ± its uncertainty for report key `key` when
+/// one was estimated, e.g. "16.00001 ± 0.00005".
+fn with_error(o: &Outcome, key: &str, value: f64, decimals: usize) -> String {
+    let est = o
+        .uncertainty
+        .as_ref()
+        .and_then(|u| u.get(key))
+        .and_then(|q| q.estimate);
+    match est {
+        Some(e) if value.is_finite() => {
+            let abs = e.relative_uncertainty * value.abs();
+            format!(
+                "{value:.decimals$} ± {} ({:.1e} relative)",
+                sig(abs, 2),
+                e.relative_uncertainty
+            )
+        }
+        _ => format!("{value:.decimals$}"),
+    }
 }
 
 /// JSON has no NaN: a quantity that could not be evaluated is null.
@@ -206,6 +277,28 @@ pub fn summary(o: &Outcome) -> String {
             o.unit.method_name, o.unit.info.iterations, o.unit.info.relative_residual, o.seconds
         ),
     );
+    if let Some(u) = &o.uncertainty {
+        let text = match &u.kind {
+            Kind::Study { target, reached } => format!(
+                "grid-convergence study on {} grids ({} cells across), target {target:.0e} {}; \
+                 GCI with the observed order (Celik et al. 2008)",
+                u.grids.len(),
+                u.grids
+                    .iter()
+                    .map(|c| c.to_string())
+                    .collect::<Vec<_>>()
+                    .join(", "),
+                if *reached { "reached" } else { "NOT reached" }
+            ),
+            Kind::Cheap => format!(
+                "cheap estimate from one coarser grid ({} cells), order 2 assumed, safety \
+                 factor 3; --accuracy TOL for a study",
+                u.grids.first().copied().unwrap_or(0)
+            ),
+            Kind::Unavailable(why) => format!("not available: {why}"),
+        };
+        line(&mut s, "uncertainty (±)", text);
+    }
     let _ = writeln!(s, "Cross-section");
     line(&mut s, "area", area(f.area));
     line(&mut s, "wetted perimeter", length(f.perimeter));
@@ -226,27 +319,31 @@ pub fn summary(o: &Outcome) -> String {
         }
     }
     let _ = writeln!(s, "Friction (laminar, fully developed)");
-    line(&mut s, "f·Re, Fanning", format!("{:.5}", f.fanning_f_re));
+    line(
+        &mut s,
+        "f·Re, Fanning",
+        with_error(o, "fanning_f_re", f.fanning_f_re, 5),
+    );
     line(
         &mut s,
         "f·Re, Darcy",
-        format!("{:.5}", 4.0 * f.fanning_f_re),
+        with_error(o, "fanning_f_re", 4.0 * f.fanning_f_re, 5),
     );
     line(
         &mut s,
         "u_max / u_mean",
-        format!("{:.5}", f.max_to_mean_velocity),
+        with_error(o, "max_to_mean_velocity", f.max_to_mean_velocity, 5),
     );
     let _ = writeln!(s, "Wall shear");
     line(
         &mut s,
         "max / mean",
-        format!("{:.5}", f.wall_shear_max_to_mean),
+        with_error(o, "wall_shear_max_to_mean", f.wall_shear_max_to_mean, 5),
     );
     line(
         &mut s,
         "min / mean",
-        format!("{:.5}", f.wall_shear_min_to_mean),
+        with_error(o, "wall_shear_min_to_mean", f.wall_shear_min_to_mean, 5),
     );
     line(
         &mut s,
@@ -258,12 +355,12 @@ pub fn summary(o: &Outcome) -> String {
         line(
             &mut s,
             "Nu_H1 (uniform flux)",
-            format!("{:.5}", h.nusselt_h1),
+            with_error(o, "nusselt_h1", h.nusselt_h1, 5),
         );
         line(
             &mut s,
             "Nu_T (uniform wall temp.)",
-            format!("{:.5}", h.nusselt_t),
+            with_error(o, "nusselt_t", h.nusselt_t, 5),
         );
     }
     if let Some(op) = &o.operating {

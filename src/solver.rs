@@ -2,7 +2,8 @@
 //!
 //! Owns: the preconditioned conjugate gradient (Hestenes & Stiefel 1952; Saad, *Iterative
 //! Methods for Sparse Linear Systems*, 2nd ed., algorithm 9.1) over any [`LinearOperator`] and
-//! [`Preconditioner`], and the Jacobi preconditioner.
+//! [`Preconditioner`], and the Jacobi preconditioner; the smallest eigenpair of a definite
+//! pencil A·f = λ·W·f by LOBPCG ([`smallest_eigenpair`]) over the same two traits.
 //!
 //! Invariant: knows nothing of geometry, grids or physics, only vectors and the two traits.
 
@@ -310,98 +311,181 @@ pub fn pcg_monitored(
     })
 }
 
-/// A linear solve A·x = b from the starting guess in x, to the given control: what the
-/// eigen-solver calls in its inner loop.
+/// A linear solve A·x = b from the starting guess in x, to the given control (the H1 solve of
+/// the heat-transfer problems goes through one).
 pub type SolveFn<'a> = dyn FnMut(&[f64], &mut [f64], &CgParams) -> Result<CgInfo> + 'a;
+
+/// An inner conjugate-gradient solve used as a preconditioner: z ≈ A⁻¹·r by [`pcg`] from
+/// z = 0 with the given control. It lets [`smallest_eigenpair`] run on the checking paths
+/// (plain or Jacobi CG), whose own preconditioners are far too weak to drive an eigen-solver
+/// alone. A CG solve depends on r nonlinearly, so this is not a fixed linear operator; LOBPCG
+/// only needs good search directions and tolerates that (Knyazev 2001, inner iterations as a
+/// preconditioner). A solve that stops short of its tolerance returns its last iterate, which
+/// is still a useful direction.
+pub struct InnerCg<'a> {
+    op: &'a dyn LinearOperator,
+    pre: &'a dyn Preconditioner,
+    params: CgParams,
+}
+
+impl<'a> InnerCg<'a> {
+    pub fn new(op: &'a dyn LinearOperator, pre: &'a dyn Preconditioner, params: CgParams) -> Self {
+        InnerCg { op, pre, params }
+    }
+}
+
+impl Preconditioner for InnerCg<'_> {
+    fn apply(&self, r: &[f64], z: &mut [f64]) {
+        z.iter_mut().for_each(|v| *v = 0.0);
+        // Not converging is no error here: z holds the last iterate (see the type's doc).
+        let _ = pcg(self.op, self.pre, r, z, &self.params, "inner solve");
+    }
+}
 
 /// Control of [`smallest_eigenpair`].
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct EigenParams {
-    /// Stop when the relative eigen-residual ‖A·x − λ·W·x‖_{W⁻¹} / ‖λ·W·x‖_{W⁻¹} is below this.
+    /// Stop when the relative eigen-residual of the leading Ritz pair (x, λ),
+    /// ρ = ‖A·x − λ·W·x‖_{M⁻¹} / ‖x‖_A, is at or below this (see [`smallest_eigenpair`]).
     pub tolerance: f64,
+    /// Rayleigh–Ritz steps at most.
     pub max_iterations: usize,
-    /// Relative residual of each inner linear solve.
-    pub inner_tolerance: f64,
+    /// Vectors iterated together, 1 to [`MAX_EIGEN_BLOCK`]. Each one costs a preconditioner
+    /// application per step; a second one makes the rate depend on the gap to λ₃ instead of
+    /// λ₂, which pays off only when the two lowest modes are very close. Measured on the
+    /// shipped shapes at 600 cells (multigrid): one vector needs 4–8 steps, two need as many
+    /// steps or more (the eccentric annulus: 8 against 8–10), so a second vector only doubles
+    /// the cost; the default is one.
+    pub block: usize,
 }
 
 impl Default for EigenParams {
     fn default() -> Self {
-        // The Ritz value's error is of the order of the square of the residual, so a residual
-        // of 1e-6 leaves the eigenvalue good to about 1e-12; inner solves to 1e-9 keep the
-        // residual measurable at that level.
+        // The eigenvalue's relative error is about ρ²·λ₂/(λ₂ − λ₁) (see
+        // [`smallest_eigenpair`]), so ρ ≤ 1e-5 leaves it good to about 1e-10 for a fair gap.
+        // Measured on the shipped shapes at 600 cells against solves to ρ = 1e-9: at most
+        // 8e-11 (the eccentric annulus, the closest modes); ρ ≤ 3e-5 would allow 9e-10.
         EigenParams {
-            tolerance: 1e-6,
-            max_iterations: 300,
-            inner_tolerance: 1e-9,
+            tolerance: 1e-5,
+            max_iterations: 500,
+            block: 1,
         }
     }
 }
 
 /// What an eigen-solve did.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, PartialEq)]
 pub struct EigenInfo {
+    /// The smallest eigenvalue: the Rayleigh quotient xᵀA·x / xᵀW·x of the returned vector.
     pub eigenvalue: f64,
-    /// Outer (inverse) iterations.
+    /// Rayleigh–Ritz steps taken.
     pub iterations: usize,
-    /// CG iterations of all inner solves.
-    pub inner_iterations: usize,
-    /// Relative eigen-residual at the end.
-    pub change: f64,
+    /// Preconditioner applications (one per block vector and step, and those of the final
+    /// residual check).
+    pub preconditioner_applications: usize,
+    /// Relative eigen-residual ρ of the returned pair.
+    pub relative_residual: f64,
+    /// ρ of the leading pair before each step and at the end (`iterations + 1` values).
+    pub residuals: Vec<f64>,
 }
 
-/// Vectors in the block of [`smallest_eigenpair`].
-pub const EIGEN_BLOCK: usize = 2;
+/// Largest block [`smallest_eigenpair`] accepts.
+pub const MAX_EIGEN_BLOCK: usize = 4;
 
-/// Smallest eigenpair of the symmetric definite pencil A·f = λ·W·f, W = diag(`weights`) > 0, by
-/// block inverse iteration with a Rayleigh–Ritz step (subspace iteration on [`EIGEN_BLOCK`]
-/// vectors; Saad, *Numerical Methods for Large Eigenvalue Problems*, 2011, ch. 5):
-/// G = A⁻¹·W·F, then the small pencil (GᵀW F, GᵀW G) gives the Ritz values and the next
-/// W-orthonormal block F. The smallest Ritz value converges at the ratio λ₁/λ₃ (block of two;
-/// measured: a block of three or four costs more inner iterations on the shipped shapes), so clustered
-/// low modes (two passages, a passage nearly cut in two, an eccentric annulus) do not stall it
-/// as they stall plain inverse iteration. The residual of the Ritz vector x = G·y costs no
-/// operator application: A·x = W·F·y, so r = W·(F·y − λ·x); the iteration stops when
-/// ‖F·y − λ·x‖_W ≤ tolerance·‖λ·x‖_W (the eigenvalue's error is then of the order of the
-/// square of that), or when λ changes by less than the square of the tolerance while the
-/// residual is within ten times the tolerance. The inner solves are inexact: their relative
-/// tolerance is 1e-2 times the square of the current residual (the Ritz value inherits the inner
-/// error to first order, so it must shrink like the eigenvalue's own error; inexact inverse
-/// iteration, Golub & Ye 2000, from memory), between `inner_tolerance` and 1e-3.
-/// `solve(b, x, control)` solves A·x = b starting from x; `f` holds the starting vector and
-/// returns the eigenvector.
+/// Gram-matrix eigenvalues below this fraction of the largest (the basis scaled to unit
+/// A-norm) mark directions too close to dependent to resolve in double precision (their
+/// coefficients would carry errors of ε/σ); they are dropped from the Rayleigh–Ritz basis.
+const GRAM_DROP: f64 = 1e-10;
+
+/// Smallest eigenpair of the symmetric definite pencil A·f = λ·W·f, A symmetric positive
+/// definite, W = diag(`weights`) ≥ 0 (zero or tiny weights allowed), by the locally optimal
+/// block preconditioned conjugate gradient method, LOBPCG (Knyazev, SIAM J. Sci. Comput. 23
+/// (2001) 517–541), preconditioned by `pre` (M⁻¹ ≈ A⁻¹, symmetric positive definite: the
+/// multigrid V-cycle on the default path).
+///
+/// Each step works on a block X of `params.block` vectors, the current approximations of the
+/// lowest modes, with Λ their Rayleigh quotients:
+///
+/// ```text
+///   R = A·X − W·X·Λ                 residuals (A·X applied afresh, never updated)
+///   T = M⁻¹·R                       preconditioned residuals: one preconditioner call each
+///   S = [X, T, P]                   P: the previous step's correction (none at first)
+///   Rayleigh–Ritz on span S         X_new = S·Y,  P_new = [0, T, P]·Y
+/// ```
+///
+/// so the step minimises the Rayleigh quotient over a three-term recurrence space, as CG does
+/// the energy of a linear system; with M⁻¹ = A⁻¹ the space holds x − λ·A⁻¹·W·x, so a step is
+/// never worse than one of inverse iteration from the same x. The Rayleigh–Ritz step is taken
+/// on the reciprocal pencil W·f = μ·A·f, μ = 1/λ, whose projected matrix SᵀA·S is positive
+/// definite even where W is singular (a vector living on zero weights has μ = 0 and is never
+/// chosen). The basis is scaled to unit A-norm and SᵀA·S = V·Σ·Vᵀ is diagonalised; directions
+/// with Σ below `GRAM_DROP` (1e-10) times max Σ are dropped and the rest A-orthonormalised by
+/// C = V·Σ^{-1/2} (SVQB, Stathopoulos & Wu, SIAM J. Sci. Comput. 23 (2002) 2165–2182), so a
+/// basis that becomes nearly dependent near convergence loses a useless direction instead of
+/// breaking a Cholesky factorisation (the failure Hetmaniuk & Lehoucq,
+/// J. Comput. Phys. 218 (2006) 324–332, and Duersch, Shao, Yang & Gu, SIAM J. Sci. Comput. 40
+/// (2018) C655–C676, discuss). The largest eigenvalues of the small symmetric matrix
+/// Cᵀ·(SᵀW·S)·C (nalgebra's symmetric eigen-solver) give the new block. A·P follows from A·T
+/// and the update coefficients, so a step costs one preconditioner call and two operator
+/// applications per block vector, and the Gram matrices are summed in one pass.
+///
+/// Stopping: x the leading vector, λ its Rayleigh quotient (from the explicit A·x, so
+/// round-off in the update cannot bias it), r = A·x − λ·W·x. The relative residual
+/// ρ = ‖r‖_{M⁻¹} / ‖x‖_A (‖r‖²_{M⁻¹} = rᵀ·T comes for free) measures r in the norm of A⁻¹
+/// (approximately: M is spectrally close to A), in which ‖λ·W·x‖_{A⁻¹} = ‖x‖_A for an
+/// eigenvector. By Temple's inequality for A⁻¹·W, self-adjoint in the A inner product, the
+/// relative error of λ is then at most about ρ²·λ₂/(λ₂ − λ): quadratic in the residual
+/// (Parlett, *The Symmetric Eigenvalue Problem*, 1998, ch. 10, from memory). Reaching
+/// `max_iterations` is an error carrying ρ.
+///
+/// `x` holds the starting vector and returns the eigenvector (unit A-norm); `guesses` may give
+/// the other starting vectors of the block; missing ones are `x` modulated by seeded
+/// pseudo-random patterns (a fixed generator, so runs repeat exactly). If the block loses rank
+/// (dependent guesses) it continues with fewer vectors. Every reduction sums in a fixed order,
+/// so the result does not depend on the number of threads.
 pub fn smallest_eigenpair(
+    op: &dyn LinearOperator,
+    pre: &dyn Preconditioner,
     weights: &[f64],
-    f: &mut [f64],
-    solve: &mut SolveFn<'_>,
+    x: &mut [f64],
+    guesses: &[&[f64]],
     params: &EigenParams,
     method: &str,
 ) -> Result<EigenInfo> {
-    use nalgebra::{DMatrix, SymmetricEigen};
-    let n = f.len();
-    let nb = EIGEN_BLOCK;
-    let wdot = |a: &[f64], b: &[f64]| -> f64 {
-        a.iter()
-            .zip(b)
-            .zip(weights)
-            .map(|((x, y), w)| w * x * y)
-            .sum::<f64>()
-    };
+    let n = x.len();
+    assert_eq!(op.dim(), n, "operator and vector sizes differ");
+    assert_eq!(weights.len(), n, "weights and vector sizes differ");
+    assert!(
+        (1..=MAX_EIGEN_BLOCK).contains(&params.block),
+        "eigen block of {} vectors",
+        params.block
+    );
     let fail = |why: &str, it: usize, residual: f64| Error::NotConverged {
         method: format!("{method} ({why})"),
         iterations: it,
         relative_residual: residual,
         tolerance: params.tolerance,
     };
-    if wdot(f, f) == 0.0 {
-        return Err(fail("zero starting vector", 0, 1.0));
+    let start = rayleigh_parts(x, x, weights).1;
+    if !(start > 0.0 && start.is_finite()) {
+        return Err(fail(
+            "the starting vector has no weight or is not finite",
+            0,
+            f64::INFINITY,
+        ));
     }
-    // The other starting vectors: the first modulated by seeded pseudo-random patterns (a
-    // fixed LCG, so runs repeat exactly).
+    let mut nb = params.block;
+    // basis = [X | T | P] and images = [A·X | A·T | A·P], nb vectors each; np of P in use.
+    let mut basis: Vec<Vec<f64>> = Vec::with_capacity(3 * nb);
+    basis.push(x.to_vec());
+    for g in guesses.iter().take(nb - 1) {
+        assert_eq!(g.len(), n, "guess and vector sizes differ");
+        basis.push(g.to_vec());
+    }
     let mut seed: u64 = 0x2545_f491_4f6c_dd1d;
-    let mut fs: Vec<Vec<f64>> = vec![f.to_vec()];
-    for _ in 1..nb {
-        fs.push(
-            f.iter()
+    while basis.len() < nb {
+        basis.push(
+            x.iter()
                 .map(|v| {
                     seed = seed
                         .wrapping_mul(6_364_136_223_846_793_005)
@@ -411,107 +495,326 @@ pub fn smallest_eigenpair(
                 .collect(),
         );
     }
-    let mut gs: Vec<Vec<f64>> = vec![vec![0.0; n]; nb];
-    let mut b = vec![0.0; n];
-    let mut lambda = f64::NAN;
-    let mut inner = 0;
-    let mut residual = f64::INFINITY;
-    for it in 1..=params.max_iterations {
-        // The leading vector carries the eigenvalue and gets the tight schedule; the others
-        // only span the search space and are solved to 1e-2 times the residual.
-        let tight = CgParams {
-            tolerance: (1e-2 * residual * residual).clamp(params.inner_tolerance, 1e-3),
-            max_iterations: CgParams::default().max_iterations,
-        };
-        let loose = CgParams {
-            tolerance: (1e-2 * residual).clamp(params.inner_tolerance, 1e-3),
-            ..tight
-        };
-        for (col, (gv, fv)) in gs.iter_mut().zip(&fs).enumerate() {
-            let cg = if col == 0 { &tight } else { &loose };
-            for i in 0..n {
-                b[i] = weights[i] * fv[i];
-            }
-            let info = solve(&b, gv, cg)?;
-            inner += info.iterations;
-        }
-        // Rayleigh–Ritz on span G: Ka = GᵀW F (= GᵀA G), Kb = GᵀW G.
-        let mut ka = DMatrix::<f64>::zeros(nb, nb);
-        let mut kb = DMatrix::<f64>::zeros(nb, nb);
-        for r in 0..nb {
-            for c in 0..nb {
-                ka[(r, c)] = 0.5 * (wdot(&gs[r], &fs[c]) + wdot(&gs[c], &fs[r]));
-                kb[(r, c)] = wdot(&gs[r], &gs[c]);
-            }
-        }
-        let chol = kb
-            .cholesky()
-            .ok_or_else(|| fail("the iteration vectors became dependent", it, residual))?;
-        let linv = chol
-            .l()
-            .try_inverse()
-            .ok_or_else(|| fail("the iteration vectors became dependent", it, residual))?;
-        let c = &linv * ka * linv.transpose();
-        let c = 0.5 * (&c + c.transpose());
-        let eig = SymmetricEigen::new(c);
-        let mut order: Vec<usize> = (0..nb).collect();
-        order.sort_by(|&x, &y| eig.eigenvalues[x].total_cmp(&eig.eigenvalues[y]));
-        let ys: Vec<nalgebra::DVector<f64>> = order
-            .iter()
-            .map(|&k| linv.transpose() * eig.eigenvectors.column(k))
+    basis.resize(3 * nb, vec![0.0; n]);
+    let mut images = vec![vec![0.0; n]; 3 * nb];
+    let mut r = vec![0.0; n];
+    for k in 0..nb {
+        op.apply(&basis[k], &mut images[k]);
+    }
+    // Rayleigh–Ritz on the starting block alone gives its Ritz vectors (unit A-norm).
+    {
+        let y = ritz_step(&basis, &images, weights, nb, nb)
+            .ok_or_else(|| fail("the starting block has no weight", 0, f64::INFINITY))?;
+        let plan: Vec<Vec<(usize, f64)>> = (0..y.ncols())
+            .map(|c| (0..nb).map(|j| (j, y[(j, c)])).collect())
             .collect();
-        let new = eig.eigenvalues[order[0]];
-        // Residual of the Ritz vector x = G·y₁ (W-normalised by construction: yᵀKb y = 1).
-        let mut num = 0.0;
-        for i in 0..n {
-            let mut x = 0.0;
-            let mut fy = 0.0;
-            for k in 0..nb {
-                x += gs[k][i] * ys[0][k];
-                fy += fs[k][i] * ys[0][k];
-            }
-            num += weights[i] * (fy - new * x).powi(2);
+        let targets: Vec<usize> = (0..y.ncols()).collect();
+        recombine(&mut basis, &plan, &targets);
+        if y.ncols() < nb {
+            shrink(&mut basis, nb, y.ncols());
+            shrink(&mut images, nb, y.ncols());
+            nb = y.ncols();
         }
-        residual = num.sqrt() / new.abs();
-        let change = ((new - lambda) / new).abs();
-        lambda = new;
-        // Next block: the Ritz vectors; warm starts A⁻¹W f ≈ f/μ for the next solves.
-        let mut next: Vec<Vec<f64>> = vec![vec![0.0; n]; nb];
-        for (col, y) in ys.iter().enumerate() {
-            let out = &mut next[col];
-            for (k, g) in gs.iter().enumerate() {
-                let yk = y[k];
-                for i in 0..n {
-                    out[i] += yk * g[i];
-                }
+        for k in 0..nb {
+            op.apply(&basis[k], &mut images[k]);
+        }
+    }
+    let mut np = 0;
+    let mut residuals = Vec::new();
+    let mut applications = 0;
+    let mut it = 0;
+    loop {
+        // Rayleigh quotients, residuals and preconditioned residuals of the block.
+        let mut lead = (f64::NAN, f64::INFINITY, 1.0);
+        for k in 0..nb {
+            let (xax, xwx) = rayleigh_parts(&basis[k], &images[k], weights);
+            if !(xax > 0.0 && xwx > 0.0 && xax.is_finite() && xwx.is_finite()) {
+                return Err(fail(
+                    "breakdown: a block vector lost its weight",
+                    it,
+                    residuals.last().copied().unwrap_or(f64::INFINITY),
+                ));
+            }
+            let lambda = xax / xwx;
+            residual_into(&images[k], &basis[k], weights, lambda, &mut r);
+            pre.apply(&r, &mut basis[nb + k]);
+            applications += 1;
+            if k == 0 {
+                let rho = (dot(&r, &basis[nb]).max(0.0) / xax).sqrt();
+                lead = (lambda, rho, xax);
             }
         }
-        for (col, &k) in order.iter().enumerate() {
-            let mu = eig.eigenvalues[k];
-            for i in 0..n {
-                gs[col][i] = next[col][i] / mu;
+        let (lambda, rho, xax) = lead;
+        residuals.push(rho);
+        if rho <= params.tolerance {
+            let scale = 1.0 / xax.sqrt();
+            for (out, v) in x.iter_mut().zip(&basis[0]) {
+                *out = v * scale;
             }
-        }
-        fs = next;
-        // The change test only confirms a residual already near the target (with inexact
-        // inner solves λ can pause before it has converged).
-        let settled =
-            change <= params.tolerance * params.tolerance && residual <= 10.0 * params.tolerance;
-        if residual <= params.tolerance || settled {
-            f.copy_from_slice(&fs[0]);
             return Ok(EigenInfo {
                 eigenvalue: lambda,
                 iterations: it,
-                inner_iterations: inner,
-                change: residual,
+                preconditioner_applications: applications,
+                relative_residual: rho,
+                residuals,
             });
         }
+        if it >= params.max_iterations || !rho.is_finite() {
+            return Err(fail("LOBPCG", it, rho));
+        }
+        it += 1;
+        for k in nb..2 * nb {
+            let (t, at) = (&basis[k], &mut images[k]);
+            op.apply(t, at);
+        }
+        // Rayleigh–Ritz on S = [X, T, P].
+        let m = 2 * nb + np;
+        let y = ritz_step(&basis, &images, weights, m, nb)
+            .ok_or_else(|| fail("the search space lost its weight", it, rho))?;
+        let nb_new = y.ncols();
+        // P_new = T·Y_T + P·Y_P and X_new = X·Y_X + P_new in one pass (old values in), then
+        // A·P_new = A·T·Y_T + A·P·Y_P.
+        let (mut plan, mut targets) = (Vec::new(), Vec::new());
+        for c in 0..nb_new {
+            let correction: Vec<(usize, f64)> = (nb..m).map(|j| (j, y[(j, c)])).collect();
+            let mut whole = correction.clone();
+            whole.extend((0..nb).map(|j| (j, y[(j, c)])));
+            plan.push(correction);
+            targets.push(2 * nb + c);
+            plan.push(whole);
+            targets.push(c);
+        }
+        recombine(&mut basis, &plan, &targets);
+        let aplan: Vec<Vec<(usize, f64)>> = plan.iter().step_by(2).cloned().collect();
+        let atargets: Vec<usize> = (0..nb_new).map(|c| 2 * nb + c).collect();
+        recombine(&mut images, &aplan, &atargets);
+        if nb_new < nb {
+            shrink(&mut basis, nb, nb_new);
+            shrink(&mut images, nb, nb_new);
+            nb = nb_new;
+        }
+        np = nb;
+        for k in 0..nb {
+            let (x, ax) = (&basis[k], &mut images[k]);
+            op.apply(x, ax);
+        }
     }
-    Err(fail(
-        "block inverse iteration",
-        params.max_iterations,
-        residual,
-    ))
+}
+
+/// The Rayleigh–Ritz step of [`smallest_eigenpair`] on the first `m` vectors of `basis`
+/// (A-images in `images`): coefficients Y (m × k, k ≤ `want`) of the Ritz vectors of the
+/// largest μ of W·f = μ·A·f, unit A-norm, largest first. None when no direction has weight.
+fn ritz_step(
+    basis: &[Vec<f64>],
+    images: &[Vec<f64>],
+    weights: &[f64],
+    m: usize,
+    want: usize,
+) -> Option<nalgebra::DMatrix<f64>> {
+    use nalgebra::{DMatrix, SymmetricEigen};
+    let s: Vec<&[f64]> = basis[..m].iter().map(|v| v.as_slice()).collect();
+    let a: Vec<&[f64]> = images[..m].iter().map(|v| v.as_slice()).collect();
+    let (ga, gw) = gram(&s, &a, weights);
+    // Unit A-norm scaling; a vector of zero (or denormal) A-norm carries no direction.
+    let dmax = (0..m).map(|i| ga[(i, i)]).fold(0.0, f64::max);
+    if !(dmax > 0.0 && dmax.is_finite()) {
+        return None;
+    }
+    let idx: Vec<usize> = (0..m)
+        .filter(|&i| ga[(i, i)] > 1e-30 * dmax && ga[(i, i)] > f64::MIN_POSITIVE)
+        .collect();
+    let sc: Vec<f64> = idx.iter().map(|&i| 1.0 / ga[(i, i)].sqrt()).collect();
+    let q = idx.len();
+    let scaled =
+        |g: &DMatrix<f64>| DMatrix::from_fn(q, q, |r, c| sc[r] * sc[c] * g[(idx[r], idx[c])]);
+    let (ha, hw) = (scaled(&ga), scaled(&gw));
+    // SVQB: A-orthonormal directions C = V·Σ^{-1/2}, nearly dependent ones dropped.
+    let eg = SymmetricEigen::new(ha);
+    let smax = eg.eigenvalues.iter().cloned().fold(0.0, f64::max);
+    let keep: Vec<usize> = (0..q)
+        .filter(|&j| eg.eigenvalues[j] > GRAM_DROP * smax)
+        .collect();
+    let c = DMatrix::from_fn(q, keep.len(), |r, j| {
+        eg.eigenvectors[(r, keep[j])] / eg.eigenvalues[keep[j]].sqrt()
+    });
+    let h = c.transpose() * hw * &c;
+    let h = 0.5 * (&h + h.transpose());
+    let eh = SymmetricEigen::new(h);
+    let mut order: Vec<usize> = (0..keep.len()).collect();
+    order.sort_by(|&i, &j| eh.eigenvalues[j].total_cmp(&eh.eigenvalues[i]));
+    let mu_max = eh.eigenvalues[*order.first()?];
+    if !(mu_max > 0.0 && mu_max.is_finite()) {
+        return None;
+    }
+    // Ritz vectors with weight (μ > 0 to round-off) only.
+    let chosen: Vec<usize> = order
+        .into_iter()
+        .filter(|&j| eh.eigenvalues[j] > 1e-12 * mu_max)
+        .take(want)
+        .collect();
+    let z = DMatrix::from_fn(keep.len(), chosen.len(), |r, k| {
+        eh.eigenvectors[(r, chosen[k])]
+    });
+    let yq = c * z;
+    let mut y = DMatrix::zeros(m, chosen.len());
+    for (r, &i) in idx.iter().enumerate() {
+        for k in 0..chosen.len() {
+            y[(i, k)] = sc[r] * yq[(r, k)];
+        }
+    }
+    Some(y)
+}
+
+/// Keeps the first `keep` vectors of each of the three groups of `nb` in `v` ([X | T | P]).
+fn shrink(v: &mut Vec<Vec<f64>>, nb: usize, keep: usize) {
+    let old = std::mem::take(v);
+    *v = old
+        .into_iter()
+        .enumerate()
+        .filter(|(i, _)| i % nb < keep)
+        .map(|(_, x)| x)
+        .collect();
+}
+
+/// a·b with four interleaved partial sums (vectorisable, fixed order).
+fn dot4(a: &[f64], b: &[f64]) -> f64 {
+    let mut s = [0.0; 4];
+    let (ac, bc) = (a.chunks_exact(4), b.chunks_exact(4));
+    let tail: f64 = ac
+        .remainder()
+        .iter()
+        .zip(bc.remainder())
+        .map(|(x, y)| x * y)
+        .sum();
+    for (x, y) in ac.zip(bc) {
+        for l in 0..4 {
+            s[l] += x[l] * y[l];
+        }
+    }
+    (s[0] + s[1]) + (s[2] + s[3]) + tail
+}
+
+/// Σ w·a·b with four interleaved partial sums (vectorisable, fixed order).
+fn wdot4(a: &[f64], b: &[f64], w: &[f64]) -> f64 {
+    let mut s = [0.0; 4];
+    let (ac, bc, wc) = (a.chunks_exact(4), b.chunks_exact(4), w.chunks_exact(4));
+    let tail: f64 = ac
+        .remainder()
+        .iter()
+        .zip(bc.remainder())
+        .zip(wc.remainder())
+        .map(|((x, y), w)| w * x * y)
+        .sum();
+    for ((x, y), w) in ac.zip(bc).zip(wc) {
+        for l in 0..4 {
+            s[l] += w[l] * x[l] * y[l];
+        }
+    }
+    (s[0] + s[1]) + (s[2] + s[3]) + tail
+}
+
+/// Gram matrices Sᵀ·(A·S) and Sᵀ·W·S of the vectors `s` with images `a`, in one pass over
+/// the entries (blocks of [`BLOCK`] in parallel, block sums added in order). Only the upper
+/// triangle of Sᵀ·(A·S) is formed and mirrored: the symmetric A makes the two halves equal.
+fn gram(s: &[&[f64]], a: &[&[f64]], w: &[f64]) -> (nalgebra::DMatrix<f64>, nalgebra::DMatrix<f64>) {
+    use rayon::prelude::*;
+    let (m, n) = (s.len(), w.len());
+    let partial: Vec<Vec<f64>> = (0..n.div_ceil(BLOCK))
+        .into_par_iter()
+        .map(|b| {
+            let (lo, hi) = (b * BLOCK, ((b + 1) * BLOCK).min(n));
+            let w = &w[lo..hi];
+            let mut g = vec![0.0; 2 * m * m];
+            for i in 0..m {
+                let si = &s[i][lo..hi];
+                for j in i..m {
+                    g[i * m + j] = dot4(si, &a[j][lo..hi]);
+                    g[m * m + i * m + j] = wdot4(si, &s[j][lo..hi], w);
+                }
+            }
+            g
+        })
+        .collect();
+    let mut ga = nalgebra::DMatrix::zeros(m, m);
+    let mut gw = nalgebra::DMatrix::zeros(m, m);
+    for g in &partial {
+        for i in 0..m {
+            for j in i..m {
+                ga[(i, j)] += g[i * m + j];
+                gw[(i, j)] += g[m * m + i * m + j];
+            }
+        }
+    }
+    for i in 0..m {
+        for j in 0..i {
+            ga[(i, j)] = ga[(j, i)];
+            gw[(i, j)] = gw[(j, i)];
+        }
+    }
+    (ga, gw)
+}
+
+/// (xᵀ·ax, xᵀW·x), fixed-order blocked reduction.
+fn rayleigh_parts(x: &[f64], ax: &[f64], w: &[f64]) -> (f64, f64) {
+    use rayon::prelude::*;
+    let partial: Vec<(f64, f64)> = x
+        .par_chunks(BLOCK)
+        .zip(ax.par_chunks(BLOCK).zip(w.par_chunks(BLOCK)))
+        .map(|(x, (ax, w))| (dot4(x, ax), wdot4(x, x, w)))
+        .collect();
+    partial
+        .iter()
+        .fold((0.0, 0.0), |(p, q), &(a, b)| (p + a, q + b))
+}
+
+/// r = ax − λ·W·x.
+fn residual_into(ax: &[f64], x: &[f64], w: &[f64], lambda: f64, r: &mut [f64]) {
+    use rayon::prelude::*;
+    r.par_chunks_mut(BLOCK)
+        .zip(ax.par_chunks(BLOCK))
+        .zip(x.par_chunks(BLOCK).zip(w.par_chunks(BLOCK)))
+        .for_each(|((r, ax), (x, w))| {
+            for i in 0..r.len() {
+                r[i] = ax[i] - lambda * w[i] * x[i];
+            }
+        });
+}
+
+/// Linear recombination in place: output c is Σ_(j, a) ∈ plan[c] a·v_j and replaces
+/// v_{targets[c]}. All outputs of a block of [`BLOCK`] entries are formed in a buffer before
+/// any is written, so outputs may overwrite inputs. Blocks in parallel; no reduction.
+fn recombine(v: &mut [Vec<f64>], plan: &[Vec<(usize, f64)>], targets: &[usize]) {
+    use rayon::prelude::*;
+    let n = v[0].len();
+    let blocks = n.div_ceil(BLOCK);
+    let mut pieces: Vec<Vec<&mut [f64]>> =
+        (0..blocks).map(|_| Vec::with_capacity(v.len())).collect();
+    for vec in v.iter_mut() {
+        for (b, piece) in vec.chunks_mut(BLOCK).enumerate() {
+            pieces[b].push(piece);
+        }
+    }
+    let k = plan.len();
+    pieces.into_par_iter().for_each_init(
+        || vec![0.0; k * BLOCK],
+        |buf, mut ps| {
+            let len = ps[0].len();
+            for (c, terms) in plan.iter().enumerate() {
+                let out = &mut buf[c * BLOCK..c * BLOCK + len];
+                out.iter_mut().for_each(|o| *o = 0.0);
+                for &(j, a) in terms {
+                    if a != 0.0 {
+                        for (o, x) in out.iter_mut().zip(ps[j].iter()) {
+                            *o += a * x;
+                        }
+                    }
+                }
+            }
+            for (c, &t) in targets.iter().enumerate() {
+                ps[t].copy_from_slice(&buf[c * BLOCK..c * BLOCK + len]);
+            }
+        },
+    );
 }
 
 #[cfg(test)]
@@ -558,19 +861,132 @@ mod tests {
         let h = 1.0 / (n + 1) as f64;
         let a = laplace_1d(n);
         let w = vec![h * h; n];
-        let mut f: Vec<f64> = (0..n)
-            .map(|i| (i + 1) as f64 * h * (1.0 - (i + 1) as f64 * h))
-            .collect();
-        let mut solve = |b: &[f64], x: &mut [f64], p: &CgParams| pcg(&a, &Identity, b, x, p, "cg");
-        let info =
-            smallest_eigenpair(&w, &mut f, &mut solve, &EigenParams::default(), "test").unwrap();
         let exact = 4.0 / (h * h) * (std::f64::consts::PI * h / 2.0).sin().powi(2);
-        assert!(
-            (info.eigenvalue - exact).abs() / exact < 1e-9,
-            "{} {}",
-            info.eigenvalue,
-            exact
+        for block in [1, 2] {
+            let mut f: Vec<f64> = (0..n)
+                .map(|i| (i + 1) as f64 * h * (1.0 - (i + 1) as f64 * h))
+                .collect();
+            let params = EigenParams {
+                block,
+                ..Default::default()
+            };
+            let info =
+                smallest_eigenpair(&a, &Jacobi::new(&a), &w, &mut f, &[], &params, "test").unwrap();
+            assert!(
+                (info.eigenvalue - exact).abs() / exact < 1e-9,
+                "block {block}: {} {}",
+                info.eigenvalue,
+                exact
+            );
+            assert_eq!(info.residuals.len(), info.iterations + 1);
+        }
+    }
+
+    /// The 5-point Laplacian (unscaled) of an nx × ny grid with Dirichlet walls, row-major.
+    fn laplace_2d(nx: usize, ny: usize) -> CsMat<f64> {
+        let mut t = TriMat::new((nx * ny, nx * ny));
+        for j in 0..ny {
+            for i in 0..nx {
+                let k = j * nx + i;
+                t.add_triplet(k, k, 4.0);
+                if i > 0 {
+                    t.add_triplet(k, k - 1, -1.0);
+                }
+                if i + 1 < nx {
+                    t.add_triplet(k, k + 1, -1.0);
+                }
+                if j > 0 {
+                    t.add_triplet(k, k - nx, -1.0);
+                }
+                if j + 1 < ny {
+                    t.add_triplet(k, k + nx, -1.0);
+                }
+            }
+        }
+        t.to_csr()
+    }
+
+    /// Smallest eigenpair of A·f = λ·W·f by dense linear algebra: the symmetric-definite
+    /// reduction with the Cholesky factor of A, L⁻¹·W·L⁻ᵀ·z = μ·z, μ = 1/λ, f = L⁻ᵀ·z (Golub &
+    /// Van Loan, *Matrix Computations*, 4th ed., 2013, §8.7, from memory), solved by nalgebra's
+    /// `SymmetricEigen` (the reference library). W may be singular: A is the definite one.
+    fn dense_smallest(a: &CsMat<f64>, w: &[f64]) -> (f64, Vec<f64>) {
+        use nalgebra::{DMatrix, SymmetricEigen};
+        let n = w.len();
+        let mut d = DMatrix::<f64>::zeros(n, n);
+        for (v, (i, j)) in a.iter() {
+            d[(i, j)] = *v;
+        }
+        let l = d.cholesky().expect("A is SPD").l();
+        let linv = l.clone().try_inverse().expect("invertible");
+        let c = &linv
+            * DMatrix::from_diagonal(&nalgebra::DVector::from_vec(w.to_vec()))
+            * linv.transpose();
+        let e = SymmetricEigen::new(0.5 * (&c + c.transpose()));
+        let top = (0..n)
+            .max_by(|&x, &y| e.eigenvalues[x].total_cmp(&e.eigenvalues[y]))
+            .unwrap();
+        let f = linv.transpose() * e.eigenvectors.column(top);
+        (1.0 / e.eigenvalues[top], f.iter().copied().collect())
+    }
+
+    #[test]
+    fn matches_a_dense_reference_with_zero_weights() {
+        // A 2-D Laplacian on a 13 × 9 grid with weights that vanish at every seventh node and
+        // along the first row, vary by a factor of ten elsewhere (like ũ/ū near walls), and
+        // a second mode close to the first (the long side is 13/9 of the short one).
+        let (nx, ny) = (13, 9);
+        let n = nx * ny;
+        let a = laplace_2d(nx, ny);
+        let w: Vec<f64> = (0..n)
+            .map(|k| {
+                let (i, j) = ((k % nx) as f64 + 1.0, (k / nx) as f64 + 1.0);
+                if k % 7 == 3 || k < nx {
+                    0.0
+                } else {
+                    0.1 + (i * (nx as f64 + 1.0 - i) * j * (ny as f64 + 1.0 - j)) / 400.0
+                }
+            })
+            .collect();
+        let (lambda, mode) = dense_smallest(&a, &w);
+        let jacobi = Jacobi::new(&a);
+        let inner = InnerCg::new(
+            &a,
+            &Identity,
+            CgParams {
+                tolerance: 1e-2,
+                ..Default::default()
+            },
         );
+        let pres: [(&str, &dyn Preconditioner); 2] = [("jacobi", &jacobi), ("inner cg", &inner)];
+        for (name, pre) in pres {
+            for block in [1, 2] {
+                let mut f = vec![1.0; n];
+                let params = EigenParams {
+                    block,
+                    tolerance: 1e-7,
+                    ..Default::default()
+                };
+                let info = smallest_eigenpair(&a, pre, &w, &mut f, &[], &params, "test").unwrap();
+                let err = (info.eigenvalue - lambda).abs() / lambda;
+                assert!(
+                    err < 1e-11,
+                    "{name}, block {block}: {} vs {lambda}",
+                    info.eigenvalue
+                );
+                // Same mode: |cos| of the A-angle between the vectors is 1.
+                let mut af = vec![0.0; n];
+                a.apply(&f, &mut af);
+                let mut am = vec![0.0; n];
+                a.apply(&mode, &mut am);
+                let cos = dot(&mode, &af) / (dot(&f, &af) * dot(&mode, &am)).sqrt();
+                assert!(
+                    (cos.abs() - 1.0).abs() < 1e-10,
+                    "{name}, block {block}: {cos}"
+                );
+                assert!(info.relative_residual <= 1e-7);
+            }
+        }
     }
 
     #[test]
@@ -579,17 +995,20 @@ mod tests {
         let a = laplace_1d(n);
         let w = vec![1.0; n];
         let mut f = vec![1.0; n];
-        let mut solve = |b: &[f64], x: &mut [f64], p: &CgParams| pcg(&a, &Identity, b, x, p, "cg");
         let params = EigenParams {
             max_iterations: 1,
             ..Default::default()
         };
-        let e = smallest_eigenpair(&w, &mut f, &mut solve, &params, "test").unwrap_err();
+        let e = smallest_eigenpair(&a, &Identity, &w, &mut f, &[], &params, "test").unwrap_err();
         assert!(
             matches!(e, Error::NotConverged { iterations: 1, .. }),
             "{e}"
         );
         assert!(e.to_string().contains("relative residual"));
+        // A start without weight is refused, not iterated.
+        let mut f = vec![0.0; n];
+        let e = smallest_eigenpair(&a, &Identity, &w, &mut f, &[], &params, "test").unwrap_err();
+        assert!(e.to_string().contains("no weight"), "{e}");
     }
 
     #[test]

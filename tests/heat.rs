@@ -1,9 +1,12 @@
 //! Fully developed laminar heat transfer: Nu_H1 and Nu_T against exact and tabulated values at
-//! the default grid, and the observed order of Nu_H1.
+//! the default grid, the observed order of Nu_H1, the iteration counts of the two solves on the
+//! shipped shapes, and agreement between the solver paths.
 
 use canalis::geometry::builtin::parse_builtin;
+use canalis::geometry::shapefile::load_shape_file;
+use canalis::geometry::Shape;
 use canalis::grid::Grid;
-use canalis::pipeline::{solve_unit, HeatFigures, UnitOptions, DEFAULT_CELLS};
+use canalis::pipeline::{solve_unit, HeatFigures, Method, UnitOptions, DEFAULT_CELLS};
 
 fn heat(spec: &str, cells: usize) -> HeatFigures {
     let s = parse_builtin(spec).expect("builtin");
@@ -97,4 +100,97 @@ fn nusselt_h1_converges_at_second_order() {
     let p = ((n[0] - n[1]) / (n[1] - n[2])).log2();
     println!("ellipse Nu_H1 {n:?}, observed order {p:.2}");
     assert!(p >= 1.8, "{p}");
+}
+
+fn shape_heat(s: &Shape, cells: usize, method: Method) -> HeatFigures {
+    let (lo, hi) = s.bbox();
+    let opts = UnitOptions {
+        method,
+        ..UnitOptions::default()
+    };
+    let sol = solve_unit(s, Grid::covering(lo, hi, cells), true, &opts).expect("solve");
+    sol.heat.expect("heat transfer is on by default")
+}
+
+fn shipped(name: &str) -> Shape {
+    let path = format!("{}/shapes/{name}.toml", env!("CARGO_MANIFEST_DIR"));
+    load_shape_file(std::path::Path::new(&path)).expect("shipped shape")
+}
+
+const SHIPPED: [&str; 7] = [
+    "cold_plate_channel",
+    "d_section",
+    "eccentric_annulus",
+    "finned_tube",
+    "heat_exchanger_fin",
+    "mould_slot",
+    "twin_bore",
+];
+
+#[test]
+fn issue_3_heat_transfer_needs_few_iterations_on_the_shipped_shapes() {
+    // Issue 3 asks the whole default solve of a shipped example to stay fast; the heat-transfer
+    // part does when the Nu_H1 solve takes about as many multigrid CG iterations as a flow
+    // solve and LOBPCG few steps (counts are deterministic; times belong to the bench).
+    // Measured at the default grid: Nu_H1 8–9 iterations, Nu_T 4–8 steps (the eccentric
+    // annulus, whose two lowest modes are close, needs the most).
+    for name in SHIPPED {
+        let h = shape_heat(&shipped(name), DEFAULT_CELLS, Method::Multigrid);
+        let e = &h.eigen;
+        println!(
+            "{name:20} Nu_H1 {} iterations, Nu_T {} steps, {} V-cycles, residual {:.1e}",
+            h.h1_iterations, e.iterations, e.preconditioner_applications, e.relative_residual
+        );
+        assert!(h.h1_iterations <= 10, "{name}: {}", h.h1_iterations);
+        assert!(e.iterations <= 10, "{name}: {e:?}");
+        assert!(
+            e.preconditioner_applications <= e.iterations + 1,
+            "{name}: {e:?}"
+        );
+        assert!(e.relative_residual <= 1e-5, "{name}: {e:?}");
+        // The residual falls every step (a locally optimal method on an SPD pencil).
+        for pair in e.residuals.windows(2) {
+            assert!(pair[1] < pair[0], "{name}: {:?}", e.residuals);
+        }
+    }
+}
+
+#[test]
+fn nusselt_numbers_agree_between_solver_paths_and_repeat_exactly() {
+    // The Jacobi path (CSR matrix, LOBPCG preconditioned by inner Jacobi CG) against the
+    // multigrid path (grid operator, V-cycle): the same discrete problems, so the same numbers
+    // to the solvers' tolerances (flow 1e-10, eigen-residual 1e-5, whose eigenvalue error is
+    // about its square; common practice, no source). The eccentric annulus has close low modes,
+    // the twin bore two passages. A second multigrid run repeats the first to the last bit.
+    let annulus = parse_builtin("annulus:do=20mm,di=10mm,offset=2mm").expect("builtin");
+    for (name, s) in [("annulus", annulus), ("twin_bore", shipped("twin_bore"))] {
+        let mg = shape_heat(&s, 120, Method::Multigrid);
+        let jc = shape_heat(&s, 120, Method::Jacobi);
+        let again = shape_heat(&s, 120, Method::Multigrid);
+        let dt = (mg.nusselt_t - jc.nusselt_t).abs() / mg.nusselt_t;
+        let dh = (mg.nusselt_h1 - jc.nusselt_h1).abs() / mg.nusselt_h1;
+        println!(
+            "{name}: Nu_T {} vs {} ({dt:.1e}), Nu_H1 {dh:.1e}",
+            mg.nusselt_t, jc.nusselt_t
+        );
+        assert!(
+            dt < 1e-8,
+            "{name}: Nu_T {} vs {}",
+            mg.nusselt_t,
+            jc.nusselt_t
+        );
+        assert!(
+            dh < 1e-8,
+            "{name}: Nu_H1 {} vs {}",
+            mg.nusselt_h1,
+            jc.nusselt_h1
+        );
+        assert_eq!(mg.nusselt_t.to_bits(), again.nusselt_t.to_bits(), "{name}");
+        assert_eq!(
+            mg.nusselt_h1.to_bits(),
+            again.nusselt_h1.to_bits(),
+            "{name}"
+        );
+        assert_eq!(mg.eigen, again.eigen, "{name}");
+    }
 }

@@ -3,7 +3,9 @@
 //! Owns: reading a PNG, BMP or TIFF (through the `image` crate), the fluid/solid decision per
 //! pixel, the mapping of pixels to metres, the [`Domain`] of a mask (inside test, grid-line
 //! crossings of the pixel faces, fixed lattice of pixel centres) and the sub-pixel estimate of the
-//! wetted walls.
+//! wetted walls; also each pixel's grey level as a distance to the threshold ([`Mask::phi`], what
+//! `super::trace` traces), the options `--mask-mode` and `--min-feature`, and the dropping of
+//! specks ([`Mask::drop_specks`]: connected components, fluid 4-connected, solid 8-connected).
 //!
 //! Coordinates: x to the right, y up, metres. With `p` the pixel size and `H` the image height,
 //! pixel (col, row), row 0 at the top of the image, covers x ∈ [col·p, (col+1)·p] and
@@ -103,6 +105,94 @@ impl FluidColour {
     }
 }
 
+/// How the walls of a mask reach the solver.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum MaskMode {
+    /// The grey levels traced into closed polylines at the threshold (`super::trace`), solved
+    /// like a shape file on any grid.
+    #[default]
+    Traced,
+    /// The staircase of the fluid pixels on the pixel grid (this module's [`Domain`]).
+    Pixels,
+}
+
+impl MaskMode {
+    /// "traced" or "pixels", as on the command line.
+    pub fn name(self) -> &'static str {
+        match self {
+            MaskMode::Traced => "traced",
+            MaskMode::Pixels => "pixels",
+        }
+    }
+}
+
+/// The smallest connected feature of a mask that is kept (`--min-feature`): fluid specks, and
+/// solid specks inside the fluid, of a smaller area are dropped.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum MinFeature {
+    /// An area in pixels.
+    Pixels(f64),
+    /// An area in m².
+    Area(f64),
+}
+
+/// Default of `--min-feature`: specks of fewer than 8 pixels (a blob under about 3 × 3 pixels,
+/// which the image cannot resolve anyway: a disc 10 pixels across is already off by several
+/// per cent in perimeter) are scanning noise rather than passages.
+pub const DEFAULT_MIN_FEATURE_PIXELS: f64 = 8.0;
+
+impl Default for MinFeature {
+    fn default() -> Self {
+        MinFeature::Pixels(DEFAULT_MIN_FEATURE_PIXELS)
+    }
+}
+
+impl MinFeature {
+    /// Parses `--min-feature`: `12px` (pixels), an area such as `0.01mm2` (units m2, cm2, mm2,
+    /// um2, in2; `mm^2` and `mm²` also read), or `0` (keep everything). A bare non-zero number
+    /// is refused, since pixels and square metres differ by many orders of magnitude.
+    pub fn parse(text: &str) -> Result<MinFeature> {
+        let param = "--min-feature";
+        let (v, unit) = crate::units::split_number(text).ok_or_else(|| {
+            Error::param(
+                param,
+                format!("'{text}' does not start with a number (e.g. 10px or 0.01mm2)"),
+            )
+        })?;
+        if !(v.is_finite() && v >= 0.0) {
+            return Err(Error::param(
+                param,
+                format!("'{text}' must be a non-negative area"),
+            ));
+        }
+        let unit = unit.replace("^2", "2").replace('²', "2");
+        let length = |u: &str| crate::units::length_unit(u);
+        match unit.as_str() {
+            "px" | "pixels" | "pixel" => Ok(MinFeature::Pixels(v)),
+            "" if v == 0.0 => Ok(MinFeature::Pixels(0.0)),
+            "" => Err(Error::param(
+                param,
+                format!("'{text}' needs a unit: pixels (e.g. {v}px) or an area (e.g. {v}mm2)"),
+            )),
+            u => match u.strip_suffix('2').and_then(length) {
+                Some(f) => Ok(MinFeature::Area(v * f * f)),
+                None => Err(Error::param(
+                    param,
+                    format!("unknown unit '{u}' (use px, m2, cm2, mm2, um2 or in2)"),
+                )),
+            },
+        }
+    }
+
+    /// The area in pixels for pixels of `pixel` metres.
+    pub fn pixels(self, pixel: f64) -> f64 {
+        match self {
+            MinFeature::Pixels(n) => n,
+            MinFeature::Area(a) => a / (pixel * pixel),
+        }
+    }
+}
+
 /// How to read a mask image.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct MaskOptions {
@@ -114,6 +204,10 @@ pub struct MaskOptions {
     /// Physical size of one (square) pixel, metres. The default of 1 m is a placeholder: callers
     /// set it from `--pixel`.
     pub pixel: f64,
+    /// Traced sub-pixel walls (default) or the pixel staircase.
+    pub mode: MaskMode,
+    /// Specks below this area are dropped ([`Mask::drop_specks`]).
+    pub min_feature: MinFeature,
 }
 
 impl Default for MaskOptions {
@@ -122,6 +216,8 @@ impl Default for MaskOptions {
             fluid: FluidColour::Dark,
             threshold: 128,
             pixel: 1.0,
+            mode: MaskMode::default(),
+            min_feature: MinFeature::default(),
         }
     }
 }
@@ -134,6 +230,12 @@ pub struct Mask {
     pixel: f64,
     /// Row-major, row 0 = top of the image.
     fluid: Vec<bool>,
+    /// The grey level as a signed distance to the threshold, φ = f − level with f the fluid
+    /// fraction in [0, 1] (1 − luma/255 for dark fluid, luma/255 for light); fluid ⇔ φ > 0,
+    /// exactly as `fluid`. Row-major like `fluid`.
+    phi: Vec<f32>,
+    /// The threshold as a fluid fraction (f at the wall).
+    level: f64,
     count: usize,
     /// Extent of the fluid pixels: col_min, col_max, row_min, row_max (inclusive).
     extent: [usize; 4],
@@ -214,22 +316,70 @@ impl Mask {
         let la = img.to_luma_alpha8();
         let (w, h) = (la.width() as usize, la.height() as usize);
         let t = opts.threshold;
-        let fluid: Vec<bool> = la
+        // The level sits half-way between the last fluid and the first solid luma, so that
+        // φ = f − level is never zero and φ > 0 is exactly the pixel test (dark fluid: luma < t;
+        // light fluid: luma ≥ t).
+        let tl = t as f32 - 0.5;
+        let level = match opts.fluid {
+            FluidColour::Dark => 1.0 - tl as f64 / 255.0,
+            FluidColour::Light => tl as f64 / 255.0,
+        };
+        let phi: Vec<f32> = la
             .pixels()
             .map(|px| {
                 let [luma, alpha] = px.0;
-                alpha != 0
-                    && match opts.fluid {
-                        FluidColour::Dark => luma < t,
-                        FluidColour::Light => luma >= t,
-                    }
+                if alpha == 0 {
+                    // Fully transparent: solid whatever its colour.
+                    return -0.5;
+                }
+                match opts.fluid {
+                    FluidColour::Dark => (tl - luma as f32) / 255.0,
+                    FluidColour::Light => (luma as f32 - tl) / 255.0,
+                }
             })
             .collect();
         let rule = format!(
             "at threshold {t} (fluid = {}); check --threshold or --mask-fluid",
             opts.fluid.name()
         );
-        Self::build(w, h, opts.pixel, fluid, origin, &rule)
+        Self::build(w, h, opts.pixel, phi, level, origin, &rule)
+    }
+
+    /// Builds a mask from a fluid fraction `f(col, row)` in [0, 1] (row 0 at the top; for
+    /// tests and generated shapes, e.g. the exact pixel coverage of a curve): fluid where
+    /// f > `level`, the traced wall at f = `level`.
+    pub fn from_fraction(
+        width: usize,
+        height: usize,
+        pixel: f64,
+        level: f64,
+        f: impl Fn(usize, usize) -> f64,
+    ) -> Result<(Mask, Vec<String>)> {
+        check_pixel(pixel)?;
+        if !(level.is_finite() && level > 0.0 && level < 1.0) {
+            return Err(Error::param(
+                "mask level",
+                format!("the level must lie strictly between 0 and 1, it is {level}"),
+            ));
+        }
+        let n = width.checked_mul(height).ok_or_else(|| {
+            Error::param(
+                "mask size",
+                format!("{width} × {height} pixels is too large"),
+            )
+        })?;
+        let mut phi = Vec::with_capacity(n);
+        for row in 0..height {
+            for col in 0..width {
+                let v = f(col, row);
+                phi.push(if v.is_finite() {
+                    (v.clamp(0.0, 1.0) - level) as f32
+                } else {
+                    -level as f32
+                });
+            }
+        }
+        Self::build(width, height, pixel, phi, level, "generated mask", "")
     }
 
     /// Reads and decodes a mask image (PNG, BMP or TIFF; the format is taken from the content,
@@ -280,20 +430,21 @@ impl Mask {
                 format!("{width} × {height} pixels is too large"),
             )
         })?;
-        let mut fluid = Vec::with_capacity(n);
+        let mut phi = Vec::with_capacity(n);
         for row in 0..height {
             for col in 0..width {
-                fluid.push(f(col, row));
+                phi.push(if f(col, row) { 0.5 } else { -0.5 });
             }
         }
-        Self::build(width, height, pixel, fluid, "generated mask", "")
+        Self::build(width, height, pixel, phi, 0.5, "generated mask", "")
     }
 
     fn build(
         width: usize,
         height: usize,
         pixel: f64,
-        fluid: Vec<bool>,
+        phi: Vec<f32>,
+        level: f64,
         origin: &str,
         rule: &str,
     ) -> Result<(Mask, Vec<String>)> {
@@ -306,19 +457,8 @@ impl Mask {
                 "the image is empty ({width} × {height} pixels)"
             )));
         }
-        let mut count = 0;
-        let mut extent = [usize::MAX, 0, usize::MAX, 0];
-        for row in 0..height {
-            for col in 0..width {
-                if fluid[row * width + col] {
-                    count += 1;
-                    extent[0] = extent[0].min(col);
-                    extent[1] = extent[1].max(col);
-                    extent[2] = extent[2].min(row);
-                    extent[3] = extent[3].max(row);
-                }
-            }
-        }
+        let fluid: Vec<bool> = phi.iter().map(|&v| v > 0.0).collect();
+        let (count, extent) = census(&fluid, width, height);
         if count == 0 {
             let sep = if rule.is_empty() { "" } else { " " };
             return Err(err(format!("the image has no fluid pixels{sep}{rule}")));
@@ -328,6 +468,8 @@ impl Mask {
             height,
             pixel,
             fluid,
+            phi,
+            level,
             count,
             extent,
         };
@@ -384,6 +526,106 @@ impl Mask {
     /// Area of the fluid pixels, m² (the staircase domain the solver sees).
     pub fn fluid_area(&self) -> f64 {
         self.count as f64 * self.pixel * self.pixel
+    }
+
+    /// The grey level of every pixel as φ = f − [`Mask::level`] (f the fluid fraction in
+    /// [0, 1]), row-major, row 0 at the top; fluid ⇔ φ > 0, exactly as [`Mask::fluid`].
+    pub fn phi(&self) -> &[f32] {
+        &self.phi
+    }
+
+    /// The threshold as a fluid fraction: the traced wall is the iso-line f = level.
+    pub fn level(&self) -> f64 {
+        self.level
+    }
+
+    /// Drops connected specks smaller than `min_pixels` pixels: fluid regions (4-connected)
+    /// become solid, solid regions (8-connected) that do not touch the image border become
+    /// fluid. The grey levels of a dropped speck are mirrored about the level (φ → −φ), so the
+    /// traced walls lose it too. Returns the warning that says how many specks were dropped and
+    /// the largest of them, or None when there was none. Refuses (naming `--min-feature`) to
+    /// drop every fluid region.
+    pub fn drop_specks(&mut self, min_pixels: f64, origin: &str) -> Result<Option<String>> {
+        if min_pixels.is_nan() || min_pixels <= 1.0 {
+            return Ok(None);
+        }
+        let (w, h) = (self.width, self.height);
+        let small = |n: usize| (n as f64) < min_pixels;
+        // Fluid specks first, then the solid specks of what is left (so a fluid speck inside a
+        // solid speck goes with it).
+        let mut dropped = [0usize; 2];
+        let mut largest = [0usize; 2];
+        for (kind, want) in [(0usize, true), (1, false)] {
+            let (label, sizes, border) = components(&self.fluid, w, h, want);
+            if want && !sizes.is_empty() && sizes.iter().all(|&n| small(n)) {
+                let largest = sizes.iter().copied().max().unwrap_or(0);
+                return Err(Error::param(
+                    "--min-feature",
+                    format!(
+                        "{origin}: every fluid region is smaller than {min_pixels} pixels (the \
+                         largest has {largest}); lower --min-feature"
+                    ),
+                ));
+            }
+            let drop: Vec<bool> = sizes
+                .iter()
+                .zip(&border)
+                // Solid specks must lie inside the fluid: not on the image border.
+                .map(|(&n, &b)| small(n) && (want || !b))
+                .collect();
+            for (id, &n) in sizes.iter().enumerate() {
+                if drop[id] {
+                    dropped[kind] += 1;
+                    largest[kind] = largest[kind].max(n);
+                }
+            }
+            for k in 0..self.fluid.len() {
+                if self.fluid[k] == want && drop[label[k] as usize] {
+                    self.fluid[k] = !want;
+                    self.phi[k] = -self.phi[k];
+                }
+            }
+        }
+        if dropped == [0, 0] {
+            return Ok(None);
+        }
+        let (count, extent) = census(&self.fluid, w, h);
+        self.count = count;
+        self.extent = extent;
+        let p2 = self.pixel * self.pixel;
+        let mut parts = Vec::new();
+        for (kind, what, place) in [(0, "fluid", ""), (1, "solid", " inside the fluid")] {
+            if dropped[kind] > 0 {
+                parts.push(format!(
+                    "{} {what} speck{}{place} (the largest {} pixel{}, {:.3e} m²)",
+                    dropped[kind],
+                    if dropped[kind] == 1 { "" } else { "s" },
+                    largest[kind],
+                    if largest[kind] == 1 { "" } else { "s" },
+                    largest[kind] as f64 * p2
+                ));
+            }
+        }
+        Ok(Some(format!(
+            "{origin}: dropped {} smaller than --min-feature ({min_pixels} pixels = {:.3e} m²)",
+            parts.join(" and "),
+            min_pixels * p2
+        )))
+    }
+
+    /// The sub-pixel wall estimate of every boundary face (module documentation, steps 1–5),
+    /// used by the traced walls of binary images: (twice the face midpoint, estimated wall
+    /// point), pixel units with x right and y up (pixel (x, y) covers [x, x+1] × [y, y+1]).
+    pub fn face_wall_points(&self) -> Vec<([i64; 2], Point)> {
+        let mut out = Vec::new();
+        for chain in self.trace() {
+            let est = estimate(&chain, &|x, y| self.fluid_up(x, y));
+            for (&(v, k), e) in chain.edges.iter().zip(&est) {
+                let d = STEP[k as usize];
+                out.push(([2 * v[0] + d[0], 2 * v[1] + d[1]], e.point));
+            }
+        }
+        out
     }
 
     /// Fluid pixels on the outermost rows and columns.
@@ -533,6 +775,77 @@ impl Mask {
         }
         chains
     }
+}
+
+/// Number of fluid pixels and their extent: col_min, col_max, row_min, row_max (inclusive).
+fn census(fluid: &[bool], width: usize, height: usize) -> (usize, [usize; 4]) {
+    let mut count = 0;
+    let mut extent = [usize::MAX, 0, usize::MAX, 0];
+    for row in 0..height {
+        for col in 0..width {
+            if fluid[row * width + col] {
+                count += 1;
+                extent[0] = extent[0].min(col);
+                extent[1] = extent[1].max(col);
+                extent[2] = extent[2].min(row);
+                extent[3] = extent[3].max(row);
+            }
+        }
+    }
+    (count, extent)
+}
+
+/// Labels the connected components of the pixels with `fluid[k] == want`: 4-connected for fluid,
+/// 8-connected for solid (the complement of 4-connected fluid; two solid pixels that touch at a
+/// corner between two fluid pixels do meet there, as no flow passes a pixel corner). Returns the
+/// label of every pixel (u32::MAX for the other kind), the size of each component and whether it
+/// touches the image border.
+fn components(
+    fluid: &[bool],
+    width: usize,
+    height: usize,
+    want: bool,
+) -> (Vec<u32>, Vec<usize>, Vec<bool>) {
+    let mut label = vec![u32::MAX; fluid.len()];
+    let mut sizes = Vec::new();
+    let mut border = Vec::new();
+    let mut stack = Vec::new();
+    let diagonal = !want;
+    for start in 0..fluid.len() {
+        if fluid[start] != want || label[start] != u32::MAX {
+            continue;
+        }
+        let id = sizes.len() as u32;
+        let (mut size, mut touches) = (0usize, false);
+        label[start] = id;
+        stack.push(start);
+        while let Some(k) = stack.pop() {
+            size += 1;
+            let (col, row) = ((k % width) as i64, (k / width) as i64);
+            if col == 0 || row == 0 || col + 1 == width as i64 || row + 1 == height as i64 {
+                touches = true;
+            }
+            for dr in -1..=1i64 {
+                for dc in -1..=1i64 {
+                    if (dr == 0 && dc == 0) || (!diagonal && dr != 0 && dc != 0) {
+                        continue;
+                    }
+                    let (c, r) = (col + dc, row + dr);
+                    if c < 0 || r < 0 || c >= width as i64 || r >= height as i64 {
+                        continue;
+                    }
+                    let m = r as usize * width + c as usize;
+                    if fluid[m] == want && label[m] == u32::MAX {
+                        label[m] = id;
+                        stack.push(m);
+                    }
+                }
+            }
+        }
+        sizes.push(size);
+        border.push(touches);
+    }
+    (label, sizes, border)
 }
 
 fn check_pixel(pixel: f64) -> Result<()> {

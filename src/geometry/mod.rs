@@ -14,6 +14,7 @@ pub mod builtin;
 pub mod mask;
 pub mod shapefile;
 pub mod svg;
+pub mod trace;
 
 use crate::error::{Error, Result};
 use std::f64::consts::PI;

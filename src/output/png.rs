@@ -19,6 +19,9 @@
 //! published. Series colours: the Okabe–Ito palette (Okabe & Ito 2008, "Color Universal
 //! Design"), distinguishable with the common colour-vision deficiencies.
 //!
+//! With several passages the velocity and temperature maps carry each passage's number (the
+//! order of the report's `passages` array) in a white disc at its centroid.
+//!
 //! Invariant: computes no physics; all numbers come from the outcome through [`Scale`].
 
 use super::{display_unit, fields, Scale};
@@ -895,6 +898,94 @@ fn paint_section(cv: &mut Canvas, view: &View, field: &Field, colour: impl Fn(Po
     }
 }
 
+/// Where to write each passage's number (in the order of `passages`): its centroid when that
+/// lies in the passage, else (a ring round a core, a bent channel) the passage's fastest node,
+/// which is well inside it.
+fn passage_anchors(o: &Outcome) -> Vec<Point> {
+    let c = &o.unit.classified;
+    let g = &c.grid;
+    let (label, count) = crate::post::passage_labels(c);
+    let mut sum = vec![[0.0f64; 2]; count];
+    let mut nodes = vec![0usize; count];
+    let mut fastest = vec![(f64::NEG_INFINITY, [0.0f64; 2]); count];
+    for (q, &k) in o.unit.numbering.node_of.iter().enumerate() {
+        let l = label[k];
+        if l == u32::MAX {
+            continue;
+        }
+        let (i, j) = g.ij(k);
+        let x = g.node(i, j);
+        let l = l as usize;
+        sum[l] = [sum[l][0] + x[0], sum[l][1] + x[1]];
+        nodes[l] += 1;
+        if o.unit.u[q] > fastest[l].0 {
+            fastest[l] = (o.unit.u[q], x);
+        }
+    }
+    let mean: Vec<Point> = (0..count)
+        .map(|l| {
+            let n = nodes[l].max(1) as f64;
+            [sum[l][0] / n, sum[l][1] / n]
+        })
+        .collect();
+    o.unit
+        .passages
+        .iter()
+        .map(|p| {
+            let d2 = |a: Point| (a[0] - p.centroid[0]).powi(2) + (a[1] - p.centroid[1]).powi(2);
+            let Some(l) = (0..count).min_by(|&a, &b| d2(mean[a]).total_cmp(&d2(mean[b]))) else {
+                return p.centroid;
+            };
+            let i = ((p.centroid[0] - g.origin[0]) / g.h).round();
+            let j = ((p.centroid[1] - g.origin[1]) / g.h).round();
+            let inside = i >= 0.0
+                && j >= 0.0
+                && (i as usize) < g.nx
+                && (j as usize) < g.ny
+                && label[g.index(i as usize, j as usize)] == l as u32;
+            if inside {
+                p.centroid
+            } else {
+                fastest[l].1
+            }
+        })
+        .collect()
+}
+
+/// The passage numbers (1-based, the order of the report's `passages`) in white discs with a
+/// dark ring, legible on any colour of the map; only when there is more than one passage.
+fn passage_numbers(cv: &mut Canvas, view: &View, o: &Outcome, fs: f64) {
+    if o.unit.passages.len() < 2 {
+        return;
+    }
+    for (k, at) in passage_anchors(o).into_iter().enumerate() {
+        let (x, y) = view.px(at);
+        let text = format!("{}", k + 1);
+        let r = (0.5 * cv.text_width(&text, fs) + 0.35 * fs).max(0.75 * fs);
+        for py in (y - r - 1.0).floor() as i64..=(y + r + 1.0).ceil() as i64 {
+            for px in (x - r - 1.0).floor() as i64..=(x + r + 1.0).ceil() as i64 {
+                let d = ((px as f64 + 0.5 - x).powi(2) + (py as f64 + 0.5 - y).powi(2)).sqrt();
+                cv.blend(px, py, PAPER, (r + 0.5 - d).clamp(0.0, 1.0) * 0.92);
+            }
+        }
+        let ring = 48;
+        for q in 0..ring {
+            let (a0, a1) = (
+                q as f64 / ring as f64 * std::f64::consts::TAU,
+                (q + 1) as f64 / ring as f64 * std::f64::consts::TAU,
+            );
+            cv.line(
+                (x + r * a0.cos(), y + r * a0.sin()),
+                (x + r * a1.cos(), y + r * a1.sin()),
+                (fs / 12.0).max(1.2),
+                INK,
+                1.0,
+            );
+        }
+        cv.text(x, y, fs, &text, INK, Align::Center);
+    }
+}
+
 /// Sizes derived from the picture width: (font size, margin).
 fn metrics(width: u32) -> (f64, f64) {
     let w = width as f64;
@@ -1020,6 +1111,7 @@ fn map_png(
         let (a, b) = chord(s);
         cv.line(view.px(a), view.px(b), wall_w, INK, 1.0);
     }
+    passage_numbers(&mut cv, &view, o, fs);
 
     // Colour bar.
     let bx = w - margin - bar_region + 0.04 * w;
