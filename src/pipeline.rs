@@ -672,25 +672,31 @@ pub fn run(config: &SolveConfig) -> Result<Outcome> {
 /// [`run`] reporting the solver's iterations to `monitor`.
 pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outcome> {
     let start = Instant::now();
-    let mut outcome = match config.error_estimate {
-        ErrorEstimate::Off => run_once(config, monitor)?,
-        ErrorEstimate::Cheap => {
+    let mut outcome = match (&config.input, config.error_estimate) {
+        (_, ErrorEstimate::Off) => run_once(config, monitor)?,
+        (Input::Mask { path, options }, ErrorEstimate::Cheap) => run_image_study(
+            config,
+            path,
+            options,
+            &study::IMAGE_CHEAP_FACTORS,
+            None,
+            monitor,
+        )?,
+        (Input::Mask { path, options }, ErrorEstimate::Accuracy(tol)) => run_image_study(
+            config,
+            path,
+            options,
+            &study::IMAGE_STUDY_FACTORS,
+            Some(tol),
+            monitor,
+        )?,
+
+        (_, ErrorEstimate::Cheap) => {
             let fine = run_once(config, monitor)?;
             with_cheap_estimate(config, fine, monitor)
         }
-        ErrorEstimate::Accuracy(tol) => run_study(config, tol, monitor)?,
+        (_, ErrorEstimate::Accuracy(tol)) => run_study(config, tol, monitor)?,
     };
-    let estimated = outcome
-        .uncertainty
-        .as_ref()
-        .is_some_and(|u| !matches!(u.kind, study::Kind::Unavailable(_)));
-    if estimated && matches!(config.input, Input::Mask { .. }) {
-        outcome.warnings.push(
-            "the uncertainty (±) is that of the grid on the traced walls; the tracing of the \
-             image itself (pixel size, smoothing) adds an error no grid study sees"
-                .to_string(),
-        );
-    }
     outcome.seconds = start.elapsed().as_secs_f64();
     Ok(outcome)
 }
@@ -1005,14 +1011,19 @@ type Values = Vec<(&'static str, f64, bool)>;
 /// The figures whose uncertainty is estimated: report key, value, and whether an `--accuracy`
 /// study refines until it meets the target (f·Re and the Nusselt numbers).
 fn study_quantities(o: &Outcome) -> Values {
-    let f = &o.unit.figures;
+    unit_quantities(&o.unit)
+}
+
+/// [`study_quantities`] of one unit solution.
+fn unit_quantities(unit: &UnitSolution) -> Values {
+    let f = &unit.figures;
     let mut q = vec![
         ("fanning_f_re", f.fanning_f_re, true),
         ("max_to_mean_velocity", f.max_to_mean_velocity, false),
         ("wall_shear_max_to_mean", f.wall_shear_max_to_mean, false),
         ("wall_shear_min_to_mean", f.wall_shear_min_to_mean, false),
     ];
-    if let Some(h) = &o.unit.heat {
+    if let Some(h) = &unit.heat {
         q.push(("nusselt_h1", h.nusselt_h1, true));
         q.push(("nusselt_t", h.nusselt_t, true));
     }
@@ -1021,6 +1032,14 @@ fn study_quantities(o: &Outcome) -> Values {
 
 /// The per-quantity estimates of a sequence of runs, coarse to fine.
 fn estimates(runs: &[(f64, Values)]) -> Vec<study::Quantity> {
+    estimates_with(runs, study::estimate)
+}
+
+/// [`estimates`] with the estimator `estimate` (e.g. [`study::image_estimate`]).
+fn estimates_with(
+    runs: &[(f64, Values)],
+    estimate: fn(&[Sample]) -> Option<study::Estimate>,
+) -> Vec<study::Quantity> {
     let Some((_, finest)) = runs.last() else {
         return Vec::new();
     };
@@ -1038,7 +1057,7 @@ fn estimates(runs: &[(f64, Values)]) -> Vec<study::Quantity> {
             study::Quantity {
                 key,
                 fine,
-                estimate: study::estimate(&samples),
+                estimate: estimate(&samples),
                 targeted,
             }
         })
@@ -1066,6 +1085,8 @@ fn unavailable(o: &Outcome, why: String) -> Uncertainty {
                 targeted,
             })
             .collect(),
+        images: Vec::new(),
+        image_size: [0, 0],
     }
 }
 
@@ -1115,6 +1136,8 @@ fn with_cheap_estimate(config: &SolveConfig, mut fine: Outcome, monitor: &dyn Mo
                     study::CHEAP_OFFSET[1]
                 ),
                 quantities: estimates(&runs),
+                images: Vec::new(),
+                image_size: [0, 0],
             });
         }
         Err(e) => {
@@ -1242,6 +1265,8 @@ fn run_study(config: &SolveConfig, tol: f64, monitor: &dyn Monitor) -> Result<Ou
             study::STUDY_PLACEMENT[1]
         ),
         quantities,
+        images: Vec::new(),
+        image_size: [0, 0],
     };
     if !reached {
         let worst = uncertainty
@@ -1269,6 +1294,195 @@ fn run_study(config: &SolveConfig, tol: f64, monitor: &dyn Monitor) -> Result<Ou
             o.warnings
                 .push("only two grids: the formal order 2 is assumed, with safety factor 3".into());
         }
+    }
+    o.warnings.extend(uncertainty.warnings());
+    o.uncertainty = Some(uncertainty);
+    Ok(o)
+}
+
+// ---------------------------------------------------------------------------------------------
+// The image-resolution error of a mask.
+//
+// A mask fixes the geometry only to within its pixels: the staircase of `--mask-mode pixels`
+// (whose grid is the pixel grid) and the tracing of a binary image both misplace the wall by a
+// fraction of a pixel, an error no refinement of the grid removes. So for a mask the
+// uncertainty comes from a sequence of images instead of grids: the given image and coarser
+// ones built from it by box-averaging blocks of k × k pixels ([`Mask::coarsened`], pixel size
+// k·p), each solved on a grid in proportion to it (pixels mode: its own pixel grid; traced mode:
+// cells/k for the user's --cells), so that the grid and the image errors shrink together as
+// one spacing h = k·p. The values then go through the same Richardson/GCI mathematics as a grid
+// study ([`study::estimate_of_order`]) with the cautious formal order [`study::IMAGE_ORDER`] = 1
+// of a staircase: oscillation (sign flips, common with staircases) gets the wide bound, an
+// order outside the band F_s = 3. The study cannot refine beyond the given image.
+
+/// Reads a mask as a solve does: [`Mask::load`], then [`Mask::drop_specks`].
+fn load_mask(path: &std::path::Path, options: &MaskOptions) -> Result<Mask> {
+    let (mut mask, _) = Mask::load(path, options)?;
+    let min_pixels = options.min_feature.pixels(mask.pixel());
+    mask.drop_specks(min_pixels, &path.display().to_string())?;
+    Ok(mask)
+}
+
+/// Cells across of the traced-mode grid of an image coarsened by `factor`, for `fine` cells on
+/// the given image: in proportion to its pixels.
+fn image_cells(fine: usize, factor: usize) -> usize {
+    (fine as f64 / factor as f64).round() as usize
+}
+
+/// Solves the image of `mask` coarsened by `factor` (flow, and heat transfer when asked for) on
+/// the grid of [`image_cells`] (pixels mode: its pixel grid). Returns its spacing h (the coarse
+/// pixel size), the cells across of its grid and its figures.
+fn solve_image(
+    config: &SolveConfig,
+    mask: &Mask,
+    mode: MaskMode,
+    factor: usize,
+    fine_cells: usize,
+    monitor: &dyn Monitor,
+) -> Result<(f64, usize, Values)> {
+    let coarse = mask.coarsened(factor)?;
+    let h = coarse.pixel();
+    let (domain, exact_wall, _) = mask_domain(coarse, mode);
+    let grid = match domain.lattice() {
+        Some(l) => Grid::from_lattice(l),
+        None => {
+            let cells = image_cells(fine_cells, factor);
+            if cells < 8 {
+                return Err(Error::param(
+                    "--cells",
+                    format!("the image coarsened {factor} times would have only {cells} cells"),
+                ));
+            }
+            let (lo, hi) = domain.bbox();
+            match config.placement {
+                Some(p) => Grid::covering_placed(lo, hi, cells, p),
+                None => Grid::covering_with_offset(lo, hi, cells, config.offset),
+            }
+        }
+    };
+    let cells = grid.cells().0.max(grid.cells().1);
+    let unit = solve_unit_monitored(domain.as_ref(), grid, exact_wall, &config.unit, monitor)?;
+    if unit.numbering.len() < MIN_FLUID_NODES {
+        return Err(Error::param(
+            "--cells",
+            format!(
+                "only {} grid nodes fall in the fluid of the image coarsened {factor} times",
+                unit.numbering.len()
+            ),
+        ));
+    }
+    Ok((h, cells, unit_quantities(&unit)))
+}
+
+/// The run of a mask input with its image-resolution uncertainty: the given image at the
+/// user's grid (for a study at [`study::STUDY_PLACEMENT`]), and the coarser images of
+/// `factors` (coarse to fine, ending with 1, the given image). `target` is the relative
+/// accuracy of `--accuracy`, None for the cheap estimate. A coarser image that cannot be solved
+/// is left out with a warning; with fewer than two images the estimate is not available.
+fn run_image_study(
+    config: &SolveConfig,
+    path: &std::path::Path,
+    options: &MaskOptions,
+    factors: &[usize],
+    target: Option<f64>,
+    monitor: &dyn Monitor,
+) -> Result<Outcome> {
+    if let Some(tol) = target {
+        if !(tol.is_finite() && tol > 0.0 && tol < 1.0) {
+            return Err(Error::param(
+                "--accuracy",
+                format!(
+                    "{tol} is not a relative accuracy; give a fraction between 0 and 1, e.g. 1e-4"
+                ),
+            ));
+        }
+    }
+    let mut fine_config = config.clone();
+    fine_config.error_estimate = ErrorEstimate::Off;
+    if target.is_some() {
+        fine_config.placement = Some(study::STUDY_PLACEMENT);
+    }
+    let mut o = run_once(&fine_config, monitor)?;
+    let mask = load_mask(path, options)?;
+    let fine_cells = config.cells.unwrap_or(DEFAULT_CELLS);
+    let mut runs: Vec<(f64, Values)> = Vec::new();
+    let mut grids = Vec::new();
+    let mut images = Vec::new();
+    for &k in factors.iter().filter(|&&k| k > 1) {
+        match solve_image(&fine_config, &mask, options.mode, k, fine_cells, monitor) {
+            Ok((h, cells, values)) => {
+                runs.push((h, values));
+                grids.push(cells);
+                images.push(k);
+            }
+            Err(e) => o.warnings.push(format!(
+                "the image coarsened {k} times (blocks of {k} × {k} pixels) could not be solved \
+                 and is left out of the uncertainty estimate: {e}"
+            )),
+        }
+    }
+    let g = o.unit.classified.grid.cells();
+    runs.push((mask.pixel(), study_quantities(&o)));
+    grids.push(g.0.max(g.1));
+    images.push(1);
+    let image_size = [mask.width(), mask.height()];
+    if runs.len() < 2 {
+        let why = "no coarser image of the mask could be solved".to_string();
+        o.warnings.push(format!("no uncertainty estimate: {why}"));
+        o.uncertainty = Some(unavailable(&o, why));
+        return Ok(o);
+    }
+    let quantities = estimates_with(&runs, study::image_estimate);
+    let reached = target.is_some_and(|tol| {
+        quantities
+            .iter()
+            .filter(|q| q.targeted)
+            .all(|q| q.estimate.is_some_and(|e| e.relative_uncertainty <= tol))
+    });
+    let kind = match target {
+        Some(target) => study::Kind::Study { target, reached },
+        None => study::Kind::Cheap,
+    };
+    let uncertainty = Uncertainty {
+        kind,
+        grids,
+        placement: match (options.mode, target) {
+            (MaskMode::Pixels, _) => "each image on its own pixel grid".to_string(),
+            (MaskMode::Traced, Some(_)) => format!(
+                "every grid has the box centre ({:.3}, {:.3}) of a cell beyond a node",
+                study::STUDY_PLACEMENT[0],
+                study::STUDY_PLACEMENT[1]
+            ),
+            (MaskMode::Traced, None) => "every grid at the offset of the user's grid".to_string(),
+        },
+        quantities,
+        images,
+        image_size,
+    };
+    if let (Some(tol), false) = (target, reached) {
+        let worst = uncertainty
+            .quantities
+            .iter()
+            .filter(|q| q.targeted)
+            .map(|q| {
+                format!(
+                    "{} {}",
+                    q.key,
+                    q.estimate
+                        .map(|e| format!("{:.1e}", e.relative_uncertainty))
+                        .unwrap_or_else(|| "not estimated".into())
+                )
+            })
+            .collect::<Vec<_>>()
+            .join(", ");
+        o.warnings.push(format!(
+            "--accuracy {tol:.1e} not reached: the image resolution limits it ({} × {} pixels \
+             of {:.3e} m; relative uncertainty {worst}); the study cannot refine beyond the \
+             given image: a finer image of the cross-section is needed",
+            image_size[0],
+            image_size[1],
+            mask.pixel()
+        ));
     }
     o.warnings.extend(uncertainty.warnings());
     o.uncertainty = Some(uncertainty);

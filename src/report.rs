@@ -139,8 +139,8 @@ pub fn json_report(o: &Outcome) -> Value {
 /// The `uncertainty` object: keyed by quantity, each with the keys of ../shared/INTERFACE.md
 /// (`fine`, `extrapolated`, `observed_order`, `relative_uncertainty`, `grids`) and, as
 /// extensions, `estimate` ("study", "cheap", "not available"), `method`, `convergence`,
-/// `order_used`, `safety_factor`, `absolute_uncertainty`, `grid_placement`, and for a study `target`
-/// and `target_reached`.
+/// `order_used`, `safety_factor`, `absolute_uncertainty`, `grid_placement`, for a study `target`
+/// and `target_reached`, and for a mask `image_blocks` (the coarsening factor of each image).
 fn uncertainty_json(u: &Uncertainty) -> Value {
     let method = u.method();
     let mut m = Map::new();
@@ -172,6 +172,9 @@ fn uncertainty_json(u: &Uncertainty) -> Value {
             opt(est.map(|x| x.absolute())),
         );
         e.insert("grid_placement".into(), json!(u.placement));
+        if !u.images.is_empty() {
+            e.insert("image_blocks".into(), json!(u.images));
+        }
         if let Kind::Study { target, reached } = u.kind {
             e.insert("target".into(), json!(target));
             e.insert("targeted".into(), json!(q.targeted));
@@ -279,6 +282,24 @@ pub fn summary(o: &Outcome) -> String {
     );
     if let Some(u) = &o.uncertainty {
         let text = match &u.kind {
+            Kind::Study { target, reached } if !u.images.is_empty() => format!(
+                "image-resolution study on {} images (blocks of {} pixels, grids {} cells \
+                 across), target {target:.0e} {}; order 1 assumed for the staircase",
+                u.images.len(),
+                join(&u.images),
+                join(&u.grids),
+                if *reached {
+                    "reached"
+                } else {
+                    "NOT reached (image resolution)"
+                }
+            ),
+            Kind::Cheap if !u.images.is_empty() => format!(
+                "cheap estimate from coarser images of the mask (blocks of {} pixels, grids {} \
+                 cells across), order 1 assumed, safety factor 3; --accuracy TOL for a study",
+                join(&u.images),
+                join(&u.grids)
+            ),
             Kind::Study { target, reached } => format!(
                 "grid-convergence study on {} grids ({} cells across), target {target:.0e} {}; \
                  GCI with the observed order (Celik et al. 2008)",
@@ -463,4 +484,12 @@ pub fn summary(o: &Outcome) -> String {
     }
     let _ = writeln!(s, "Note: {CAUTION}");
     s
+}
+
+/// Numbers joined with ", ".
+fn join(v: &[usize]) -> String {
+    v.iter()
+        .map(|c| c.to_string())
+        .collect::<Vec<_>>()
+        .join(", ")
 }

@@ -70,6 +70,20 @@ pub const STUDY_RATIO: f64 = 1.5;
 /// 1/1.75² ≈ 1/3 of the fine one.
 pub const CHEAP_RATIO: f64 = 1.75;
 
+/// Formal order assumed for the image-resolution error of a mask: the staircase of a binary
+/// image, or of any image in `--mask-mode pixels`, misplaces the wall by up to half a pixel, an
+/// error of first order in the pixel size (an O(h) perturbation of the boundary moves f·Re by
+/// O(h)); tracing grey levels does better, so order 1 is the cautious assumption.
+pub const IMAGE_ORDER: f64 = 1.0;
+/// Coarsening factors of the images of an `--accuracy` study of a mask, coarse to fine (the
+/// given image is factor 1): ratios 4/3, 3/2 and 2, within the 1.3–2 of Celik et al. (2008).
+pub const IMAGE_STUDY_FACTORS: [usize; 4] = [4, 3, 2, 1];
+/// Coarsening factors of the cheap estimate of a mask: two coarser images, of
+/// blocks of 3 × 3 and 2 × 2 pixels, a third of the fine solve's cost (1/9 + 1/4), like the
+/// grid's cheap estimate; one coarser image alone did not cover the error (see
+/// [`image_estimate`]).
+pub const IMAGE_CHEAP_FACTORS: [usize; 3] = [3, 2, 1];
+
 /// The value of one quantity on one grid of spacing `h`.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Sample {
@@ -183,12 +197,17 @@ fn is_round_off(change: f64, value: f64) -> bool {
 /// The two-grid estimate: formal order assumed, F_s = 3. `fine.h < coarse.h`. None when a value
 /// is not finite or the spacings are not ordered.
 pub fn two_grids(fine: Sample, coarse: Sample) -> Option<Estimate> {
+    two_grids_of_order(fine, coarse, FORMAL_ORDER)
+}
+
+/// [`two_grids`] for a discretisation of formal order `formal` (assumed instead of 2).
+pub fn two_grids_of_order(fine: Sample, coarse: Sample, formal: f64) -> Option<Estimate> {
     if !(fine.value.is_finite() && coarse.value.is_finite() && coarse.h > fine.h && fine.h > 0.0) {
         return None;
     }
     let r = coarse.h / fine.h;
     let e = coarse.value - fine.value;
-    let p = FORMAL_ORDER;
+    let p = formal;
     let fs = SAFETY_FACTOR_CAUTIOUS;
     let rel = fs * (e / fine.value).abs() / (r.powf(p) - 1.0);
     Some(Estimate {
@@ -209,6 +228,20 @@ pub fn two_grids(fine: Sample, coarse: Sample) -> Option<Estimate> {
 /// The three-grid estimate (module notes). `fine.h < medium.h < coarse.h`. None when a value is
 /// not finite or the spacings are not ordered.
 pub fn three_grids(fine: Sample, medium: Sample, coarse: Sample) -> Option<Estimate> {
+    three_grids_of_order(fine, medium, coarse, FORMAL_ORDER)
+}
+
+/// [`three_grids`] for a discretisation of formal order `formal`: the sensible band is
+/// ±25 % around it and the order used is clamped to [0.5, `formal`] (as [`SENSIBLE_ORDER`] and
+/// [`ORDER_CLAMP`] are for order 2).
+pub fn three_grids_of_order(
+    fine: Sample,
+    medium: Sample,
+    coarse: Sample,
+    formal: f64,
+) -> Option<Estimate> {
+    let band = (0.75 * formal, 1.25 * formal);
+    let clamp = (ORDER_CLAMP.0.min(formal), formal);
     let finite = [fine, medium, coarse].iter().all(|s| s.value.is_finite());
     if !(finite && fine.h > 0.0 && medium.h > fine.h && coarse.h > medium.h) {
         return None;
@@ -243,7 +276,7 @@ pub fn three_grids(fine: Sample, medium: Sample, coarse: Sample) -> Option<Estim
         });
     }
     let p_obs = observed_order(e21, e32, r21, r32);
-    let sensible = p_obs.is_some_and(|p| (SENSIBLE_ORDER.0..=SENSIBLE_ORDER.1).contains(&p));
+    let sensible = p_obs.is_some_and(|p| (band.0..=band.1).contains(&p));
     let (fs, behaviour) = if sensible {
         (SAFETY_FACTOR_FITTED, Behaviour::Monotone)
     } else {
@@ -251,9 +284,7 @@ pub fn three_grids(fine: Sample, medium: Sample, coarse: Sample) -> Option<Estim
     };
     // A zero fine change with a non-zero coarse one fixes no order (p_obs None): treat it as an
     // order far above the band, i.e. the formal order with F_s = 3.
-    let p = p_obs
-        .unwrap_or(f64::INFINITY)
-        .clamp(ORDER_CLAMP.0, ORDER_CLAMP.1);
+    let p = p_obs.unwrap_or(f64::INFINITY).clamp(clamp.0, clamp.1);
     let rel = fs * (e21 / phi).abs() / (r21.powf(p) - 1.0);
     Some(Estimate {
         fine: phi,
@@ -269,11 +300,46 @@ pub fn three_grids(fine: Sample, medium: Sample, coarse: Sample) -> Option<Estim
 /// The estimate from a study's samples, ordered coarse to fine: the finest three grids (or
 /// two). None with fewer than two usable samples.
 pub fn estimate(samples: &[Sample]) -> Option<Estimate> {
+    estimate_of_order(samples, FORMAL_ORDER)
+}
+
+/// [`estimate`] for a discretisation of formal order `formal` ([`IMAGE_ORDER`] for the
+/// image-resolution error of a mask).
+pub fn estimate_of_order(samples: &[Sample], formal: f64) -> Option<Estimate> {
     match samples {
         [] | [_] => None,
-        [coarse, fine] => two_grids(*fine, *coarse),
-        [.., coarse, medium, fine] => three_grids(*fine, *medium, *coarse),
+        [coarse, fine] => two_grids_of_order(*fine, *coarse, formal),
+        [.., coarse, medium, fine] => three_grids_of_order(*fine, *medium, *coarse, formal),
     }
+}
+
+/// The estimate of an image-resolution study of a mask, samples coarse to fine (spacing = pixel
+/// size of each image): [`estimate_of_order`] with the formal order [`IMAGE_ORDER`] (three
+/// images: the oscillation bound or the GCI of the finest three), widened to the first-order
+/// envelope max over every coarser image k of F_s·|φ_k − φ₁|/(h_k/h₁ − 1), F_s = 3.
+///
+/// Why the envelope. Staircase and tracing errors are first order with a coefficient that
+/// changes irregularly with the pixel size (where the pixel faces fall on the wall), so the
+/// finest pair alone can happen to agree: measured on binary and anti-aliased circles 100 and
+/// 200 pixels across (tests/uncertainty.rs), the two-image GCI of blocks of 2 × 2 pixels
+/// covered the true f·Re error in only 6 of 8 cases (ratios 0.2–10.6); with the envelope over
+/// blocks of 2 and 3 in all 8 (1.2–10.6), over 2, 3 and 4 in all 8 (3.0–24.6). No order is
+/// fitted to that noise: the envelope assumes order 1 with F_s = 3.
+pub fn image_estimate(samples: &[Sample]) -> Option<Estimate> {
+    let mut e = estimate_of_order(samples, IMAGE_ORDER)?;
+    let fine = samples.last()?;
+    let envelope = samples[..samples.len() - 1]
+        .iter()
+        .map(|s| {
+            SAFETY_FACTOR_CAUTIOUS * ((s.value - fine.value) / fine.value).abs()
+                / (s.h / fine.h - 1.0)
+        })
+        .fold(0.0, f64::max);
+    if envelope > e.relative_uncertainty {
+        e.relative_uncertainty = envelope;
+        e.safety_factor = SAFETY_FACTOR_CAUTIOUS;
+    }
+    Some(e)
 }
 
 /// Cells across of the k-th grid (k = 0 the coarsest) of a study starting at `first`:
@@ -341,6 +407,11 @@ pub struct Uncertainty {
     /// How the grids were laid, in words (the report's `grid_placement` key).
     pub placement: String,
     pub quantities: Vec<Quantity>,
+    /// For a mask: the coarsening factor of each image of an image-resolution study, coarse to
+    /// fine (1 = the given image), and the given image's size in pixels (width, height); empty
+    /// for a study of the grid alone.
+    pub images: Vec<usize>,
+    pub image_size: [usize; 2],
 }
 
 impl Uncertainty {
@@ -351,6 +422,9 @@ impl Uncertainty {
 
     /// One line saying how the estimate was made (the report's `method` key).
     pub fn method(&self) -> String {
+        if !self.images.is_empty() {
+            return self.image_method();
+        }
         match &self.kind {
             Kind::Study { target, .. } => format!(
                 "grid-convergence study towards a relative accuracy of {target:.1e}: Richardson \
@@ -362,6 +436,41 @@ impl Uncertainty {
                 "cheap, one coarser grid ({} cells across), assumed order {FORMAL_ORDER}, \
                  safety factor {SAFETY_FACTOR_CAUTIOUS} (Roache 1994); use --accuracy for a study",
                 self.grids.first().copied().unwrap_or(0)
+            ),
+            Kind::Unavailable(why) => format!("not available: {why}"),
+        }
+    }
+
+    /// [`Uncertainty::method`] of an image-resolution study of a mask.
+    fn image_method(&self) -> String {
+        let [w, h] = self.image_size;
+        let coarse: Vec<String> = self
+            .images
+            .iter()
+            .filter(|&&k| k > 1)
+            .map(|k| format!("{k} × {k}"))
+            .collect();
+        let images = format!(
+            "the mask image ({w} × {h} pixels) and coarser images of it (blocks of {} pixels \
+             averaged, the pixel size scaled alike), each solved on a grid in proportion to its \
+             pixels ({} cells across), so that the image-resolution and grid errors shrink \
+             together",
+            coarse.join(", "),
+            self.grids
+                .iter()
+                .map(|c| c.to_string())
+                .collect::<Vec<_>>()
+                .join(", ")
+        );
+        match &self.kind {
+            Kind::Study { target, .. } => format!(
+                "image-resolution study towards a relative accuracy of {target:.1e}: {images}; \
+                 Richardson extrapolation and the Grid Convergence Index of the finest three \
+                 (Celik et al. 2008; Roache 1994), formal order {IMAGE_ORDER} (staircase)"
+            ),
+            Kind::Cheap => format!(
+                "cheap, image resolution: {images}; assumed order {IMAGE_ORDER}, safety factor \
+                 {SAFETY_FACTOR_CAUTIOUS} (Roache 1994); use --accuracy for a study"
             ),
             Kind::Unavailable(why) => format!("not available: {why}"),
         }
@@ -380,11 +489,17 @@ impl Uncertainty {
     pub fn warnings(&self) -> Vec<String> {
         let mut out = Vec::new();
         let three = self.grids.len() >= 3;
+        let formal = if self.images.is_empty() {
+            FORMAL_ORDER
+        } else {
+            IMAGE_ORDER
+        };
+        let band = (0.75 * formal, 1.25 * formal);
         for q in &self.quantities {
             let Some(e) = &q.estimate else { continue };
             match e.behaviour {
                 Behaviour::Oscillatory => out.push(format!(
-                    "{}: the values on the finest three grids oscillate (the changes flip \
+                    "{}: the values on the finest three grids (or images) oscillate (the changes flip \
                      sign); no order is fitted and the uncertainty is the wider bound 1.5 × \
                      their range ({:.1e} relative)",
                     q.key, e.relative_uncertainty
@@ -396,15 +511,15 @@ impl Uncertainty {
                         .unwrap_or_else(|| "undetermined".to_string());
                     // Above the band the bound uses the formal order with F_s = 3, which is
                     // conservative: no warning, the `convergence` key says it.
-                    if e.observed_order.is_none_or(|p| p < SENSIBLE_ORDER.0) {
+                    if e.observed_order.is_none_or(|p| p < band.0) {
                         out.push(format!(
                             "{}: observed order {fitted} is outside the sensible band {}–{} \
-                             (formal order {FORMAL_ORDER}); the bound uses order {:.2} and \
+                             (formal order {formal}); the bound uses order {:.2} and \
                              safety factor {SAFETY_FACTOR_CAUTIOUS}",
                             q.key,
-                            SENSIBLE_ORDER.0,
-                            SENSIBLE_ORDER.1,
-                            e.order_used.unwrap_or(FORMAL_ORDER)
+                            band.0,
+                            band.1,
+                            e.order_used.unwrap_or(formal)
                         ));
                     }
                 }
