@@ -19,8 +19,8 @@
 //! published. Series colours: the Okabe–Ito palette (Okabe & Ito 2008, "Color Universal
 //! Design"), distinguishable with the common colour-vision deficiencies.
 //!
-//! With several passages the velocity and temperature maps carry each passage's number (the
-//! order of the report's `passages` array) in a white disc at its centroid.
+//! With several passages the velocity, temperature and wall-shear pictures carry each passage's
+//! number (the order of the report's `passages` array) in a white disc at its centroid.
 //!
 //! Invariant: computes no physics; all numbers come from the outcome through [`Scale`].
 
@@ -1191,8 +1191,10 @@ pub fn wall_shear_png(o: &Outcome, scale: &Scale, width: u32) -> Result<Vec<u8>>
     };
     cv.text(margin, margin + 2.1 * fs, fs, &sub, INK, Align::Left);
 
-    // Cross-section with the walls coloured by τ.
+    // Cross-section with the walls coloured by τ (and the passage numbers, in their discs, so
+    // they are not mistaken for the wall numbers beside the walls).
     paint_section(&mut cv, &view, &field, |_| PALE_FLUID);
+    passage_numbers(&mut cv, &view, o, fs);
     let wall_w = (w / 200.0).max(3.0);
     for (s, t) in samples.iter().zip(&tau) {
         let (a, b) = chord(s);
