@@ -562,8 +562,9 @@ impl Mask {
                 return Err(Error::param(
                     "--min-feature",
                     format!(
-                        "{origin}: every fluid region is smaller than {min_pixels} pixels (the \
-                         largest has {largest}); lower --min-feature"
+                        "{origin}: every fluid region is smaller than {} pixels (the \
+                         largest has {largest}); lower --min-feature",
+                        pixels_text(min_pixels)
                     ),
                 ));
             }
@@ -607,8 +608,9 @@ impl Mask {
             }
         }
         Ok(Some(format!(
-            "{origin}: dropped {} smaller than --min-feature ({min_pixels} pixels = {:.3e} m²)",
+            "{origin}: dropped {} smaller than --min-feature ({} pixels = {:.3e} m²)",
             parts.join(" and "),
+            pixels_text(min_pixels),
             min_pixels * p2
         )))
     }
@@ -1469,6 +1471,18 @@ impl Domain for Mask {
             nx: self.width,
             ny: self.height,
         })
+    }
+}
+
+/// A pixel count for messages: whole numbers as such, fractions to one decimal, huge counts
+/// (an area far larger than the image) in scientific notation.
+fn pixels_text(n: f64) -> String {
+    if n >= 1e7 {
+        format!("{n:.3e}")
+    } else if n.fract() == 0.0 {
+        format!("{n:.0}")
+    } else {
+        format!("{n:.1}")
     }
 }
 
