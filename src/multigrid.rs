@@ -16,7 +16,8 @@
 //!   fin or a tiny passage stays exactly as the fine operator has it.
 //! - **Smoother**: on the fine level one red–black Gauss–Seidel sweep before the coarse
 //!   correction and one in the reverse colour order after it (every colour in parallel); on the
-//!   coarse levels a lexicographic sweep forward before and backward after. Post-smoothing is
+//!   coarse levels a banded lexicographic sweep (bands in parallel, then the separator rows between
+//!   them) forward before and backward after. Post-smoothing is
 //!   the adjoint of pre-smoothing, so the V-cycle is a symmetric positive definite operator, as
 //!   CG requires.
 //! - **Storage**: the fine level is the matrix-free [`GridOperator`] (diagonal and a link
@@ -618,58 +619,123 @@ struct SharedMut(*mut f64);
 unsafe impl Sync for SharedMut {}
 unsafe impl Send for SharedMut {}
 
-/// Symmetric Gauss–Seidel on a coarse level: a lexicographic sweep forward (pre-smoothing) or
-/// backward (post-smoothing), each one pass through the 9-point stencils.
+/// Rows per band of the coarse-level sweeps (a separator row follows each band).
+const BAND_ROWS: usize = 48;
+
+/// Symmetric Gauss–Seidel on a coarse level, in an ordering that runs in parallel: the inner
+/// rows are cut into bands of [`BAND_ROWS`] rows with one separator row between neighbouring
+/// bands. The forward sweep (pre-smoothing) takes every band lexicographically, then the
+/// separator rows; the backward sweep (post-smoothing) the exact reverse. The 9-point stencil
+/// couples only neighbouring rows, so two bands never touch each other (only the separators
+/// between them) and two separators never touch: the bands run in parallel, then the
+/// separators. The sweep is Gauss–Seidel for one fixed ordering of the nodes whatever the number
+/// of threads (the bands depend only on the grid), so the numbers do not change with it and
+/// the backward sweep is the adjoint of the forward one: the V-cycle stays symmetric.
 ///
-/// The sum is ordered so that the neighbour updated just before (k − 1 forward, k + 1
-/// backward) enters last: the other seven terms do not wait for it, and the chain from one
+/// Within a row the sum is ordered so that the neighbour updated just before (i − 1 forward,
+/// i + 1 backward) enters last: the other seven terms do not wait for it, and the chain from one
 /// update to the next is one multiply-add and a multiply instead of nine (measured: 12 ns per
-/// node with the terms in stencil order). A four-colour ordering, fully parallel, was tried and
-/// cost two more CG iterations on a disc (12 instead of 10), more than it saved.
+/// node with the terms in stencil order). A four-colour ordering, fully parallel too, was tried
+/// and cost two more CG iterations on a disc (12 instead of 10).
 fn smooth_coarse(l: &Level, b: &[f64], x: &mut [f64], forward: bool) {
+    use rayon::prelude::*;
+    let ny = l.ny;
+    let inner_rows = ny - 2; // rows 1..=ny − 2
+    let stride = BAND_ROWS + 1;
+    let bands = inner_rows.div_ceil(stride);
+    let shared = SharedMut(x.as_mut_ptr());
+    let band_rows = |band: usize| {
+        let first = 1 + band * stride;
+        first..(first + BAND_ROWS).min(ny - 1)
+    };
+    // Separator rows: the row after each band, when it is an inner row.
+    let separators: Vec<usize> = (0..bands)
+        .map(|band| 1 + band * stride + BAND_ROWS)
+        .filter(|&j| j < ny - 1)
+        .collect();
+    let bands_phase = || {
+        (0..bands).into_par_iter().for_each(|band| {
+            let shared = &shared;
+            let rows = band_rows(band);
+            // SAFETY: this task writes only the rows of its band and reads those and the
+            // separator rows next to them, which no task writes in this phase; other bands are
+            // at least one separator row away. All indices lie inside the grid.
+            if forward {
+                for j in rows {
+                    unsafe { sweep_row(l, b, shared.0, j, true) };
+                }
+            } else {
+                for j in rows.rev() {
+                    unsafe { sweep_row(l, b, shared.0, j, false) };
+                }
+            }
+        });
+    };
+    let separators_phase = || {
+        separators.par_iter().for_each(|&j| {
+            let shared = &shared;
+            // SAFETY: separator rows are BAND_ROWS + 1 rows apart, so this task writes row j
+            // and reads rows j ± 1 (band rows), which no task writes in this phase.
+            unsafe { sweep_row(l, b, shared.0, j, forward) };
+        });
+    };
+    if forward {
+        bands_phase();
+        separators_phase();
+    } else {
+        separators_phase();
+        bands_phase();
+    }
+}
+
+/// Gauss–Seidel along inner row j of a coarse level, left to right (`forward`) or right to left.
+///
+/// # Safety
+/// `x` points to the level's vector; no other thread may write rows j − 1, j, j + 1 or read
+/// row j during the call.
+unsafe fn sweep_row(l: &Level, b: &[f64], x: *mut f64, j: usize, forward: bool) {
     let nx = l.nx;
     // The interior stencil: N/S edges, E/W edges, corners.
     let reg = l.regular_parts();
     let regular = reg.is_some();
     let (ey, ex, q, _, inv_r) = reg.unwrap_or((0.0, 0.0, 0.0, 0.0, 0.0));
-    let others = |x: &[f64], k: usize| -> f64 {
+    let at = |k: usize| unsafe { *x.add(k) };
+    let update = |k: usize| {
         let id = l.ids[k];
-        if regular && id == REGULAR_ID {
-            b[k] - ey * (x[k - nx] + x[k + nx])
-                - q * ((x[k - nx - 1] + x[k - nx + 1]) + (x[k + nx - 1] + x[k + nx + 1]))
+        let (s, w, e, inv) = if regular && id == REGULAR_ID {
+            (
+                b[k] - ey * (at(k - nx) + at(k + nx))
+                    - q * ((at(k - nx - 1) + at(k - nx + 1)) + (at(k + nx - 1) + at(k + nx + 1))),
+                ex,
+                ex,
+                inv_r,
+            )
         } else {
             let st = &l.table[id as usize];
-            b[k] - st[0] * x[k - nx - 1]
-                - st[1] * x[k - nx]
-                - st[2] * x[k - nx + 1]
-                - st[6] * x[k + nx - 1]
-                - st[7] * x[k + nx]
-                - st[8] * x[k + nx + 1]
-        }
-    };
-    let along = |k: usize| -> (f64, f64, f64) {
-        let id = l.ids[k];
-        if regular && id == REGULAR_ID {
-            (ex, ex, inv_r)
+            (
+                b[k] - st[0] * at(k - nx - 1)
+                    - st[1] * at(k - nx)
+                    - st[2] * at(k - nx + 1)
+                    - st[6] * at(k + nx - 1)
+                    - st[7] * at(k + nx)
+                    - st[8] * at(k + nx + 1),
+                st[3],
+                st[5],
+                l.inv_table[id as usize],
+            )
+        };
+        let s = if forward {
+            s - e * at(k + 1) - w * at(k - 1)
         } else {
-            let st = &l.table[id as usize];
-            (st[3], st[5], l.inv_table[id as usize])
-        }
+            s - w * at(k - 1) - e * at(k + 1)
+        };
+        unsafe { *x.add(k) = s * inv };
     };
-    // Ring nodes inside this range have 1/d = 0 and stay 0; every read stays in the grid.
-    let inner = nx + 1..l.len() - nx - 1;
+    let row = j * nx;
     if forward {
-        for k in inner {
-            let (w, e, inv) = along(k);
-            let s = others(x, k) - e * x[k + 1] - w * x[k - 1];
-            x[k] = s * inv;
-        }
+        (row + 1..row + nx - 1).for_each(update);
     } else {
-        for k in inner.rev() {
-            let (w, e, inv) = along(k);
-            let s = others(x, k) - w * x[k - 1] - e * x[k + 1];
-            x[k] = s * inv;
-        }
+        (row + 1..row + nx - 1).rev().for_each(update);
     }
 }
 
