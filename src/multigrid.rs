@@ -16,10 +16,9 @@
 //!   fin or a tiny passage stays exactly as the fine operator has it.
 //! - **Smoother**: on the fine level one red–black Gauss–Seidel sweep before the coarse
 //!   correction and one in the reverse colour order after it (every colour in parallel); on the
-//!   coarse levels a banded lexicographic sweep (bands in parallel, then the separator rows between
-//!   them) forward before and backward after. Post-smoothing is
-//!   the adjoint of pre-smoothing, so the V-cycle is a symmetric positive definite operator, as
-//!   CG requires.
+//!   coarse levels a banded lexicographic sweep (bands in parallel, then the separator rows
+//!   between them) forward before and backward after. Post-smoothing is the adjoint of
+//!   pre-smoothing, so the V-cycle is a symmetric positive definite operator, as CG requires.
 //! - **Storage**: the fine level is the matrix-free [`GridOperator`] (diagonal and a link
 //!   bitmask per node); each coarse level stores every distinct stencil once with a 4-byte index
 //!   per node (see [`Level`]), and nearly all of its rows are the interior stencil, which the
