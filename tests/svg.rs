@@ -161,6 +161,15 @@ fn bad_drawings_exit_2_with_a_message() {
             "not an SVG",
         ),
         (
+            // A filled outline whose ends do not meet (issue 7: open paths are bad input).
+            "open.svg",
+            format!(
+                "<svg {SVG_NS} width=\"10mm\" height=\"10mm\" viewBox=\"0 0 10 10\">\
+                 <path d=\"M 1 1 L 9 1 L 9 9 L 1 9\"/></svg>"
+            ),
+            "open path",
+        ),
+        (
             "nounits.svg",
             format!(
                 "<svg {SVG_NS} viewBox=\"0 0 10 10\"><circle cx=\"5\" cy=\"5\" r=\"2\"/></svg>"
@@ -176,6 +185,17 @@ fn bad_drawings_exit_2_with_a_message() {
         assert!(err.contains(name) && err.contains(needle), "{name}: {err}");
         assert!(out.stdout.is_empty(), "{name}: stdout not empty");
     }
+    // An outline drawn back to its start without Z is closed, not open: it solves.
+    let file = write(
+        dir.path(),
+        "backtostart.svg",
+        &format!(
+            "<svg {SVG_NS} width=\"10mm\" height=\"10mm\" viewBox=\"0 0 10 10\">\
+             <path d=\"M 1 1 L 9 1 L 9 9 L 1 9 L 1 1\"/></svg>"
+        ),
+    );
+    let out = run(dir.path(), &["solve", &file, "--json", "--cells", "64"]);
+    assert_eq!(out.status.code(), Some(0), "{}", stderr_of(&out));
     // A file that is not there.
     let out = run(dir.path(), &["solve", "missing.svg"]);
     let err = stderr_of(&out);

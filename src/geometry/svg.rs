@@ -13,7 +13,8 @@
 //! - Within one shape the fill rule (`nonzero` or `evenodd`) decides which subpaths are outer
 //!   boundaries and which are holes: a subpath whose inside is filled and outside is not is a
 //!   region, the reverse a hole, and a subpath with the same state on both sides is not a wall.
-//!   Open subpaths are closed by a straight line, as the SVG fill does.
+//!   An open subpath (no `Z` and its ends apart) is refused with a message: the SVG fill would
+//!   close it by a straight line, but a gap in a drawn wall is nearly always a drawing error.
 //! - Strokes, text, images, clip paths, masks and filters are ignored (with a warning).
 //! - The cross-section is the union of the regions minus the union of the holes. Where the
 //!   drawing cannot be read that way (fluid inside a hole or painted over a white shape, a white
@@ -190,6 +191,23 @@ pub fn parse_svg(text: &str, origin: &str, scale: Option<f64>) -> Result<(Shape,
             } else {
                 e.label.clone()
             };
+            // An open outline (no `Z`, ends apart) is refused rather than closed by a straight
+            // line as the SVG fill would: a gap in a drawn wall is nearly always a drawing
+            // error, and the straight closing line would become a wall of the passage.
+            let end = sub.segs.last().map_or(sub.start, Seg::end);
+            let gap = ((end[0] - sub.start[0]).powi(2) + (end[1] - sub.start[1]).powi(2)).sqrt();
+            // (A single straight segment encloses nothing; it is skipped below with a warning.)
+            let encloses = sub.segs.len() >= 2 || matches!(sub.segs.first(), Some(Seg::Cubic(..)));
+            if !sub.closed && encloses && gap > 1e-6 * diag {
+                return Err(parse_err(
+                    origin,
+                    format!(
+                        "{which} is an open path: its ends are {:.4} mm apart; close the outline \
+                         (end the path with Z) so the wall is the one drawn",
+                        gap * 1e3
+                    ),
+                ));
+            }
             if let Some(prim) = as_ellipse(sub, diag) {
                 let mut poly = ellipse_polygon(&prim, tol);
                 // Keep the drawn orientation: the fill rule counts it.
@@ -507,6 +525,9 @@ impl Seg {
 struct Subpath {
     start: Point,
     segs: Vec<Seg>,
+    /// Ended by a close command (`Z`); usvg closes the subpaths of rects, circles, ellipses
+    /// and polygons itself.
+    closed: bool,
 }
 
 /// A filled shape as drawn, in metres.
@@ -659,6 +680,7 @@ impl Walk {
                 current = Some(Subpath {
                     start,
                     segs: Vec::new(),
+                    closed: false,
                 });
                 at = start;
             }
@@ -672,6 +694,7 @@ impl Walk {
                     current = Some(Subpath {
                         start: at,
                         segs: Vec::new(),
+                        closed: false,
                     });
                 }
                 S::LineTo(q) => {
@@ -704,8 +727,9 @@ impl Walk {
                     }
                 }
                 S::Close => {
-                    if let Some(s) = current.take() {
+                    if let Some(mut s) = current.take() {
                         at = s.start;
+                        s.closed = true;
                         subpaths.push(s);
                     }
                 }
