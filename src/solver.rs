@@ -19,6 +19,12 @@ pub trait LinearOperator {
     /// ‖ |A|·|x| ‖₂, the scale at which b − A·x is rounded (for the round-off floor of the
     /// residual).
     fn abs_product_norm(&self, x: &[f64]) -> f64;
+    /// y = A·x and returns x·y, which CG needs next: an operator may fuse the two and save a
+    /// pass over both vectors. The sum must not depend on the number of threads.
+    fn apply_dot(&self, x: &[f64], y: &mut [f64]) -> f64 {
+        self.apply(x, y);
+        dot(x, y)
+    }
 }
 
 /// z = M⁻¹·r for a symmetric positive definite M ≈ A.
@@ -253,8 +259,7 @@ pub fn pcg_monitored(
                     tolerance: params.tolerance,
                 });
             }
-            op.apply(&p, &mut q);
-            let pq = dot(&p, &q);
+            let pq = op.apply_dot(&p, &mut q);
             if pq <= 0.0 || !pq.is_finite() {
                 let rel = true_residual(op, b, x, &mut r) / b_norm;
                 return Err(Error::NotConverged {
