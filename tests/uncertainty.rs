@@ -18,7 +18,6 @@ use canalis::exact::{self, ExactCase};
 use canalis::geometry::mask::{MaskMode, MaskOptions};
 use canalis::pipeline::{self, ErrorEstimate, Input, Outcome, SolveConfig};
 use canalis::study::{Behaviour, Estimate, Kind};
-use std::f64::consts::PI;
 use std::path::Path;
 use std::process::Command;
 use std::time::Instant;
@@ -172,52 +171,9 @@ fn cheap_estimate_is_marked_and_covers_the_error() {
         .is_none());
 }
 
-/// ∫ over [−r, x] of √(r² − t²) dt (calculus; copied from tests/mask.rs).
-fn half_disc_integral(x: f64, r: f64) -> f64 {
-    let x = x.clamp(-r, r);
-    0.5 * (x * (r * r - x * x).max(0.0).sqrt() + r * r * (x / r).asin()) + 0.25 * PI * r * r
-}
-
-/// Exact area of the disc of radius r at the origin within {x ≤ X, y ≤ Y} (calculus: the
-/// chord lengths integrated in x; copied from tests/mask.rs).
-fn disc_quadrant(x: f64, y: f64, r: f64) -> f64 {
-    if y <= -r || x <= -r {
-        return 0.0;
-    }
-    let big = |a: f64, b: f64| 2.0 * (half_disc_integral(b, r) - half_disc_integral(a, r));
-    let part = |a: f64, b: f64| {
-        if b <= a {
-            0.0
-        } else {
-            y * (b - a) + half_disc_integral(b, r) - half_disc_integral(a, r)
-        }
-    };
-    let xc = x.min(r);
-    if y >= r {
-        return big(-r, xc);
-    }
-    let xb = (r * r - y * y).sqrt();
-    let clip = |a: f64, b: f64| (a.max(-r), b.min(xc));
-    let mut area = 0.0;
-    let (a, b) = clip(-xb, xb);
-    area += part(a, b);
-    if y > 0.0 {
-        for (lo, hi) in [(-r, -xb), (xb, r)] {
-            let (a, b) = clip(lo, hi);
-            if b > a {
-                area += big(a, b);
-            }
-        }
-    }
-    area
-}
-
-/// Exact area of the rectangle [x0, x1] × [y0, y1] inside the disc of radius r at the origin.
-fn disc_rect(x0: f64, x1: f64, y0: f64, y1: f64, r: f64) -> f64 {
-    (disc_quadrant(x1, y1, r) - disc_quadrant(x0, y1, r) - disc_quadrant(x1, y0, r)
-        + disc_quadrant(x0, y0, r))
-    .max(0.0)
-}
+#[path = "common/coverage.rs"]
+mod coverage;
+use coverage::disc_rect;
 
 /// Writes a PNG of a dark disc `d` pixels across, centred off the pixel lattice at
 /// (0.37, 0.29) pixel from the image centre, in an image 12 pixels wider than the disc.
