@@ -112,13 +112,7 @@ impl GridOperator {
                 let (d, l) = (&self.diag[row..row + nx], &self.links[row..row + nx]);
                 let mut sum = 0.0;
                 for i in 1..nx - 1 {
-                    // The link weights are the bits of the link mask, as numbers (no table
-                    // lookup, so the loop vectorises).
-                    let bits = l[i] as u32;
-                    let s = (bits & 1) as f64 * xc[i + 1]
-                        + ((bits >> 1) & 1) as f64 * xc[i - 1]
-                        + ((bits >> 2) & 1) as f64 * xn[i]
-                        + ((bits >> 3) & 1) as f64 * xs[i];
+                    let s = link_sum(l[i], xc[i + 1], xc[i - 1], xn[i], xs[i]);
                     let v = d[i] * xc[i] - s;
                     out[i] = v;
                     sum += xc[i] * v;
@@ -127,6 +121,18 @@ impl GridOperator {
             })
             .collect()
     }
+}
+
+/// Σ over the regular links of the neighbour values (east, west, north, south), the link
+/// weights being the bits of the link mask taken as numbers: no table lookup, so the loops
+/// around it vectorise.
+#[inline(always)]
+fn link_sum(links: u8, e: f64, w: f64, n: f64, s: f64) -> f64 {
+    let bits = links as u32;
+    (bits & 1) as f64 * e
+        + ((bits >> 1) & 1) as f64 * w
+        + ((bits >> 2) & 1) as f64 * n
+        + ((bits >> 3) & 1) as f64 * s
 }
 
 /// One coarse level: a 9-point stencil per node of an nx × ny grid (zero rows where inactive).
@@ -628,12 +634,14 @@ fn half_sweep_fine(a: &GridOperator, inv_diag: &[f32], b: &[f64], x: &mut [f64],
         let mut k = row + 1 + (j + 1 + c) % 2;
         while k < row + nx - 1 {
             debug_assert!(k + nx < len);
-            let bits = a.links[k] as u32;
             unsafe {
-                let s = (bits & 1) as f64 * *p.add(k + 1)
-                    + ((bits >> 1) & 1) as f64 * *p.add(k - 1)
-                    + ((bits >> 2) & 1) as f64 * *p.add(k + nx)
-                    + ((bits >> 3) & 1) as f64 * *p.add(k - nx);
+                let s = link_sum(
+                    a.links[k],
+                    *p.add(k + 1),
+                    *p.add(k - 1),
+                    *p.add(k + nx),
+                    *p.add(k - nx),
+                );
                 *p.add(k) = (b[k] + s) * inv_diag[k] as f64;
             }
             k += 2;
@@ -831,13 +839,7 @@ fn residual_row_fine(
         &b[row..row + nx],
     );
     for i in 1..nx - 1 {
-        // The link weights are the bits of the link mask, as numbers (no table lookup, so the
-        // loop vectorises).
-        let bits = l[i] as u32;
-        let s = (bits & 1) as f64 * xc[i + 1]
-            + ((bits >> 1) & 1) as f64 * xc[i - 1]
-            + ((bits >> 2) & 1) as f64 * xn[i]
-            + ((bits >> 3) & 1) as f64 * xs[i];
+        let s = link_sum(l[i], xc[i + 1], xc[i - 1], xn[i], xs[i]);
         r[i] = (bb[i] - (d[i] * xc[i] - s)) * m[i];
     }
 }

@@ -1152,6 +1152,25 @@ fn with_cheap_estimate(config: &SolveConfig, mut fine: Outcome, monitor: &dyn Mo
     fine
 }
 
+/// "fanning_f_re 2.1e-7, nusselt_h1 2.9e-5": the relative uncertainty of each quantity the
+/// study aims at, for the warning of a study that missed its target.
+fn targeted_summary(u: &Uncertainty) -> String {
+    u.quantities
+        .iter()
+        .filter(|q| q.targeted)
+        .map(|q| {
+            format!(
+                "{} {}",
+                q.key,
+                q.estimate
+                    .map(|e| format!("{:.1e}", e.relative_uncertainty))
+                    .unwrap_or_else(|| "not estimated".into())
+            )
+        })
+        .collect::<Vec<_>>()
+        .join(", ")
+}
+
 /// An `--accuracy` study: grids of [`study::study_cells`] cells (ratio 1.5), all at the placement
 /// [`study::STUDY_PLACEMENT`] (similar grids), coarse to fine, until the GCI of every targeted quantity (f·Re, and
 /// the Nusselt numbers when computed) is below `tol` on the finest three, or the next grid would
@@ -1271,21 +1290,7 @@ fn run_study(config: &SolveConfig, tol: f64, monitor: &dyn Monitor) -> Result<Ou
         image_size: [0, 0],
     };
     if !reached {
-        let worst = uncertainty
-            .quantities
-            .iter()
-            .filter(|q| q.targeted)
-            .map(|q| {
-                format!(
-                    "{} {}",
-                    q.key,
-                    q.estimate
-                        .map(|e| format!("{:.1e}", e.relative_uncertainty))
-                        .unwrap_or_else(|| "not estimated".into())
-                )
-            })
-            .collect::<Vec<_>>()
-            .join(", ");
+        let worst = targeted_summary(&uncertainty);
         o.warnings.push(format!(
             "--accuracy {tol:.1e} not reached: {}; the study stopped with {} grids (relative \
              uncertainty {worst})",
@@ -1462,21 +1467,7 @@ fn run_image_study(
         image_size,
     };
     if let (Some(tol), false) = (target, reached) {
-        let worst = uncertainty
-            .quantities
-            .iter()
-            .filter(|q| q.targeted)
-            .map(|q| {
-                format!(
-                    "{} {}",
-                    q.key,
-                    q.estimate
-                        .map(|e| format!("{:.1e}", e.relative_uncertainty))
-                        .unwrap_or_else(|| "not estimated".into())
-                )
-            })
-            .collect::<Vec<_>>()
-            .join(", ");
+        let worst = targeted_summary(&uncertainty);
         o.warnings.push(format!(
             "--accuracy {tol:.1e} not reached: the image resolution limits it ({} × {} pixels \
              of {:.3e} m; relative uncertainty {worst}); the study cannot refine beyond the \

@@ -362,12 +362,7 @@ impl Mask {
                 format!("the level must lie strictly between 0 and 1, it is {level}"),
             ));
         }
-        let n = width.checked_mul(height).ok_or_else(|| {
-            Error::param(
-                "mask size",
-                format!("{width} × {height} pixels is too large"),
-            )
-        })?;
+        let n = pixel_count(width, height)?;
         let mut phi = Vec::with_capacity(n);
         for row in 0..height {
             for col in 0..width {
@@ -424,12 +419,7 @@ impl Mask {
         f: impl Fn(usize, usize) -> bool,
     ) -> Result<(Mask, Vec<String>)> {
         check_pixel(pixel)?;
-        let n = width.checked_mul(height).ok_or_else(|| {
-            Error::param(
-                "mask size",
-                format!("{width} × {height} pixels is too large"),
-            )
-        })?;
+        let n = pixel_count(width, height)?;
         let mut phi = Vec::with_capacity(n);
         for row in 0..height {
             for col in 0..width {
@@ -1472,6 +1462,16 @@ impl Domain for Mask {
             ny: self.height,
         })
     }
+}
+
+/// width × height, or an error when that overflows.
+fn pixel_count(width: usize, height: usize) -> Result<usize> {
+    width.checked_mul(height).ok_or_else(|| {
+        Error::param(
+            "mask size",
+            format!("{width} × {height} pixels is too large"),
+        )
+    })
 }
 
 /// A pixel count for messages: whole numbers as such, fractions to one decimal, huge counts

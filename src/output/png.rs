@@ -986,6 +986,12 @@ fn passage_numbers(cv: &mut Canvas, view: &View, o: &Outcome, fs: f64) {
     }
 }
 
+/// The picture's title (the cross-section's name) and the line under it, at the top left.
+fn title(cv: &mut Canvas, margin: f64, fs: f64, name: &str, sub: &str) {
+    cv.text(margin, margin + 0.6 * fs, 1.3 * fs, name, INK, Align::Left);
+    cv.text(margin, margin + 2.1 * fs, fs, sub, INK, Align::Left);
+}
+
 /// Sizes derived from the picture width: (font size, margin).
 fn metrics(width: u32) -> (f64, f64) {
     let w = width as f64;
@@ -1085,16 +1091,7 @@ fn map_png(
     let height = (top + band + bottom).ceil() as usize;
     let mut cv = Canvas::new(width as usize, height)?;
 
-    // Title.
-    cv.text(
-        margin,
-        margin + 0.6 * fs,
-        1.3 * fs,
-        &o.name,
-        INK,
-        Align::Left,
-    );
-    cv.text(margin, margin + 2.1 * fs, fs, sub, INK, Align::Left);
+    title(&mut cv, margin, fs, &o.name, sub);
 
     // Field, isolines, walls.
     paint_section(&mut cv, &view, &field, |p| {
@@ -1173,14 +1170,6 @@ pub fn wall_shear_png(o: &Outcome, scale: &Scale, width: u32) -> Result<Vec<u8>>
     let height = (chart_top + chart_h + 4.5 * fs + margin).ceil() as usize;
     let mut cv = Canvas::new(width as usize, height)?;
 
-    cv.text(
-        margin,
-        margin + 0.6 * fs,
-        1.3 * fs,
-        &o.name,
-        INK,
-        Align::Left,
-    );
     let sub = if scale.physical {
         format!(
             "Local wall shear stress τ: mean {} Pa (= G·A/P), fully developed laminar flow",
@@ -1189,7 +1178,7 @@ pub fn wall_shear_png(o: &Outcome, scale: &Scale, width: u32) -> Result<Vec<u8>>
     } else {
         "Local wall shear stress over its perimeter mean, fully developed laminar flow".into()
     };
-    cv.text(margin, margin + 2.1 * fs, fs, &sub, INK, Align::Left);
+    title(&mut cv, margin, fs, &o.name, &sub);
 
     // Cross-section with the walls coloured by τ (and the passage numbers, in their discs, so
     // they are not mistaken for the wall numbers beside the walls).
