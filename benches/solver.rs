@@ -105,7 +105,9 @@ fn main() {
         _ => Method::Multigrid,
     };
     if let (Some(shape), Some(cells)) = (get("--child-shape"), get("--child-cells")) {
-        child(&shape, cells.parse().expect("cells"), method);
+        // On a worker of the pool, as the binary runs (see main.rs).
+        let cells = cells.parse().expect("cells");
+        rayon::scope(|_| child(&shape, cells, method));
         return;
     }
     let sizes: Vec<usize> = get("--sizes")

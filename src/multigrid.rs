@@ -30,7 +30,7 @@
 use crate::operator::GridOperator;
 use crate::solver::{LinearOperator, Preconditioner};
 use nalgebra::{Cholesky, DMatrix, DVector, Dyn};
-use std::cell::RefCell;
+use std::sync::Mutex;
 
 /// Offsets of the 9-point stencil, index o = (dj + 1)·3 + (di + 1).
 const OFFSETS: [(isize, isize); 9] = [
@@ -89,9 +89,8 @@ impl LinearOperator for GridOperator {
 }
 
 impl GridOperator {
-    /// y = A·x, branch-free: solid nodes have d = 0 and no links, so y = 0 there; the solid
-    /// ring keeps every neighbour read inside the grid. Rows in parallel (each output row is
-    /// written by one task); returns x·y of each row.
+    /// y = A·x, rows in parallel (each output row is written by one task); returns x·y of each
+    /// row. Branch-free ([`apply_row`]); solid nodes get y = 0.
     fn apply_rows(&self, x: &[f64], y: &mut [f64]) -> Vec<f64> {
         use rayon::prelude::*;
         let nx = self.nx;
@@ -99,8 +98,8 @@ impl GridOperator {
         y.par_chunks_mut(nx)
             .enumerate()
             .map(|(j, out)| {
-                out.iter_mut().for_each(|v| *v = 0.0);
                 if j == 0 || j + 1 >= ny {
+                    out.iter_mut().for_each(|v| *v = 0.0);
                     return 0.0;
                 }
                 let row = j * nx;
@@ -109,23 +108,57 @@ impl GridOperator {
                     &x[row..row + nx],
                     &x[row + nx..row + 2 * nx],
                 );
-                let (d, l) = (&self.diag[row..row + nx], &self.links[row..row + nx]);
-                let mut sum = 0.0;
-                for i in 1..nx - 1 {
-                    let s = link_sum(l[i], xc[i + 1], xc[i - 1], xn[i], xs[i]);
-                    let v = d[i] * xc[i] - s;
-                    out[i] = v;
-                    sum += xc[i] * v;
+                apply_row(&self.diag[row..row + nx], xs, xc, xn, out);
+                for &k in self.thin_in_row(j) {
+                    let (k, i) = (k as usize, k as usize - row);
+                    let s = link_sum(self.links[k], x[k + 1], x[k - 1], x[k + nx], x[k - nx]);
+                    out[i] = self.diag[k] * x[k] - s;
                 }
-                sum
+                dot4(xc, out)
             })
             .collect()
     }
 }
 
+/// One row of y = A·x from the rows south, centre and north of x: y = d·x − (sum of the four
+/// neighbours), and y = 0 where d = 0 (solid). Exact for every node but the thin ones of
+/// [`GridOperator`], which the caller recomputes. Contiguous and branch-free, so it vectorises.
+#[inline]
+fn apply_row(d: &[f64], xs: &[f64], xc: &[f64], xn: &[f64], out: &mut [f64]) {
+    let nx = out.len();
+    let m = nx - 2;
+    let (e, w, c) = (&xc[2..2 + m], &xc[..m], &xc[1..1 + m]);
+    let (n, s, d) = (&xn[1..1 + m], &xs[1..1 + m], &d[1..1 + m]);
+    let o = &mut out[1..1 + m];
+    for i in 0..m {
+        let v = d[i] * c[i] - ((e[i] + w[i]) + (n[i] + s[i]));
+        o[i] = if d[i] != 0.0 { v } else { 0.0 };
+    }
+    out[0] = 0.0;
+    out[nx - 1] = 0.0;
+}
+
+/// Σ a·b with four interleaved partial sums (vectorisable, fixed order).
+#[inline]
+fn dot4(a: &[f64], b: &[f64]) -> f64 {
+    let mut s = [0.0; 4];
+    let (ac, bc) = (a.chunks_exact(4), b.chunks_exact(4));
+    let tail: f64 = ac
+        .remainder()
+        .iter()
+        .zip(bc.remainder())
+        .map(|(x, y)| x * y)
+        .sum();
+    for (x, y) in ac.zip(bc) {
+        for l in 0..4 {
+            s[l] += x[l] * y[l];
+        }
+    }
+    (s[0] + s[1]) + (s[2] + s[3]) + tail
+}
+
 /// Σ over the regular links of the neighbour values (east, west, north, south), the link
-/// weights being the bits of the link mask taken as numbers: no table lookup, so the loops
-/// around it vectorise.
+/// weights being the bits of the link mask taken as numbers.
 #[inline(always)]
 fn link_sum(links: u8, e: f64, w: f64, n: f64, s: f64) -> f64 {
     let bits = links as u32;
@@ -444,8 +477,10 @@ fn coarsen(fine: &(dyn StencilRows + Sync), scale: Option<&[f64]>) -> Level {
     }
 }
 
-/// Scratch vectors of one coarse level.
+/// Scratch vectors: the pre-smoothed fine vector, the x-restricted rows and each coarse level's
+/// solution and right-hand side.
 struct Scratch {
+    fine_x: Vec<f64>,
     tmp: Vec<f64>,
     x: Vec<Vec<f64>>,
     b: Vec<Vec<f64>>,
@@ -456,29 +491,36 @@ struct Scratch {
 pub struct Multigrid<'a> {
     fine: &'a GridOperator,
     /// 1/d on the fine level, 0 at solid nodes, in single precision: the smoother is then
-    /// Gauss–Seidel for the matrix whose diagonal is 1/fl(1/d), a relative change below 6e-8,
-    /// still symmetric, so the V-cycle stays a symmetric positive definite preconditioner (the
-    /// residuals it restricts use the exact A); it saves 4 of the ~30 bytes each half-sweep
-    /// moves per node.
+    /// Gauss–Seidel for the matrix A′ whose diagonal is d′ = 1/fl(1/d), a relative change below
+    /// 6e-8 (it saves 4 bytes a node in each pass).
     inv_diag: Vec<f32>,
-    /// 1 at active nodes, 0 elsewhere: masks[0] the fine level, masks[l + 1] coarse level l.
+    /// d′ = 1/fl(1/d) (0 at solid nodes): the fine residual that is restricted is b − A′·x, the
+    /// smoother's own matrix, which keeps the V-cycle exactly a symmetric operator (with the
+    /// exact A there the cycle's asymmetry was measured at 2e-9, the order of d′ − d; the
+    /// V-cycle then approximates A′⁻¹, a preconditioner for A as good as A⁻¹'s approximation).
+    fine_diag: Vec<f64>,
+    /// Row scales of P on the fine level ([`pscale_of`], 0 at solid nodes), rounded to single
+    /// precision; the Galerkin product uses the same rounded numbers, so R = Pᵀ holds exactly.
+    fine_scale: Vec<f32>,
+    /// masks[l]: 1 at the active nodes of coarse level l, 0 elsewhere (the row scales of its P).
     masks: Vec<Vec<f64>>,
     levels: Vec<Level>,
     /// Dense Cholesky factor of the coarsest level and the grid indices of its unknowns; None
     /// when there is only the fine level and it is solved by smoothing alone.
     coarsest: Option<(Cholesky<f64, Dyn>, Vec<usize>)>,
-    scratch: RefCell<Scratch>,
+    scratch: Mutex<Scratch>,
 }
 
 impl<'a> Multigrid<'a> {
     /// Builds the hierarchy: coarsen until a level has at most [`DIRECT_LIMIT`] active nodes or
     /// cannot shrink, then factor that level.
     pub fn new(fine: &'a GridOperator) -> Multigrid<'a> {
-        let fine_scale: Vec<f64> = fine
+        let fine_scale: Vec<f32> = fine
             .diag
             .iter()
-            .map(|&d| if d == 0.0 { 0.0 } else { pscale_of(d) })
+            .map(|&d| if d == 0.0 { 0.0 } else { pscale_of(d) as f32 })
             .collect();
+        let scale64: Vec<f64> = fine_scale.iter().map(|&v| v as f64).collect();
         let mut levels: Vec<Level> = Vec::new();
         loop {
             let (nx, ny, count) = match levels.last() {
@@ -493,7 +535,7 @@ impl<'a> Multigrid<'a> {
                 break;
             }
             let next = match levels.last() {
-                None => coarsen(fine, Some(&fine_scale)),
+                None => coarsen(fine, Some(&scale64)),
                 Some(l) => coarsen(l, None),
             };
             levels.push(next);
@@ -528,17 +570,23 @@ impl<'a> Multigrid<'a> {
             let chol = Cholesky::new(m).expect("Galerkin coarse operator is positive definite");
             (chol, idx)
         });
+        drop(scale64);
         let scratch = Scratch {
+            fine_x: vec![0.0; fine.diag.len()],
             tmp: Vec::with_capacity(fine.diag.len() / 2 + 4 * fine.ny),
             x: levels.iter().map(|l| vec![0.0; l.len()]).collect(),
             b: levels.iter().map(|l| vec![0.0; l.len()]).collect(),
         };
-        let inv_diag = fine
+        let inv_diag: Vec<f32> = fine
             .diag
             .iter()
             .map(|&d| if d != 0.0 { (1.0 / d) as f32 } else { 0.0 })
             .collect();
-        let mut masks = vec![fine_scale];
+        let fine_diag = inv_diag
+            .iter()
+            .map(|&v| if v != 0.0 { 1.0 / v as f64 } else { 0.0 })
+            .collect();
+        let mut masks = Vec::new();
         for l in &levels {
             masks.push(
                 l.active
@@ -550,10 +598,12 @@ impl<'a> Multigrid<'a> {
         Multigrid {
             fine,
             inv_diag,
+            fine_diag,
+            fine_scale,
             masks,
             levels,
             coarsest,
-            scratch: RefCell::new(scratch),
+            scratch: Mutex::new(scratch),
         }
     }
 
@@ -583,70 +633,313 @@ const LINK_WEIGHTS: [[f64; 4]; 16] = {
     t
 };
 
-/// Red–black Gauss–Seidel on the fine level: all nodes of one colour ((i + j) mod 2) are
-/// independent for the 5-point operator, so a sweep has no dependency chain. The forward sweep
-/// does red then black, the backward one black then red, which makes post-smoothing the adjoint
-/// of pre-smoothing and the V-cycle symmetric. Branch-free: solid nodes have 1/d = 0 and zero
-/// right-hand side, so they stay 0; the solid ring keeps every read inside the grid.
-fn smooth_fine(a: &GridOperator, inv_diag: &[f32], b: &[f64], x: &mut [f64], forward: bool) {
-    let colours: [usize; 2] = if forward { [0, 1] } else { [1, 0] };
-    for c in colours {
-        half_sweep_fine(a, inv_diag, b, x, c);
+/// Rows per task of the two fine-level passes (a fixed number, so the work split, and with it
+/// nothing of the result, depends on the number of threads).
+const FINE_BLOCK: usize = 32;
+
+/// The fine level's part of the V-cycle, done in two streaming passes over the grid instead of
+/// six (the fine level is about three quarters of the V-cycle's memory traffic):
+///
+/// 1. [`fine_pre`]: red–black Gauss–Seidel from x = 0 (red nodes, (i + j) even, get b/d; black
+///    nodes then (b + Σ red neighbours)/d), the residual b − A·x it leaves, scaled by the rows
+///    of P, and its restriction along x.
+/// 2. [`fine_post`]: x += P·x_c, then the black half-sweep and the red half-sweep (the reverse
+///    colour order, so post-smoothing is the adjoint of pre-smoothing and the V-cycle stays
+///    symmetric), and r·z.
+///
+/// Each half-sweep reads the values of the other colour only, so it is a pure function of the
+/// previous stage: a pass carries a few rows of each stage in ring buffers, each task
+/// recomputes the rows just outside its block that it needs, and every row is the same
+/// contiguous loop over all nodes that keeps the new value on one colour and the old one on
+/// the other ([`half_sweep_row`]; it vectorises, where a stride-2 loop over one colour did
+/// not). The numbers are those of the in-place red–black sweeps.
+///
+/// The fine level's arrays, as the passes read them.
+struct Fine<'a> {
+    a: &'a GridOperator,
+    /// 1/d in single precision (see [`Multigrid`]).
+    inv: &'a [f32],
+    /// d′ = 1/fl(1/d), the diagonal of the residual that is restricted.
+    diag: &'a [f64],
+    /// Row scales of P.
+    scale: &'a [f32],
+}
+
+/// A pre-smoothed row j of x (1 ≤ j ≤ ny − 2) from zero, straight from b and 1/d.
+fn presmooth_row(f: &Fine, b: &[f64], j: usize, out: &mut [f64]) {
+    let (a, inv) = (f.a, f.inv);
+    let nx = a.nx;
+    let row = j * nx;
+    let t = |k: usize| b[k] * inv[k] as f64;
+    let m = nx - 2;
+    let (bs, bc, bn) = (
+        &b[row - nx + 1..row - nx + 1 + m],
+        &b[row..row + nx],
+        &b[row + nx + 1..row + nx + 1 + m],
+    );
+    let (is, ic, inn) = (
+        &inv[row - nx + 1..row - nx + 1 + m],
+        &inv[row..row + nx],
+        &inv[row + nx + 1..row + nx + 1 + m],
+    );
+    let (be, bw, bm) = (&bc[2..2 + m], &bc[..m], &bc[1..1 + m]);
+    let (ie, iw, im) = (&ic[2..2 + m], &ic[..m], &ic[1..1 + m]);
+    let o = &mut out[1..1 + m];
+    // Node i + 1 of the row is red when (i + 1 + j) is even.
+    let first_red = (j + 1).is_multiple_of(2);
+    for i in 0..m {
+        let centre = bm[i] * im[i] as f64;
+        let sum = (be[i] * ie[i] as f64 + bw[i] * iw[i] as f64)
+            + (bn[i] * inn[i] as f64 + bs[i] * is[i] as f64);
+        let black = (bm[i] + sum) * im[i] as f64;
+        o[i] = if (i % 2 == 0) == first_red {
+            centre
+        } else {
+            black
+        };
+    }
+    out[0] = 0.0;
+    out[nx - 1] = 0.0;
+    for &k in a.thin_in_row(j) {
+        let k = k as usize;
+        if (k - row + j) % 2 == 1 {
+            let s = link_sum(a.links[k], t(k + 1), t(k - 1), t(k + nx), t(k - nx));
+            out[k - row] = (b[k] + s) * inv[k] as f64;
+        }
     }
 }
 
-/// The forward sweep of [`smooth_fine`] from x = 0, in one pass less: the red half-sweep sees
-/// only zero neighbours, so it is x = b/d on red nodes (the same numbers, as w·0 = 0), written
-/// together with the zeros of the black nodes; then the black half-sweep.
-fn smooth_fine_from_zero(a: &GridOperator, inv_diag: &[f32], b: &[f64], x: &mut [f64]) {
-    use rayon::prelude::*;
+/// One half-sweep of colour `colour` ((i + j) mod 2) on row j: from the rows south, centre and
+/// north of x before the half-sweep, the row after it. Nodes of the colour get
+/// (b + Σ neighbours)/d, the others keep their value; thin nodes are recomputed from the link
+/// bits (`at(dj, i)` reads row j + dj − 1 at column i).
+#[inline]
+fn half_sweep_row(
+    f: &Fine,
+    b: &[f64],
+    j: usize,
+    colour: usize,
+    (xs, xc, xn): (&[f64], &[f64], &[f64]),
+    out: &mut [f64],
+) {
+    let (a, inv) = (f.a, f.inv);
     let nx = a.nx;
-    x.par_chunks_mut(nx)
-        .zip(b.par_chunks(nx).zip(inv_diag.par_chunks(nx)))
-        .enumerate()
-        .for_each(|(j, (row, (b, inv)))| {
-            for (i, v) in row.iter_mut().enumerate() {
-                *v = if (i + j) % 2 == 0 {
-                    b[i] * inv[i] as f64
-                } else {
-                    0.0
-                };
-            }
-        });
-    half_sweep_fine(a, inv_diag, b, x, 1);
+    let row = j * nx;
+    let m = nx - 2;
+    let (e, w, c) = (&xc[2..2 + m], &xc[..m], &xc[1..1 + m]);
+    let (n, s) = (&xn[1..1 + m], &xs[1..1 + m]);
+    let (bb, ii) = (&b[row + 1..row + 1 + m], &inv[row + 1..row + 1 + m]);
+    let o = &mut out[1..1 + m];
+    // Node i + 1 of the row has the colour when (i + 1 + j) % 2 == colour.
+    let first = (j + 1) % 2 == colour;
+    for i in 0..m {
+        let v = (bb[i] + ((e[i] + w[i]) + (n[i] + s[i]))) * ii[i] as f64;
+        o[i] = if (i % 2 == 0) == first { v } else { c[i] };
+    }
+    out[0] = 0.0;
+    out[nx - 1] = 0.0;
+    for &k in a.thin_in_row(j) {
+        let (k, i) = (k as usize, k as usize - row);
+        if (i + j) % 2 == colour {
+            let sum = link_sum(a.links[k], xc[i + 1], xc[i - 1], xn[i], xs[i]);
+            out[i] = (b[k] + sum) * inv[k] as f64;
+        }
+    }
 }
 
-/// One colour c of red–black Gauss–Seidel on the fine level (colour of node (i, j) is
-/// (i + j) mod 2), rows in parallel.
-fn half_sweep_fine(a: &GridOperator, inv_diag: &[f32], b: &[f64], x: &mut [f64], c: usize) {
-    use rayon::prelude::*;
-    let (nx, ny) = (a.nx, a.ny);
-    let shared = SharedMut(x.as_mut_ptr());
-    let len = x.len();
-    (1..ny - 1).into_par_iter().with_min_len(64).for_each(|j| {
-        let shared = &shared;
-        // SAFETY: within one colour, row j writes only its own entries of that colour and
-        // reads only entries of the other colour (its neighbours along the row and in rows
-        // j ± 1), which no task of this colour writes; every index lies inside the grid
-        // (solid ring). So no element is written by two tasks or read while written.
-        let p = shared.0;
-        let row = j * nx;
-        let mut k = row + 1 + (j + 1 + c) % 2;
-        while k < row + nx - 1 {
-            debug_assert!(k + nx < len);
-            unsafe {
-                let s = link_sum(
-                    a.links[k],
-                    *p.add(k + 1),
-                    *p.add(k - 1),
-                    *p.add(k + nx),
-                    *p.add(k - nx),
-                );
-                *p.add(k) = (b[k] + s) * inv_diag[k] as f64;
-            }
-            k += 2;
+/// Row j of the fine residual r = b − A·x, scaled by the row scales of P (`scale`), which is
+/// what Pᵀ needs; zero at solid nodes and on the ring.
+#[inline]
+fn residual_row_fine(
+    f: &Fine,
+    b: &[f64],
+    j: usize,
+    (xs, xc, xn): (&[f64], &[f64], &[f64]),
+    r: &mut [f64],
+) {
+    let (a, scale) = (f.a, f.scale);
+    let nx = a.nx;
+    let row = j * nx;
+    let m = nx - 2;
+    let (e, w, c) = (&xc[2..2 + m], &xc[..m], &xc[1..1 + m]);
+    let (n, s) = (&xn[1..1 + m], &xs[1..1 + m]);
+    let (bb, d, sc) = (
+        &b[row + 1..row + 1 + m],
+        &f.diag[row + 1..row + 1 + m],
+        &scale[row + 1..row + 1 + m],
+    );
+    let o = &mut r[1..1 + m];
+    for i in 0..m {
+        let ax = d[i] * c[i] - ((e[i] + w[i]) + (n[i] + s[i]));
+        o[i] = (bb[i] - ax) * sc[i] as f64;
+    }
+    r[0] = 0.0;
+    r[nx - 1] = 0.0;
+    for &k in a.thin_in_row(j) {
+        let (k, i) = (k as usize, k as usize - row);
+        let sum = link_sum(a.links[k], xc[i + 1], xc[i - 1], xn[i], xs[i]);
+        r[i] = (b[k] - (f.diag[k] * xc[i] - sum)) * scale[k] as f64;
+    }
+}
+
+/// Ring buffer of a few consecutive rows of one stage of a fine pass, row m in slot m mod 4
+/// (rows outside 1..ny − 2 are the zero rows of the solid ring).
+struct Rows {
+    nx: usize,
+    data: Vec<f64>,
+}
+
+impl Rows {
+    fn new(nx: usize) -> Rows {
+        Rows {
+            nx,
+            data: vec![0.0; 4 * nx],
         }
-    });
+    }
+    fn get(&self, m: usize) -> &[f64] {
+        let q = m % 4;
+        &self.data[q * self.nx..(q + 1) * self.nx]
+    }
+    fn slot(&mut self, m: usize) -> &mut [f64] {
+        let q = m % 4;
+        &mut self.data[q * self.nx..(q + 1) * self.nx]
+    }
+    /// Rows m − 1, m, m + 1 (m ≥ 1).
+    fn around(&self, m: usize) -> (&[f64], &[f64], &[f64]) {
+        (self.get(m - 1), self.get(m), self.get(m + 1))
+    }
+}
+
+/// Pass 1 of the fine level (see [`FINE_BLOCK`]): writes the pre-smoothed x into `x` and, when
+/// there is a coarse level, each fine row of the scaled residual restricted along x into
+/// `tmp` (`cnx` values per fine row; rows 0..ny).
+fn fine_pre(f: &Fine, b: &[f64], x: &mut [f64], restrict: Option<(&mut [f64], usize)>) {
+    use rayon::prelude::*;
+    let (nx, ny) = (f.a.nx, f.a.ny);
+    let inner = |m: usize| m >= 1 && m + 1 < ny;
+    let fill = |rows: &mut Rows, m: usize| {
+        let out = rows.slot(m);
+        if inner(m) {
+            presmooth_row(f, b, m, out);
+        } else {
+            out.iter_mut().for_each(|v| *v = 0.0);
+        }
+    };
+    match restrict {
+        None => x
+            .par_chunks_mut(FINE_BLOCK * nx)
+            .enumerate()
+            .for_each(|(blk, xb)| {
+                for (q, out) in xb.chunks_mut(nx).enumerate() {
+                    let m = blk * FINE_BLOCK + q;
+                    if inner(m) {
+                        presmooth_row(f, b, m, out);
+                    } else {
+                        out.iter_mut().for_each(|v| *v = 0.0);
+                    }
+                }
+            }),
+        Some((tmp, cnx)) => {
+            let pad = 2 * cnx + 2;
+            x.par_chunks_mut(FINE_BLOCK * nx)
+                .zip(tmp[..ny * cnx].par_chunks_mut(FINE_BLOCK * cnx))
+                .enumerate()
+                .for_each_init(
+                    || (Rows::new(nx), vec![0.0; nx + pad]),
+                    |(rows, r), (blk, (xb, tb))| {
+                        let j0 = blk * FINE_BLOCK;
+                        if j0 > 0 {
+                            fill(rows, j0 - 1);
+                        }
+                        fill(rows, j0);
+                        for (q, (out, t)) in xb.chunks_mut(nx).zip(tb.chunks_mut(cnx)).enumerate() {
+                            let j = j0 + q;
+                            if j + 1 < ny {
+                                fill(rows, j + 1);
+                            }
+                            out.copy_from_slice(rows.get(j));
+                            if inner(j) {
+                                residual_row_fine(f, b, j, rows.around(j), &mut r[..nx]);
+                            } else {
+                                r[..nx].iter_mut().for_each(|v| *v = 0.0);
+                            }
+                            restrict_line(r, t);
+                        }
+                    },
+                );
+        }
+    }
+}
+
+/// Pass 2 of the fine level (see [`FINE_BLOCK`]): z = post-smoothing of (x + P·x_c) (x the
+/// pre-smoothed vector of pass 1, `coarse` = (x_c, coarse nx) or None for no correction);
+/// returns r·z (row sums added in row order).
+fn fine_post(
+    f: &Fine,
+    b: &[f64],
+    x: &[f64],
+    coarse: Option<(&[f64], usize)>,
+    z: &mut [f64],
+) -> f64 {
+    use rayon::prelude::*;
+    let (nx, ny) = (f.a.nx, f.a.ny);
+    let inner = |m: usize| m >= 1 && m + 1 < ny;
+    // Stage 1: row m of x + P·x_c.
+    let corrected = |m: usize, out: &mut [f64]| {
+        if !inner(m) {
+            out.iter_mut().for_each(|v| *v = 0.0);
+            return;
+        }
+        let xr = &x[m * nx..(m + 1) * nx];
+        match coarse {
+            Some((xc, cnx)) => {
+                prolong_row(xc, cnx, m, &f.scale[m * nx..(m + 1) * nx], xr, out);
+            }
+            None => out.copy_from_slice(xr),
+        }
+    };
+    let row_sums: Vec<f64> = z
+        .par_chunks_mut(FINE_BLOCK * nx)
+        .enumerate()
+        .flat_map_iter(|(blk, zb)| {
+            let mut c = Rows::new(nx);
+            let mut w = Rows::new(nx);
+            let j0 = blk * FINE_BLOCK;
+            // Stage 2 (black half-sweep) of row m from stage-1 rows m − 1..m + 1.
+            let black = |c: &Rows, w: &mut Rows, m: usize| {
+                if inner(m) {
+                    half_sweep_row(f, b, m, 1, c.around(m), w.slot(m));
+                } else {
+                    w.slot(m).iter_mut().for_each(|v| *v = 0.0);
+                }
+            };
+            for m in j0.saturating_sub(2)..=(j0 + 1).min(ny - 1) {
+                corrected(m, c.slot(m));
+            }
+            for m in j0.saturating_sub(1)..=j0.min(ny - 1) {
+                black(&c, &mut w, m);
+            }
+            let mut sums = Vec::with_capacity(FINE_BLOCK);
+            for (q, out) in zb.chunks_mut(nx).enumerate() {
+                let j = j0 + q;
+                if j + 2 < ny {
+                    corrected(j + 2, c.slot(j + 2));
+                }
+                if j + 1 < ny {
+                    black(&c, &mut w, j + 1);
+                }
+                if inner(j) {
+                    half_sweep_row(f, b, j, 0, w.around(j), out);
+                    sums.push(dot4(&b[j * nx..(j + 1) * nx], out));
+                } else {
+                    out.iter_mut().for_each(|v| *v = 0.0);
+                    sums.push(0.0);
+                }
+            }
+            sums
+        })
+        .collect();
+    row_sums.iter().sum()
 }
 
 /// A raw pointer to share a vector between the tasks of one colour of a multicolour sweep.
@@ -811,39 +1104,6 @@ fn residual_row_coarse(l: &Level, b: &[f64], x: &[f64], j: usize, r: &mut [f64])
     }
 }
 
-/// Row j of the fine residual r = b − A·x, scaled by the row scales of P (`mask`), which is
-/// what Pᵀ needs; zero at solid nodes and on the ring.
-fn residual_row_fine(
-    a: &GridOperator,
-    mask: &[f64],
-    b: &[f64],
-    x: &[f64],
-    j: usize,
-    r: &mut [f64],
-) {
-    let nx = a.nx;
-    r.iter_mut().for_each(|v| *v = 0.0);
-    if j == 0 || j + 1 >= a.ny {
-        return;
-    }
-    let row = j * nx;
-    let (xs, xc, xn) = (
-        &x[row - nx..row],
-        &x[row..row + nx],
-        &x[row + nx..row + 2 * nx],
-    );
-    let (d, l, m, bb) = (
-        &a.diag[row..row + nx],
-        &a.links[row..row + nx],
-        &mask[row..row + nx],
-        &b[row..row + nx],
-    );
-    for i in 1..nx - 1 {
-        let s = link_sum(l[i], xc[i + 1], xc[i - 1], xn[i], xs[i]);
-        r[i] = (bb[i] - (d[i] * xc[i] - s)) * m[i];
-    }
-}
-
 /// 1-D restriction along a line: coarse node I takes fine 2I − 1 (weight 1) and fine 2I − 2,
 /// 2I (weight ½) (the transpose of [`parents`]). `row` must be zero on its ring and hold at
 /// least 2·(out.len() − 2) + 1 entries (pad with zeros), so no index needs a test.
@@ -859,10 +1119,9 @@ fn restrict_line(row: &[f64], out: &mut [f64]) {
 
 /// b_c = Pᵀ·r for a fine residual given row by row (`row(j, out)` writes fine row j of r, zero
 /// at solid nodes and on the ring), separably: each fine row is made and restricted along x
-/// into `tmp` without storing the fine residual, then the rows of `tmp` are combined along y
-/// (coarse row J takes fine rows 2J − 1 with weight 1, 2J − 2 and 2J with ½). Rows in parallel;
-/// each output element is one fixed expression, so the numbers do not depend on the number of
-/// threads.
+/// into `tmp` without storing the fine residual ([`restrict_line`]), then the rows of `tmp` are
+/// combined along y ([`restrict_columns`]). Rows in parallel; each output element is one fixed
+/// expression, so the numbers do not depend on the number of threads.
 fn restrict_rows(
     fnx: usize,
     fny: usize,
@@ -872,10 +1131,7 @@ fn restrict_rows(
     row: impl Fn(usize, &mut [f64]) + Sync,
 ) {
     use rayon::prelude::*;
-    let cny = bc.len() / cnx;
-    // Fine rows 0..fny, then zero rows up to 2·(cny − 2) + 1 (the ring rows are zero).
-    let rows = (2 * cny).max(fny);
-    tmp.resize(rows * cnx, 0.0);
+    prepare_tmp(tmp, fny, bc.len() / cnx, cnx);
     let pad = 2 * cnx + 2;
     tmp[..fny * cnx]
         .par_chunks_mut(cnx)
@@ -887,8 +1143,22 @@ fn restrict_rows(
                 restrict_line(buf, t);
             },
         );
+    restrict_columns(tmp, bc, cnx);
+}
+
+/// Sizes the buffer of x-restricted rows for a fine level of `fny` rows and a coarse level of
+/// `cny` rows: fine rows 0..fny, then zero rows up to 2·(cny − 2) + 1 (the ring rows are zero).
+fn prepare_tmp(tmp: &mut Vec<f64>, fny: usize, cny: usize, cnx: usize) {
+    let rows = (2 * cny).max(fny);
+    tmp.resize(rows * cnx, 0.0);
     tmp[fny * cnx..].iter_mut().for_each(|v| *v = 0.0);
-    let tmp = &tmp[..];
+}
+
+/// The y half of the restriction: coarse row J takes x-restricted fine rows 2J − 1 with weight
+/// 1, 2J − 2 and 2J with ½.
+fn restrict_columns(tmp: &[f64], bc: &mut [f64], cnx: usize) {
+    use rayon::prelude::*;
+    let cny = bc.len() / cnx;
     bc.par_chunks_mut(cnx).enumerate().for_each(|(cj, out)| {
         if cj == 0 || cj + 1 == cny {
             out.iter_mut().for_each(|v| *v = 0.0);
@@ -902,32 +1172,53 @@ fn restrict_rows(
     });
 }
 
+/// Row j (an inner row) of x + P·x_c: `x` and `out` are the row, `scale` the row scales of P
+/// on it (0 at inactive nodes). The row interpolates along y from its one or two coarse parent
+/// rows and along x on the fly.
+#[inline]
+fn prolong_row<S: Copy + Into<f64>>(
+    xc: &[f64],
+    cnx: usize,
+    j: usize,
+    scale: &[S],
+    x: &[f64],
+    out: &mut [f64],
+) {
+    let fnx = out.len();
+    let (p, n) = parents(j);
+    let ra = &xc[p[0].0 * cnx..(p[0].0 + 1) * cnx];
+    let rb = &xc[p[n - 1].0 * cnx..(p[n - 1].0 + 1) * cnx];
+    // Coarse value at column c interpolated to this fine row.
+    let t = |c: usize| if n == 1 { ra[c] } else { 0.5 * (ra[c] + rb[c]) };
+    out[0] = x[0];
+    out[fnx - 1] = x[fnx - 1];
+    for i in 1..fnx - 1 {
+        let v = if i % 2 == 1 {
+            t(i.div_ceil(2))
+        } else {
+            0.5 * (t(i / 2) + t(i / 2 + 1))
+        };
+        out[i] = x[i] + scale[i].into() * v;
+    }
+}
+
 /// x += P·x_c on the fine nodes that are active (`mask` holds the row scales of P, 0 at
-/// inactive nodes). Each fine row interpolates along y from its one or two coarse parent rows
-/// and along x on the fly; rows in parallel.
+/// inactive nodes); rows in parallel.
 fn prolong_add(xc: &[f64], cnx: usize, x: &mut [f64], fnx: usize, fny: usize, mask: &[f64]) {
     use rayon::prelude::*;
     x.par_chunks_mut(fnx)
         .zip(mask.par_chunks(fnx))
         .enumerate()
-        .for_each(|(j, (row, m))| {
-            if j == 0 || j + 1 >= fny {
-                return;
-            }
-            let (p, n) = parents(j);
-            let ra = &xc[p[0].0 * cnx..(p[0].0 + 1) * cnx];
-            let rb = &xc[p[n - 1].0 * cnx..(p[n - 1].0 + 1) * cnx];
-            // Coarse value at column c interpolated to this fine row.
-            let t = |c: usize| if n == 1 { ra[c] } else { 0.5 * (ra[c] + rb[c]) };
-            for i in 1..fnx - 1 {
-                let v = if i % 2 == 1 {
-                    t(i.div_ceil(2))
-                } else {
-                    0.5 * (t(i / 2) + t(i / 2 + 1))
-                };
-                row[i] += m[i] * v;
-            }
-        });
+        .for_each_init(
+            || vec![0.0; fnx],
+            |buf, (j, (row, m))| {
+                if j == 0 || j + 1 >= fny {
+                    return;
+                }
+                prolong_row(xc, cnx, j, m, row, buf);
+                row.copy_from_slice(buf);
+            },
+        );
 }
 
 impl Multigrid<'_> {
@@ -964,7 +1255,7 @@ impl Multigrid<'_> {
             &mut head[l],
             lev.nx,
             lev.ny,
-            &self.masks[l + 1],
+            &self.masks[l],
         );
         smooth_coarse(lev, &s.b[l], &mut s.x[l], false);
     }
@@ -972,24 +1263,33 @@ impl Multigrid<'_> {
 
 impl Preconditioner for Multigrid<'_> {
     fn apply(&self, r: &[f64], z: &mut [f64]) {
+        self.apply_dot(r, z);
+    }
+
+    fn apply_dot(&self, r: &[f64], z: &mut [f64]) -> f64 {
         let a = self.fine;
-        smooth_fine_from_zero(a, &self.inv_diag, r, z);
-
-        if !self.levels.is_empty() {
-            let mut s = self.scratch.borrow_mut();
-            let s = &mut *s;
-            // Fine residual r − A·z, scaled by the rows of P and restricted, in one pass.
+        let mut s = self.scratch.lock().unwrap_or_else(|e| e.into_inner());
+        let s = &mut *s;
+        let f = Fine {
+            a,
+            inv: &self.inv_diag,
+            diag: &self.fine_diag,
+            scale: &self.fine_scale,
+        };
+        let mut fine_x = std::mem::take(&mut s.fine_x);
+        let rz = if self.levels.is_empty() {
+            fine_pre(&f, r, &mut fine_x, None);
+            fine_post(&f, r, &fine_x, None, z)
+        } else {
             let c0 = &self.levels[0];
-            let zr = &*z;
-            let mask = &self.masks[0];
-            restrict_rows(a.nx, a.ny, &mut s.b[0], c0.nx, &mut s.tmp, |j, out| {
-                residual_row_fine(a, mask, r, zr, j, out)
-            });
+            prepare_tmp(&mut s.tmp, a.ny, c0.ny, c0.nx);
+            fine_pre(&f, r, &mut fine_x, Some((&mut s.tmp, c0.nx)));
+            restrict_columns(&s.tmp, &mut s.b[0], c0.nx);
             self.cycle(0, s);
-            prolong_add(&s.x[0], c0.nx, z, a.nx, a.ny, &self.masks[0]);
-        }
-
-        smooth_fine(a, &self.inv_diag, r, z, false);
+            fine_post(&f, r, &fine_x, Some((&s.x[0], c0.nx)), z)
+        };
+        s.fine_x = fine_x;
+        rz
     }
 }
 
@@ -1044,5 +1344,72 @@ mod tests {
         let mut x = vec![0.0; b.len()];
         let info = pcg(&a, &mg, &b, &mut x, &CgParams::default(), "mg").unwrap();
         assert!(info.iterations <= 25, "{}", info.iterations);
+    }
+
+    /// A slit thinner than a cell leaves fluid on both sides of cut links (the thin nodes of
+    /// [`GridOperator`]): the fast kernels must still give the assembled matrix's product
+    /// (operator::assemble, the reference), and the V-cycle must stay symmetric.
+    #[test]
+    fn thin_walls_match_the_assembled_matrix_and_the_cycle_is_symmetric() {
+        use crate::operator::{assemble, Numbering};
+        let s = Shape::new(
+            vec![Primitive::Circle {
+                center: [0.0, 0.0],
+                radius: 1.0,
+            }],
+            vec![Primitive::Rect {
+                center: [0.3, 0.01],
+                size: [1.2, 0.009],
+                corner_radius: 0.0,
+                angle: 0.2,
+            }],
+        );
+        let (lo, hi) = s.bbox();
+        let c = classify(&s, Grid::covering(lo, hi, 80)).unwrap();
+        let a = GridOperator::new(&c);
+        let thin: usize = (0..a.ny).map(|j| a.thin_in_row(j).len()).sum();
+        assert!(thin > 10, "the slit should make thin nodes, got {thin}");
+        let num = Numbering::new(&c);
+        let csr = assemble(&c, &num);
+        // A rough vector, zero at solid nodes.
+        let field = |k: usize, seed: f64| ((k as f64 * 0.618 + seed).sin() * 1e3).fract();
+        let mut x = vec![0.0; a.diag.len()];
+        for &k in &num.node_of {
+            x[k] = field(k, 0.3);
+        }
+        let mut y = vec![0.0; x.len()];
+        a.apply(&x, &mut y);
+        let xu: Vec<f64> = num.node_of.iter().map(|&k| x[k]).collect();
+        let mut yu = vec![0.0; xu.len()];
+        LinearOperator::apply(&csr, &xu, &mut yu);
+        for (q, &k) in num.node_of.iter().enumerate() {
+            assert!(
+                (y[k] - yu[q]).abs() <= 1e-12 * yu[q].abs().max(1.0),
+                "node {k}"
+            );
+        }
+        for (yk, d) in y.iter().zip(&a.diag) {
+            if *d == 0.0 {
+                assert_eq!(*yk, 0.0);
+            }
+        }
+        // Symmetry of the preconditioner: u·M⁻¹v = v·M⁻¹u.
+        let mg = Multigrid::new(&a);
+        let mut u = vec![0.0; x.len()];
+        let mut v = vec![0.0; x.len()];
+        for &k in &num.node_of {
+            u[k] = field(k, 1.1);
+            v[k] = field(k, 2.7);
+        }
+        let (mut mu, mut mv) = (vec![0.0; x.len()], vec![0.0; x.len()]);
+        let umu = mg.apply_dot(&u, &mut mu);
+        mg.apply(&v, &mut mv);
+        let (a1, a2) = (dot4(&u, &mv), dot4(&v, &mu));
+        assert!(
+            (a1 - a2).abs() <= 1e-13 * a1.abs().max(a2.abs()),
+            "{a1} {a2}"
+        );
+        assert!((umu - dot4(&u, &mu)).abs() <= 1e-12 * umu.abs());
+        assert!(umu > 0.0);
     }
 }

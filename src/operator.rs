@@ -109,6 +109,12 @@ pub fn assemble(c: &Classified, num: &Numbering) -> CsMat<f64> {
 /// nodes) and, per node, a bit per direction for a regular link (off-diagonal −1). Vectors on
 /// it have one entry per grid node, zero at solid nodes. Nine bytes a node instead of the
 /// CSR's sixty; the path the multigrid solver takes.
+///
+/// The fast kernels do not read the link bits: a vector is zero at every solid node, so the
+/// plain sum of the four neighbours equals the sum over the regular links, except at a node
+/// whose cut link ends on a fluid node (a wall thinner than a cell, with fluid on both sides).
+/// Those few nodes are listed per row ([`GridOperator::thin_in_row`]) and recomputed from the
+/// link bits after each row.
 #[derive(Debug, Clone)]
 pub struct GridOperator {
     pub nx: usize,
@@ -116,28 +122,45 @@ pub struct GridOperator {
     pub diag: Vec<f64>,
     /// Bit `Dir as u8` set: regular link in that direction.
     pub links: Vec<u8>,
+    /// Fluid nodes with a cut link to a fluid node, in index order.
+    thin: Vec<u32>,
+    /// `thin[thin_rows[j]..thin_rows[j + 1]]` lie in grid row j.
+    thin_rows: Vec<u32>,
 }
 
 impl GridOperator {
     pub fn new(c: &Classified) -> GridOperator {
         use rayon::prelude::*;
         let n = c.grid.len();
+        let nx = c.grid.nx;
         let mut diag = vec![0.0; n];
         let mut links = vec![0u8; n];
-        diag.par_chunks_mut(c.grid.nx)
-            .zip(links.par_chunks_mut(c.grid.nx))
+        let thin_per_row: Vec<Vec<u32>> = diag
+            .par_chunks_mut(nx)
+            .zip(links.par_chunks_mut(nx))
             .enumerate()
-            .for_each(|(j, (drow, lrow))| {
+            .map(|(j, (drow, lrow))| {
+                let mut thin = Vec::new();
                 for i in 0..drow.len() {
-                    let k = j * c.grid.nx + i;
+                    let k = j * nx + i;
                     if !c.fluid[k] {
                         continue;
                     }
                     let mut d = 0.0;
                     let mut mask = 0u8;
+                    let mut is_thin = false;
                     for dir in Dir::ALL {
                         match c.theta(k, dir) {
-                            Some(theta) => d += 1.0 / theta,
+                            Some(theta) => {
+                                d += 1.0 / theta;
+                                let far = match dir {
+                                    Dir::East => k + 1,
+                                    Dir::West => k - 1,
+                                    Dir::North => k + nx,
+                                    Dir::South => k - nx,
+                                };
+                                is_thin |= c.fluid[far];
+                            }
                             None => {
                                 d += 1.0;
                                 mask |= 1 << dir as u8;
@@ -146,14 +169,34 @@ impl GridOperator {
                     }
                     drow[i] = d;
                     lrow[i] = mask;
+                    if is_thin {
+                        thin.push(k as u32);
+                    }
                 }
-            });
+                thin
+            })
+            .collect();
+        let mut thin_rows = Vec::with_capacity(thin_per_row.len() + 1);
+        thin_rows.push(0);
+        let mut thin = Vec::new();
+        for row in thin_per_row {
+            thin.extend(row);
+            thin_rows.push(thin.len() as u32);
+        }
         GridOperator {
-            nx: c.grid.nx,
+            nx,
             ny: c.grid.ny,
             diag,
             links,
+            thin,
+            thin_rows,
         }
+    }
+
+    /// The nodes of grid row j whose cut links end on fluid (see [`GridOperator`]).
+    #[inline]
+    pub fn thin_in_row(&self, j: usize) -> &[u32] {
+        &self.thin[self.thin_rows[j] as usize..self.thin_rows[j + 1] as usize]
     }
 
     /// Sum of the regular neighbours' values of node k.

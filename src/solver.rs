@@ -30,6 +30,12 @@ pub trait LinearOperator {
 /// z = M⁻¹·r for a symmetric positive definite M ≈ A.
 pub trait Preconditioner {
     fn apply(&self, r: &[f64], z: &mut [f64]);
+    /// z = M⁻¹·r and r·z; a preconditioner that can form the product while it writes z saves
+    /// CG a pass over both vectors.
+    fn apply_dot(&self, r: &[f64], z: &mut [f64]) -> f64 {
+        self.apply(r, z);
+        dot(r, z)
+    }
 }
 
 impl LinearOperator for CsMat<f64> {
@@ -246,9 +252,8 @@ pub fn pcg_monitored(
         if r_norm <= target {
             break;
         }
-        pre.apply(&r, &mut z);
+        let mut rz = pre.apply_dot(&r, &mut z);
         p.copy_from_slice(&z);
-        let mut rz = dot(&r, &z);
         loop {
             if it >= params.max_iterations {
                 let rel = true_residual(op, b, x, &mut r) / b_norm;
@@ -276,8 +281,7 @@ pub fn pcg_monitored(
             if rn <= target {
                 break;
             }
-            pre.apply(&r, &mut z);
-            let rz_new = dot(&r, &z);
+            let rz_new = pre.apply_dot(&r, &mut z);
             let beta = rz_new / rz;
             rz = rz_new;
             update_p(&mut p, &z, beta);
