@@ -283,7 +283,10 @@ pub fn classify(domain: &dyn Domain, grid: Grid) -> Result<Classified> {
                 *f = inside(&rows[j], sx) && !on_wall(&rows[j], sx, h) && !on_wall(&cols[i], sy, h);
             }
         });
-    let is_fluid = |k: Option<usize>| k.is_some_and(|m| fluid[m]);
+    // Neighbours from (i, j) directly: Grid::neighbour divides k by nx, which at a million
+    // nodes cost more than the rest of the classification.
+    let (nx, ny) = (grid.nx, grid.ny);
+    let fluid_at = |i: usize, j: usize| fluid[j * nx + i];
     // Cuts per row in parallel, then concatenated in row order.
     let per_row: Vec<(Vec<Cut>, Vec<u32>)> = (0..grid.ny)
         .into_par_iter()
@@ -298,15 +301,15 @@ pub fn classify(domain: &dyn Domain, grid: Grid) -> Result<Classified> {
                         &rows[j],
                         i as f64 * h,
                         h,
-                        is_fluid(grid.neighbour(k, Dir::East)),
-                        is_fluid(grid.neighbour(k, Dir::West)),
+                        i + 1 < nx && fluid_at(i + 1, j),
+                        i > 0 && fluid_at(i - 1, j),
                     );
                     let (no, so) = link_thetas(
                         col,
                         j as f64 * h,
                         h,
-                        is_fluid(grid.neighbour(k, Dir::North)),
-                        is_fluid(grid.neighbour(k, Dir::South)),
+                        j + 1 < ny && fluid_at(i, j + 1),
+                        j > 0 && fluid_at(i, j - 1),
                     );
                     for (d, t) in [
                         (Dir::East, e),
@@ -363,32 +366,44 @@ pub fn classify(domain: &dyn Domain, grid: Grid) -> Result<Classified> {
 /// consistent geometry agree, so this changes nothing in practice; it guarantees a symmetric
 /// matrix whatever round-off does (an end that saw no wall gets θ = 1).
 fn make_links_symmetric(c: &mut Classified) {
+    use rayon::prelude::*;
     let g = c.grid;
-    let mut extra = Vec::new();
-    for k in 0..g.len() {
-        if !c.fluid[k] {
-            continue;
-        }
-        for (d, back) in [
-            (Dir::East, Dir::West),
-            (Dir::West, Dir::East),
-            (Dir::North, Dir::South),
-            (Dir::South, Dir::North),
-        ] {
-            if c.theta(k, d).is_some() {
-                continue;
-            }
-            if let Some(m) = g.neighbour(k, d) {
-                if c.fluid[m] && c.theta(m, back).is_some() {
-                    extra.push(Cut {
-                        node: k,
-                        dir: d,
-                        theta: 1.0,
-                    });
+    let (nx, ny) = (g.nx, g.ny);
+    let cc = &*c;
+    // Rows in parallel, collected in row order; a node without cuts whose neighbours have none
+    // either (nearly all of them) is passed over after four comparisons.
+    let has_cuts = |k: usize| cc.cut_start[k] != cc.cut_start[k + 1];
+    let extra: Vec<Cut> = (0..ny)
+        .into_par_iter()
+        .flat_map_iter(|j| {
+            let mut row = Vec::new();
+            for i in 0..nx {
+                let k = j * nx + i;
+                if !cc.fluid[k] {
+                    continue;
+                }
+                for (d, back, m) in [
+                    (Dir::East, Dir::West, (i + 1 < nx).then(|| k + 1)),
+                    (Dir::West, Dir::East, (i > 0).then(|| k - 1)),
+                    (Dir::North, Dir::South, (j + 1 < ny).then(|| k + nx)),
+                    (Dir::South, Dir::North, (j > 0).then(|| k - nx)),
+                ] {
+                    let Some(m) = m else { continue };
+                    if !has_cuts(m) || !cc.fluid[m] || cc.theta(k, d).is_some() {
+                        continue;
+                    }
+                    if cc.theta(m, back).is_some() {
+                        row.push(Cut {
+                            node: k,
+                            dir: d,
+                            theta: 1.0,
+                        });
+                    }
                 }
             }
-        }
-    }
+            row
+        })
+        .collect();
     if extra.is_empty() {
         return;
     }

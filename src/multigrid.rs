@@ -28,7 +28,7 @@
 //! Invariant: knows the grid's index layout, nothing of geometry or physics.
 
 use crate::operator::GridOperator;
-use crate::solver::{LinearOperator, Preconditioner};
+use crate::solver::{dot4, LinearOperator, Preconditioner};
 use nalgebra::{Cholesky, DMatrix, DVector, Dyn};
 use std::sync::Mutex;
 
@@ -136,25 +136,6 @@ fn apply_row(d: &[f64], xs: &[f64], xc: &[f64], xn: &[f64], out: &mut [f64]) {
     }
     out[0] = 0.0;
     out[nx - 1] = 0.0;
-}
-
-/// Σ a·b with four interleaved partial sums (vectorisable, fixed order).
-#[inline]
-fn dot4(a: &[f64], b: &[f64]) -> f64 {
-    let mut s = [0.0; 4];
-    let (ac, bc) = (a.chunks_exact(4), b.chunks_exact(4));
-    let tail: f64 = ac
-        .remainder()
-        .iter()
-        .zip(bc.remainder())
-        .map(|(x, y)| x * y)
-        .sum();
-    for (x, y) in ac.zip(bc) {
-        for l in 0..4 {
-            s[l] += x[l] * y[l];
-        }
-    }
-    (s[0] + s[1]) + (s[2] + s[3]) + tail
 }
 
 /// Σ over the regular links of the neighbour values (east, west, north, south), the link

@@ -156,7 +156,7 @@ pub fn dot(a: &[f64], b: &[f64]) -> f64 {
     let partial: Vec<f64> = a
         .par_chunks(BLOCK)
         .zip(b.par_chunks(BLOCK))
-        .map(|(x, y)| x.iter().zip(y).map(|(p, q)| p * q).sum::<f64>())
+        .map(|(x, y)| dot4(x, y))
         .collect();
     partial.iter().sum()
 }
@@ -169,13 +169,12 @@ fn update_xr(x: &mut [f64], r: &mut [f64], p: &[f64], q: &[f64], alpha: f64) -> 
         .zip(r.par_chunks_mut(BLOCK))
         .zip(p.par_chunks(BLOCK).zip(q.par_chunks(BLOCK)))
         .map(|((x, r), (p, q))| {
-            let mut s = 0.0;
             for i in 0..x.len() {
                 x[i] += alpha * p[i];
                 r[i] -= alpha * q[i];
-                s += r[i] * r[i];
             }
-            s
+            // The block is still in cache: a second, vectorised loop for r·r.
+            dot4(r, r)
         })
         .collect();
     partial.iter().sum()
@@ -686,7 +685,8 @@ fn shrink(v: &mut Vec<Vec<f64>>, nb: usize, keep: usize) {
 }
 
 /// a·b with four interleaved partial sums (vectorisable, fixed order).
-fn dot4(a: &[f64], b: &[f64]) -> f64 {
+#[inline]
+pub(crate) fn dot4(a: &[f64], b: &[f64]) -> f64 {
     let mut s = [0.0; 4];
     let (ac, bc) = (a.chunks_exact(4), b.chunks_exact(4));
     let tail: f64 = ac
