@@ -16,8 +16,8 @@ use crate::multigrid::Multigrid;
 use crate::operator::{assemble, unit_rhs, GridOperator, Numbering};
 use crate::post::{self, Figures, ShearSample};
 use crate::solver::{
-    pcg_monitored, smallest_eigenpair, CgInfo, CgParams, EigenInfo, EigenParams, Identity, InnerCg,
-    Jacobi, LinearOperator, Monitor, Preconditioner, Silent, SolveFn,
+    pcg_in, smallest_eigenpair, CgInfo, CgParams, CgWorkspace, EigenInfo, EigenParams, Identity,
+    InnerCg, Jacobi, LinearOperator, Monitor, Preconditioner, Silent, SolveFn,
 };
 use crate::study::{self, Sample, Uncertainty};
 use std::path::PathBuf;
@@ -173,13 +173,16 @@ pub fn solve_unit_monitored(
     } else {
         (Vec::new(), Vec::new())
     };
+    // One set of CG work vectors for every solve of this unit problem.
+    let mut work = CgWorkspace::default();
     let mut solve = |rhs: &[f64], x: &mut [f64], params: &CgParams| -> Result<CgInfo> {
         if on_grid {
             for (q, &k) in numbering.node_of.iter().enumerate() {
                 gb[k] = rhs[q];
                 gx[k] = x[q];
             }
-            let info = pcg_monitored(
+            let info = pcg_in(
+                &mut work,
                 op,
                 pre.as_ref(),
                 &gb,
@@ -193,7 +196,16 @@ pub fn solve_unit_monitored(
             }
             Ok(info)
         } else {
-            pcg_monitored(op, pre.as_ref(), rhs, x, params, method.name(), monitor)
+            pcg_in(
+                &mut work,
+                op,
+                pre.as_ref(),
+                rhs,
+                x,
+                params,
+                method.name(),
+                monitor,
+            )
         }
     };
     let mut u = vec![0.0; numbering.len()];
