@@ -28,7 +28,7 @@
 //! Invariant: knows the grid's index layout, nothing of geometry or physics.
 
 use crate::operator::GridOperator;
-use crate::solver::{dot4, LinearOperator, Preconditioner};
+use crate::solver::{dot4, LinearOperator, Preconditioner, BLOCK};
 use nalgebra::{Cholesky, DMatrix, DVector, Dyn};
 use std::sync::Mutex;
 
@@ -204,9 +204,9 @@ trait StencilRows {
     fn is_active(&self, k: usize) -> bool;
     /// Row k as a 9-point stencil (zeros where there is no entry).
     fn row(&self, k: usize) -> [f64; 9];
-    /// Node k is an interior node with the level's standard stencil and a prolongation row
-    /// scale of 1 (a conservative test: false is always safe).
-    fn is_regular(&self, k: usize) -> bool;
+    /// Per node: active, and regular (an interior node with the level's standard stencil and
+    /// a prolongation row scale of 1; a conservative test: false is always safe).
+    fn masks(&self) -> (Vec<bool>, Vec<bool>);
 }
 
 /// Row scale of the prolongation at a fine node with diagonal d: min(1, 4/d).
@@ -237,8 +237,16 @@ impl StencilRows for GridOperator {
     fn is_active(&self, k: usize) -> bool {
         self.diag[k] != 0.0
     }
-    fn is_regular(&self, k: usize) -> bool {
-        self.links[k] == 15 && self.diag[k] == 4.0
+    fn masks(&self) -> (Vec<bool>, Vec<bool>) {
+        use rayon::prelude::*;
+        let active = self.diag.par_iter().map(|&d| d != 0.0).collect();
+        let regular = self
+            .diag
+            .par_iter()
+            .zip(&self.links)
+            .map(|(&d, &l)| l == 15 && d == 4.0)
+            .collect();
+        (active, regular)
     }
     fn row(&self, k: usize) -> [f64; 9] {
         let w = &LINK_WEIGHTS[self.links[k] as usize];
@@ -265,8 +273,9 @@ impl StencilRows for Level {
     fn row(&self, k: usize) -> [f64; 9] {
         *self.st(k)
     }
-    fn is_regular(&self, k: usize) -> bool {
-        self.ids[k] == REGULAR_ID
+    fn masks(&self) -> (Vec<bool>, Vec<bool>) {
+        let regular = self.ids.iter().map(|&id| id == REGULAR_ID).collect();
+        (self.active.clone(), regular)
     }
 }
 
@@ -300,11 +309,11 @@ const REGULAR_ID: u32 = 1;
 /// a fixed order, so the row depends only on the fine data around it, bit for bit.
 fn galerkin_row(
     fine: &(dyn StencilRows + Sync),
-    scale: Option<&[f64]>,
+    scale: Option<&[f32]>,
     ci: usize,
     cj: usize,
 ) -> [f64; 9] {
-    let sc = |k: usize| scale.map_or(1.0, |s| s[k]);
+    let sc = |k: usize| scale.map_or(1.0, |s| s[k] as f64);
     let (fnx, fny) = (fine.nx(), fine.ny());
     let mut row = [0.0f64; 9];
     let (fi0, fj0) = (2 * ci as isize - 1, 2 * cj as isize - 1);
@@ -347,20 +356,6 @@ fn galerkin_row(
     row
 }
 
-/// Coarse node (ci, cj) is regular when every fine node within two cells of the fine node it
-/// sits on is regular: then its Galerkin row is the level's interior stencil.
-fn coarse_is_regular(fine: &(dyn StencilRows + Sync), ci: usize, cj: usize) -> bool {
-    let (fnx, fny) = (fine.nx(), fine.ny());
-    let (fi0, fj0) = (2 * ci as isize - 1, 2 * cj as isize - 1);
-    if fi0 < 3 || fj0 < 3 || fi0 as usize + 3 >= fnx || fj0 as usize + 3 >= fny {
-        return false;
-    }
-    (-2..=2isize).all(|dj| {
-        let row = (fj0 + dj) as usize * fnx;
-        (-2..=2isize).all(|di| fine.is_regular(row + (fi0 + di) as usize))
-    })
-}
-
 /// The Galerkin coarse level Pᵀ·A·P of a fine level; `scale` holds the row scales of P (None:
 /// all 1).
 ///
@@ -369,29 +364,44 @@ fn coarse_is_regular(fine: &(dyn StencilRows + Sync), ci: usize, cj: usize) -> b
 /// once by the same gather at the first such node, so only the rows near walls are computed
 /// one by one; the distinct ones are then stored once each (see [`Level`]). The result does not
 /// depend on the number of threads.
-fn coarsen(fine: &(dyn StencilRows + Sync), scale: Option<&[f64]>) -> Level {
+fn coarsen(fine: &(dyn StencilRows + Sync), scale: Option<&[f32]>) -> Level {
     use rayon::prelude::*;
     let (fnx, fny) = (fine.nx(), fine.ny());
     let (nx, ny) = (coarse_size(fnx), coarse_size(fny));
     // A coarse node is active when a fine active node interpolates from it: one in the 3 × 3
-    // block around the fine node it sits on.
+    // block around the fine node (2I − 1, 2J − 1) it sits on. It is regular when every fine node
+    // in the 5 × 5 block around that node is regular (then its Galerkin row is the level's
+    // interior stencil). Both tests separably: per fine row and coarse column first (`h_act`,
+    // `h_reg`), then down the coarse column.
+    let (act, reg) = fine.masks();
+    let mut h_act = vec![false; fny * nx];
+    let mut h_reg = vec![false; fny * nx];
+    h_act
+        .par_chunks_mut(nx)
+        .zip(h_reg.par_chunks_mut(nx))
+        .enumerate()
+        .for_each(|(fj, (ha, hr))| {
+            let (a, r) = (
+                &act[fj * fnx..(fj + 1) * fnx],
+                &reg[fj * fnx..(fj + 1) * fnx],
+            );
+            for ci in 1..nx - 1 {
+                let fi0 = 2 * ci - 1;
+                ha[ci] = (fi0.saturating_sub(1).max(1)..=(fi0 + 1).min(fnx - 2)).any(|fi| a[fi]);
+                hr[ci] = fi0 >= 3 && fi0 + 3 < fnx && r[fi0 - 2..=fi0 + 2].iter().all(|&v| v);
+            }
+        });
     let is_active = |ci: usize, cj: usize| -> bool {
-        let (fi0, fj0) = (2 * ci as isize - 1, 2 * cj as isize - 1);
-        (-1..=1isize).any(|dj| {
-            let fj = fj0 + dj;
-            fj >= 1
-                && (fj as usize) < fny - 1
-                && (-1..=1isize).any(|di| {
-                    let fi = fi0 + di;
-                    fi >= 1
-                        && (fi as usize) < fnx - 1
-                        && fine.is_active(fj as usize * fnx + fi as usize)
-                })
-        })
+        let fj0 = 2 * cj - 1;
+        (fj0.saturating_sub(1).max(1)..=(fj0 + 1).min(fny - 2)).any(|fj| h_act[fj * nx + ci])
+    };
+    let coarse_is_regular = |ci: usize, cj: usize| -> bool {
+        let fj0 = 2 * cj - 1;
+        fj0 >= 3 && fj0 + 3 < fny && (fj0 - 2..=fj0 + 2).all(|fj| h_reg[fj * nx + ci])
     };
     let interior = (1..ny - 1)
         .flat_map(|cj| (1..nx - 1).map(move |ci| (ci, cj)))
-        .find(|&(ci, cj)| coarse_is_regular(fine, ci, cj))
+        .find(|&(ci, cj)| coarse_is_regular(ci, cj))
         .map(|(ci, cj)| galerkin_row(fine, scale, ci, cj));
     // Per coarse row: active flags, ids (REGULAR_ID, 0, or u32::MAX = to be looked up) and the
     // irregular stencils in order.
@@ -410,7 +420,7 @@ fn coarsen(fine: &(dyn StencilRows + Sync), scale: Option<&[f64]>) -> Level {
                     continue;
                 }
                 active[ci] = true;
-                if interior.is_some() && coarse_is_regular(fine, ci, cj) {
+                if interior.is_some() && coarse_is_regular(ci, cj) {
                     ids[ci] = REGULAR_ID;
                 } else {
                     ids[ci] = u32::MAX;
@@ -496,27 +506,37 @@ impl<'a> Multigrid<'a> {
     /// Builds the hierarchy: coarsen until a level has at most [`DIRECT_LIMIT`] active nodes or
     /// cannot shrink, then factor that level.
     pub fn new(fine: &'a GridOperator) -> Multigrid<'a> {
-        let fine_scale: Vec<f32> = fine
-            .diag
-            .iter()
-            .map(|&d| if d == 0.0 { 0.0 } else { pscale_of(d) as f32 })
-            .collect();
-        let scale64: Vec<f64> = fine_scale.iter().map(|&v| v as f64).collect();
+        use rayon::prelude::*;
+        // The fine level's per-node numbers in one pass: row scale of P, 1/d, d′.
+        let n = fine.diag.len();
+        let (mut fine_scale, mut inv_diag) = (vec![0.0f32; n], vec![0.0f32; n]);
+        let mut fine_diag = vec![0.0f64; n];
+        fine_scale
+            .par_chunks_mut(BLOCK)
+            .zip(inv_diag.par_chunks_mut(BLOCK))
+            .zip(fine_diag.par_chunks_mut(BLOCK))
+            .zip(fine.diag.par_chunks(BLOCK))
+            .for_each(|(((sc, inv), dd), d)| {
+                for i in 0..d.len() {
+                    if d[i] != 0.0 {
+                        sc[i] = pscale_of(d[i]) as f32;
+                        inv[i] = (1.0 / d[i]) as f32;
+                        dd[i] = 1.0 / inv[i] as f64;
+                    }
+                }
+            });
+        let fine_count = fine.diag.par_iter().filter(|&&d| d != 0.0).count();
         let mut levels: Vec<Level> = Vec::new();
         loop {
             let (nx, ny, count) = match levels.last() {
-                None => (
-                    fine.nx,
-                    fine.ny,
-                    fine.diag.iter().filter(|&&d| d != 0.0).count(),
-                ),
+                None => (fine.nx, fine.ny, fine_count),
                 Some(l) => (l.nx, l.ny, l.active_count()),
             };
             if count <= DIRECT_LIMIT || coarse_size(nx) >= nx || coarse_size(ny) >= ny {
                 break;
             }
             let next = match levels.last() {
-                None => coarsen(fine, Some(&scale64)),
+                None => coarsen(fine, Some(&fine_scale)),
                 Some(l) => coarsen(l, None),
             };
             levels.push(next);
@@ -551,22 +571,12 @@ impl<'a> Multigrid<'a> {
             let chol = Cholesky::new(m).expect("Galerkin coarse operator is positive definite");
             (chol, idx)
         });
-        drop(scale64);
         let scratch = Scratch {
             fine_x: vec![0.0; fine.diag.len()],
             tmp: Vec::with_capacity(fine.diag.len() / 2 + 4 * fine.ny),
             x: levels.iter().map(|l| vec![0.0; l.len()]).collect(),
             b: levels.iter().map(|l| vec![0.0; l.len()]).collect(),
         };
-        let inv_diag: Vec<f32> = fine
-            .diag
-            .iter()
-            .map(|&d| if d != 0.0 { (1.0 / d) as f32 } else { 0.0 })
-            .collect();
-        let fine_diag = inv_diag
-            .iter()
-            .map(|&v| if v != 0.0 { 1.0 / v as f64 } else { 0.0 })
-            .collect();
         let mut masks = Vec::new();
         for l in &levels {
             masks.push(
