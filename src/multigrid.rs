@@ -657,6 +657,7 @@ struct Fine<'a> {
 }
 
 /// A pre-smoothed row j of x (1 ≤ j ≤ ny − 2) from zero, straight from b and 1/d.
+#[inline]
 fn presmooth_row(f: &Fine, b: &[f64], j: usize, out: &mut [f64]) {
     let (a, inv) = (f.a, f.inv);
     let nx = a.nx;
@@ -994,11 +995,11 @@ const BAND_ROWS: usize = 48;
 /// of threads (the bands depend only on the grid), so the numbers do not change with it and
 /// the backward sweep is the adjoint of the forward one: the V-cycle stays symmetric.
 ///
-/// Within a row the sum is ordered so that the neighbour updated just before (i − 1 forward,
-/// i + 1 backward) enters last: the other seven terms do not wait for it, and the chain from one
-/// update to the next is one multiply-add and a multiply instead of nine (measured: 12 ns per
-/// node with the terms in stencil order). A four-colour ordering, fully parallel too, was tried
-/// and cost two more CG iterations on a disc (12 instead of 10).
+/// The forward sweep starts from x = 0 (the old contents of x are ignored, see [`sweep_row`]);
+/// the backward one from the current x. Within a row only the neighbour updated just before
+/// (i − 1 forward, i + 1 backward) is on the dependency chain (see [`sweep_row`]; measured: 12 ns
+/// per node with the terms in stencil order). A four-colour ordering, fully parallel too, was
+/// tried and cost two more CG iterations on a disc (12 instead of 10).
 fn smooth_coarse(l: &Level, b: &[f64], x: &mut [f64], forward: bool) {
     use rayon::prelude::*;
     let ny = l.ny;
@@ -1022,13 +1023,14 @@ fn smooth_coarse(l: &Level, b: &[f64], x: &mut [f64], forward: bool) {
             // SAFETY: this task writes only the rows of its band and reads those and the
             // separator rows next to them, which no task writes in this phase; other bands are
             // at least one separator row away. All indices lie inside the grid.
+            let first = rows.start;
             if forward {
                 for j in rows {
-                    unsafe { sweep_row(l, b, shared.0, j, true) };
+                    unsafe { sweep_row(l, b, shared.0, j, true, j == first, true) };
                 }
             } else {
                 for j in rows.rev() {
-                    unsafe { sweep_row(l, b, shared.0, j, false) };
+                    unsafe { sweep_row(l, b, shared.0, j, false, false, false) };
                 }
             }
         });
@@ -1038,7 +1040,7 @@ fn smooth_coarse(l: &Level, b: &[f64], x: &mut [f64], forward: bool) {
             let shared = &shared;
             // SAFETY: separator rows are BAND_ROWS + 1 rows apart, so this task writes row j
             // and reads rows j ± 1 (band rows), which no task writes in this phase.
-            unsafe { sweep_row(l, b, shared.0, j, forward) };
+            unsafe { sweep_row(l, b, shared.0, j, forward, false, false) };
         });
     };
     if forward {
@@ -1050,90 +1052,153 @@ fn smooth_coarse(l: &Level, b: &[f64], x: &mut [f64], forward: bool) {
     }
 }
 
-/// Gauss–Seidel along inner row j of a coarse level, left to right (`forward`) or right to left.
+/// Gauss–Seidel along inner row j of a coarse level: left to right from x = 0 (`forward`, the
+/// pre-smoothing), or right to left from the current x.
+///
+/// From zero, every node not yet updated in the sweep counts as 0 whatever x holds there: the
+/// east neighbour, the north row (`north_zero`, a later row of the band or the separator after
+/// it) and the south row when `south_zero` (the separator before the band). So x need not be
+/// cleared before the sweep, and those reads are skipped.
+///
+/// Along the row, x_k = a_k − c_k·x_prev with a_k = (b_k − the other terms)/d_k and
+/// c_k = (the coefficient towards the node updated just before)/d_k: a_k does not wait for
+/// x_prev, and x_prev stays in a register, so the dependency chain from one node to the next is
+/// one multiply and one subtraction (the same linear map as (b − Σ)/d, rounded differently).
 ///
 /// # Safety
 /// `x` points to the level's vector; no other thread may write rows j − 1, j, j + 1 or read
 /// row j during the call.
-unsafe fn sweep_row(l: &Level, b: &[f64], x: *mut f64, j: usize, forward: bool) {
+unsafe fn sweep_row(
+    l: &Level,
+    b: &[f64],
+    x: *mut f64,
+    j: usize,
+    forward: bool,
+    south_zero: bool,
+    north_zero: bool,
+) {
+    unsafe {
+        match (forward, south_zero, north_zero) {
+            (true, true, true) => sweep_row_impl::<true, true, true>(l, b, x, j),
+            (true, false, true) => sweep_row_impl::<true, false, true>(l, b, x, j),
+            (true, true, false) => sweep_row_impl::<true, true, false>(l, b, x, j),
+            (true, false, false) => sweep_row_impl::<true, false, false>(l, b, x, j),
+            (false, _, _) => sweep_row_impl::<false, false, false>(l, b, x, j),
+        }
+    }
+}
+
+/// [`sweep_row`] for one combination of its flags (FWD: forward from zero; ZS, ZN: the south,
+/// north row counts as zero).
+#[inline(always)]
+unsafe fn sweep_row_impl<const FWD: bool, const ZS: bool, const ZN: bool>(
+    l: &Level,
+    b: &[f64],
+    x: *mut f64,
+    j: usize,
+) {
     let nx = l.nx;
     // The interior stencil: N/S edges, E/W edges, corners.
     let reg = l.regular_parts();
     let regular = reg.is_some();
     let (ey, ex, q, _, inv_r) = reg.unwrap_or((0.0, 0.0, 0.0, 0.0, 0.0));
+    let c_r = ex * inv_r;
     let at = |k: usize| unsafe { *x.add(k) };
-    let update = |k: usize| {
+    let south = |k: usize| if ZS { 0.0 } else { at(k - nx) };
+    let north = |k: usize| if ZN { 0.0 } else { at(k + nx) };
+    // The part of the update that does not depend on the node updated just before.
+    let part = |k: usize| -> (f64, f64) {
         let id = l.ids[k];
-        let (s, w, e, inv) = if regular && id == REGULAR_ID {
-            (
-                b[k] - ey * (at(k - nx) + at(k + nx))
-                    - q * ((at(k - nx - 1) + at(k - nx + 1)) + (at(k + nx - 1) + at(k + nx + 1))),
-                ex,
-                ex,
-                inv_r,
-            )
+        if regular && id == REGULAR_ID {
+            let rows = ey * (south(k) + north(k))
+                + q * ((south(k - 1) + south(k + 1)) + (north(k - 1) + north(k + 1)));
+            // Forward from zero the east neighbour is 0; backward the west one is current.
+            let other = if FWD { 0.0 } else { ex * at(k - 1) };
+            ((b[k] - rows - other) * inv_r, c_r)
         } else {
             let st = &l.table[id as usize];
-            (
-                b[k] - st[0] * at(k - nx - 1)
-                    - st[1] * at(k - nx)
-                    - st[2] * at(k - nx + 1)
-                    - st[6] * at(k + nx - 1)
-                    - st[7] * at(k + nx)
-                    - st[8] * at(k + nx + 1),
-                st[3],
-                st[5],
-                l.inv_table[id as usize],
-            )
-        };
-        let s = if forward {
-            s - e * at(k + 1) - w * at(k - 1)
-        } else {
-            s - w * at(k - 1) - e * at(k + 1)
-        };
-        unsafe { *x.add(k) = s * inv };
+            let inv = l.inv_table[id as usize];
+            let rows = st[0] * south(k - 1)
+                + st[1] * south(k)
+                + st[2] * south(k + 1)
+                + st[6] * north(k - 1)
+                + st[7] * north(k)
+                + st[8] * north(k + 1);
+            if FWD {
+                ((b[k] - rows) * inv, st[3] * inv)
+            } else {
+                ((b[k] - rows - st[3] * at(k - 1)) * inv, st[5] * inv)
+            }
+        }
     };
     let row = j * nx;
-    if forward {
-        (row + 1..row + nx - 1).for_each(update);
+    // The ring columns hold 0.
+    let mut prev = 0.0;
+    if FWD {
+        for k in row + 1..row + nx - 1 {
+            let (a, c) = part(k);
+            prev = a - c * prev;
+            unsafe { *x.add(k) = prev };
+        }
     } else {
-        (row + 1..row + nx - 1).rev().for_each(update);
+        for k in (row + 1..row + nx - 1).rev() {
+            let (a, c) = part(k);
+            prev = a - c * prev;
+            unsafe { *x.add(k) = prev };
+        }
     }
 }
 
 /// Row j of r = b − A·x on a coarse level (zero at inactive nodes and on the ring).
+#[inline]
 fn residual_row_coarse(l: &Level, b: &[f64], x: &[f64], j: usize, r: &mut [f64]) {
     let nx = l.nx;
     r.iter_mut().for_each(|v| *v = 0.0);
     if j == 0 || j + 1 >= l.ny {
         return;
     }
-    let reg = l.regular_parts();
-    // Inactive nodes have the zero stencil and b = 0 (no fluid node restricts to them), so
-    // they get r = 0 without a test.
-    for (i, out) in r.iter_mut().enumerate().take(nx - 1).skip(1) {
-        let k = j * nx + i;
-        let id = l.ids[k];
-        *out = match reg {
-            Some((ey, ex, q, c, _)) if id == REGULAR_ID => {
-                b[k] - c * x[k]
-                    - ey * (x[k - nx] + x[k + nx])
-                    - ex * (x[k - 1] + x[k + 1])
-                    - q * ((x[k - nx - 1] + x[k - nx + 1]) + (x[k + nx - 1] + x[k + nx + 1]))
-            }
-            _ => {
-                let st = &l.table[id as usize];
-                b[k] - st[0] * x[k - nx - 1]
-                    - st[1] * x[k - nx]
-                    - st[2] * x[k - nx + 1]
-                    - st[3] * x[k - 1]
-                    - st[4] * x[k]
-                    - st[5] * x[k + 1]
-                    - st[6] * x[k + nx - 1]
-                    - st[7] * x[k + nx]
-                    - st[8] * x[k + nx + 1]
-            }
-        };
+    let row = j * nx;
+    let m = nx - 2;
+    let ids = &l.ids[row + 1..row + 1 + m];
+    // First the interior stencil at every node of the row (a contiguous loop that vectorises),
+    // then the nodes with another stencil, from the table. Inactive nodes have the zero stencil
+    // and b = 0 (no fluid node restricts to them), so they get r = 0 without a test.
+    let regular = l.regular_parts();
+    if let Some((ey, ex, q, c, _)) = regular {
+        let (xs, xc, xn) = (
+            &x[row - nx..row],
+            &x[row..row + nx],
+            &x[row + nx..row + 2 * nx],
+        );
+        let bb = &b[row + 1..row + 1 + m];
+        let o = &mut r[1..1 + m];
+        let (s0, s1, s2) = (&xs[..m], &xs[1..1 + m], &xs[2..2 + m]);
+        let (c0, c1, c2) = (&xc[..m], &xc[1..1 + m], &xc[2..2 + m]);
+        let (n0, n1, n2) = (&xn[..m], &xn[1..1 + m], &xn[2..2 + m]);
+        for i in 0..m {
+            o[i] = bb[i]
+                - c * c1[i]
+                - ey * (s1[i] + n1[i])
+                - ex * (c0[i] + c2[i])
+                - q * ((s0[i] + s2[i]) + (n0[i] + n2[i]));
+        }
+    }
+    for (i, &id) in ids.iter().enumerate() {
+        if regular.is_some() && id == REGULAR_ID {
+            continue;
+        }
+        let k = row + 1 + i;
+        let st = &l.table[id as usize];
+        r[i + 1] = b[k]
+            - st[0] * x[k - nx - 1]
+            - st[1] * x[k - nx]
+            - st[2] * x[k - nx + 1]
+            - st[3] * x[k - 1]
+            - st[4] * x[k]
+            - st[5] * x[k + 1]
+            - st[6] * x[k + nx - 1]
+            - st[7] * x[k + nx]
+            - st[8] * x[k + nx + 1];
     }
 }
 
@@ -1145,8 +1210,11 @@ fn restrict_line(row: &[f64], out: &mut [f64]) {
     let len = out.len();
     out[0] = 0.0;
     out[len - 1] = 0.0;
-    for (ci, o) in out.iter_mut().enumerate().take(len - 1).skip(1) {
-        *o = row[2 * ci - 1] + 0.5 * (row[2 * ci - 2] + row[2 * ci]);
+    // Pairs (row[2I − 2], row[2I − 1]) and the next pair's first entry, row[2I].
+    let pairs = row.chunks_exact(2);
+    let next = row[2..].chunks_exact(2);
+    for ((o, p), q) in out[1..len - 1].iter_mut().zip(pairs).zip(next) {
+        *o = p[1] + 0.5 * (p[0] + q[0]);
     }
 }
 
@@ -1189,6 +1257,7 @@ fn prepare_tmp(tmp: &mut Vec<f64>, fny: usize, cny: usize, cnx: usize) {
 
 /// The y half of the restriction: coarse row J takes x-restricted fine rows 2J − 1 with weight
 /// 1, 2J − 2 and 2J with ½.
+#[inline]
 fn restrict_columns(tmp: &[f64], bc: &mut [f64], cnx: usize) {
     use rayon::prelude::*;
     let cny = bc.len() / cnx;
@@ -1221,17 +1290,33 @@ fn prolong_row<S: Copy + Into<f64>>(
     let (p, n) = parents(j);
     let ra = &xc[p[0].0 * cnx..(p[0].0 + 1) * cnx];
     let rb = &xc[p[n - 1].0 * cnx..(p[n - 1].0 + 1) * cnx];
-    // Coarse value at column c interpolated to this fine row.
-    let t = |c: usize| if n == 1 { ra[c] } else { 0.5 * (ra[c] + rb[c]) };
+    // The coarse row interpolated to this fine row, then along x: fine 2I − 1 takes coarse I,
+    // fine 2I the mean of I and I + 1.
+    let mut t = Buffer::take(cnx);
+    if n == 1 {
+        t.copy_from_slice(ra);
+    } else {
+        for ((t, a), b) in t.iter_mut().zip(ra).zip(rb) {
+            *t = 0.5 * (a + b);
+        }
+    }
     out[0] = x[0];
     out[fnx - 1] = x[fnx - 1];
-    for i in 1..fnx - 1 {
-        let v = if i % 2 == 1 {
-            t(i.div_ceil(2))
-        } else {
-            0.5 * (t(i / 2) + t(i / 2 + 1))
-        };
-        out[i] = x[i] + scale[i].into() * v;
+    let inner = fnx - 2;
+    let pairs = inner / 2;
+    let (o, xx, sc) = (
+        &mut out[1..1 + inner],
+        &x[1..1 + inner],
+        &scale[1..1 + inner],
+    );
+    for c in 0..pairs {
+        let (a, b) = (t[c + 1], t[c + 2]);
+        o[2 * c] = xx[2 * c] + sc[2 * c].into() * a;
+        o[2 * c + 1] = xx[2 * c + 1] + sc[2 * c + 1].into() * (0.5 * (a + b));
+    }
+    if inner % 2 == 1 {
+        let c = pairs;
+        o[2 * c] = xx[2 * c] + sc[2 * c].into() * t[c + 1];
     }
 }
 
@@ -1271,7 +1356,6 @@ impl Multigrid<'_> {
             return;
         }
         let next = &self.levels[l + 1];
-        s.x[l].iter_mut().for_each(|v| *v = 0.0);
         smooth_coarse(lev, &s.b[l], &mut s.x[l], true);
         {
             let (bl, bn) = s.b.split_at_mut(l + 1);
