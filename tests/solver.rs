@@ -8,7 +8,7 @@ use canalis::geometry::{Domain, Primitive, Shape};
 use canalis::grid::Grid;
 use canalis::pipeline::{solve_unit, Method, UnitOptions, UnitSolution};
 
-fn solve(domain: &dyn Domain, cells: usize, method: Method) -> UnitSolution {
+fn solve(domain: &dyn Domain, cells: usize, method: Method, correction: bool) -> UnitSolution {
     let grid = match domain.lattice() {
         Some(l) => Grid::from_lattice(l),
         None => {
@@ -20,6 +20,7 @@ fn solve(domain: &dyn Domain, cells: usize, method: Method) -> UnitSolution {
     let opts = UnitOptions {
         method,
         heat: false,
+        wall_correction: correction,
         ..Default::default()
     };
     solve_unit(domain, grid, domain.lattice().is_none(), &opts).expect("solve")
@@ -78,11 +79,15 @@ fn shapes() -> Vec<(&'static str, Box<dyn Domain>)> {
 fn multigrid_matches_jacobi_and_converges_fast() {
     // The two preconditioners solve the same linear system to the same residual, so the flow
     // integrals must agree far below the discretisation error (1e-9 relative; common practice,
-    // no source). Iterations: at most 25 per solve (issue 3).
+    // no source). The comparison is made without the wall correction: its right-hand side is
+    // built from a first solve stopped at 1e-3 by design, which differs between the methods
+    // (by 2e-9 in the flow integral of the eccentric annulus), so with it the two systems are
+    // not quite the same. Iterations: at most 25 per solve (issue 3), on the default pipeline.
     for (name, domain) in shapes() {
-        let mg = solve(domain.as_ref(), 200, Method::Multigrid);
-        let jc = solve(domain.as_ref(), 200, Method::Jacobi);
-        let (a, b) = (mg.figures.flow_integral, jc.figures.flow_integral);
+        let mg = solve(domain.as_ref(), 200, Method::Multigrid, true);
+        let mg_plain = solve(domain.as_ref(), 200, Method::Multigrid, false);
+        let jc = solve(domain.as_ref(), 200, Method::Jacobi, false);
+        let (a, b) = (mg_plain.figures.flow_integral, jc.figures.flow_integral);
         let per_pass: Vec<usize> = mg.passes.iter().map(|p| p.iterations).collect();
         println!(
             "{name:18} multigrid {per_pass:?} iterations, Jacobi {} in all; flow integrals differ by {:.1e}",
@@ -94,7 +99,7 @@ fn multigrid_matches_jacobi_and_converges_fast() {
             assert!(p.iterations <= 25, "{name}: {per_pass:?}");
         }
         // The last solve reaches the full tolerance (the first one, followed by the wall
-        // correction, stops at 1e-6 by design: see pipeline::solve_unit).
+        // correction, stops at 1e-3 by design: see pipeline::FIRST_PASS_TOLERANCE).
         let last = mg.passes.last().expect("a solve");
         assert!(
             last.relative_residual <= 1e-10,
