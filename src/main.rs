@@ -72,7 +72,7 @@ struct SolveArgs {
     /// The cross-section: a shape file (*.toml), a mask image (*.png, *.bmp, *.tif), a drawing
     /// (*.svg) or a built-in shape such as circle:d=8mm (see `canalis shapes`).
     shape: String,
-    /// Grid cells across the longer side of the bounding box [default: 480]. Ignored for
+    /// Grid cells across the longer side of the bounding box [default: 600]. Ignored for
     /// masks with --mask-mode pixels, whose grid is the pixel grid.
     #[arg(long)]
     cells: Option<usize>,

@@ -53,7 +53,7 @@ impl Method {
 /// to 400 cells: 1e-4 instead of 1e-6 changes f·Re by at most 2e-10 (relative) and the force
 /// balance not at all, and saves two CG iterations. 1e-3 instead of 1e-4 saves one more
 /// (measured at 128 to 2048 cells on a circle, an eccentric annulus and a finned tube) and
-/// changes f·Re by at most 5e-10 at the default 480 cells and 3e-8 at 100 cells (circle,
+/// changes f·Re by at most 5e-10 at 480 cells and 3e-8 at 100 cells (circle,
 /// rectangle, ellipse, triangle, annulus, shapes/finned_tube.toml, shapes/mould_slot.toml),
 /// two to three orders below the discretisation error at those grids.
 const FIRST_PASS_TOLERANCE: f64 = 1e-3;
@@ -564,10 +564,11 @@ pub struct OperatingSpec {
 
 /// Default number of cells across the longer side of the bounding box: the finest grid at which
 /// the whole default `canalis solve` of every shipped example (flow, heat transfer and the cheap
-/// error estimate) stays under half a second (measured 0.31–0.47 s at 480 cells against
-/// 0.27–0.78 s at 600; BENCHMARKS.md). The flow alone was raised from 400 to 600 cells when the
-/// multigrid solver came; heat transfer and error bars have since taken part of that budget.
-pub const DEFAULT_CELLS: usize = 480;
+/// error estimate) stays under half a second with a margin for a loaded machine (fourth
+/// session, BENCHMARKS.md: 0.12–0.34 s at 600 cells, 0.22–0.53 s at 720). The flow alone was
+/// raised from 400 to 600 cells when the multigrid solver came; heat transfer and error bars
+/// then took the default back to 480, and the faster V-cycle of the fourth session to 600.
+pub const DEFAULT_CELLS: usize = 600;
 /// Cells across each case of `canalis verify` unless told otherwise (the grid at which the
 /// accuracy of the exact cases is specified).
 pub const VERIFY_CELLS: usize = 400;
