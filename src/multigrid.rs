@@ -57,18 +57,24 @@ impl LinearOperator for GridOperator {
     /// y = A·x, branch-free: solid nodes have d = 0 and no links, so y = 0 there; the solid
     /// ring keeps every neighbour read inside the grid.
     fn apply(&self, x: &[f64], y: &mut [f64]) {
-        self.apply_rows(x, y);
+        self.apply_rows(x, y, None);
     }
 
     /// y = A·x with x·y summed row by row and the row sums added in row order: one pass over
     /// x and y instead of two, the same numbers with any number of threads.
     fn apply_dot(&self, x: &[f64], y: &mut [f64]) -> f64 {
-        let rows = self.apply_rows(x, y);
+        let rows = self.apply_rows(x, y, None);
         rows.iter().sum()
     }
 
     fn diagonal(&self) -> Vec<f64> {
         self.diag.clone()
+    }
+
+    /// r = b − A·x and r·r in one pass over the rows (row sums added in row order).
+    fn residual(&self, b: &[f64], x: &[f64], r: &mut [f64]) -> f64 {
+        let rows = self.apply_rows(x, r, Some(b));
+        rows.iter().sum()
     }
 
     fn abs_product_norm(&self, x: &[f64]) -> f64 {
@@ -90,19 +96,29 @@ impl LinearOperator for GridOperator {
 
 impl GridOperator {
     /// y = A·x, rows in parallel (each output row is written by one task); returns x·y of each
-    /// row. Branch-free ([`apply_row`]); solid nodes get y = 0.
-    fn apply_rows(&self, x: &[f64], y: &mut [f64]) -> Vec<f64> {
+    /// row. Branch-free ([`apply_row`]); solid nodes get y = 0. With `b`: y = b − A·x instead,
+    /// and y·y of each row.
+    fn apply_rows(&self, x: &[f64], y: &mut [f64], b: Option<&[f64]>) -> Vec<f64> {
         use rayon::prelude::*;
         let nx = self.nx;
         let ny = self.ny;
         y.par_chunks_mut(nx)
             .enumerate()
             .map(|(j, out)| {
-                if j == 0 || j + 1 >= ny {
-                    out.iter_mut().for_each(|v| *v = 0.0);
-                    return 0.0;
-                }
                 let row = j * nx;
+                if j == 0 || j + 1 >= ny {
+                    // A·x = 0 on the ring rows.
+                    return match b {
+                        Some(b) => {
+                            out.copy_from_slice(&b[row..row + nx]);
+                            dot4(out, out)
+                        }
+                        None => {
+                            out.iter_mut().for_each(|v| *v = 0.0);
+                            0.0
+                        }
+                    };
+                }
                 let (xs, xc, xn) = (
                     &x[row - nx..row],
                     &x[row..row + nx],
@@ -114,7 +130,15 @@ impl GridOperator {
                     let s = link_sum(self.links[k], x[k + 1], x[k - 1], x[k + nx], x[k - nx]);
                     out[i] = self.diag[k] * x[k] - s;
                 }
-                dot4(xc, out)
+                match b {
+                    Some(b) => {
+                        for (o, bi) in out.iter_mut().zip(&b[row..row + nx]) {
+                            *o = bi - *o;
+                        }
+                        dot4(out, out)
+                    }
+                    None => dot4(xc, out),
+                }
             })
             .collect()
     }

@@ -25,6 +25,14 @@ pub trait LinearOperator {
         self.apply(x, y);
         dot(x, y)
     }
+    /// r = b − A·x and returns r·r (fixed-order sum), which an operator may do in one pass.
+    fn residual(&self, b: &[f64], x: &[f64], r: &mut [f64]) -> f64 {
+        self.apply(x, r);
+        for (ri, bi) in r.iter_mut().zip(b) {
+            *ri = bi - *ri;
+        }
+        dot(r, r)
+    }
 }
 
 /// z = M⁻¹·r for a symmetric positive definite M ≈ A.
@@ -193,11 +201,7 @@ fn update_p(p: &mut [f64], z: &[f64], beta: f64) {
 }
 
 fn true_residual(op: &dyn LinearOperator, b: &[f64], x: &[f64], r: &mut [f64]) -> f64 {
-    op.apply(x, r);
-    for (ri, bi) in r.iter_mut().zip(b) {
-        *ri = bi - *ri;
-    }
-    dot(r, r).sqrt()
+    op.residual(b, x, r).sqrt()
 }
 
 /// Solves A·x = b by preconditioned conjugate gradients, starting from the given `x`.
