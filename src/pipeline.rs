@@ -565,7 +565,7 @@ pub struct OperatingSpec {
 /// Default number of cells across the longer side of the bounding box: the finest grid at which
 /// the whole default `canalis solve` of every shipped example (flow, heat transfer and the cheap
 /// error estimate) stays under half a second with a margin for a loaded machine (fourth
-/// session, BENCHMARKS.md: 0.12–0.34 s at 600 cells, 0.22–0.53 s at 720). The flow alone was
+/// session, BENCHMARKS.md: 0.17–0.44 s at 600 cells, 0.24–0.53 s at 720). The flow alone was
 /// raised from 400 to 600 cells when the multigrid solver came; heat transfer and error bars
 /// then took the default back to 480, and the faster V-cycle of the fourth session to 600.
 pub const DEFAULT_CELLS: usize = 600;
