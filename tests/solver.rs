@@ -134,3 +134,38 @@ fn multigrid_iterations_do_not_grow_with_the_grid() {
     // No growth from 256 to 1024 cells (issue 3); 4096 is in the benchmark.
     assert!(counts[3] <= counts[1], "{counts:?}");
 }
+
+#[test]
+fn results_do_not_depend_on_the_number_of_threads() {
+    // Issue 3: parallel work must give identical results from run to run, whatever the number
+    // of threads (fixed work split and fixed-order reductions; common practice, no source).
+    // Bitwise, on shapes that take every path of the fine passes: cut walls, the thin plate's
+    // fluid-to-fluid cut links, a mask.
+    let run = |threads: usize, domain: &dyn Domain| {
+        rayon::ThreadPoolBuilder::new()
+            .num_threads(threads)
+            .build()
+            .expect("thread pool")
+            .install(|| solve(domain, 160, Method::Multigrid, true))
+    };
+    for (name, domain) in shapes() {
+        let one = run(1, domain.as_ref());
+        let two = run(2, domain.as_ref());
+        let three = run(3, domain.as_ref());
+        for other in [&two, &three] {
+            assert_eq!(one.info.iterations, other.info.iterations, "{name}");
+            assert_eq!(
+                one.figures.flow_integral.to_bits(),
+                other.figures.flow_integral.to_bits(),
+                "{name}"
+            );
+            assert!(
+                one.u
+                    .iter()
+                    .zip(&other.u)
+                    .all(|(a, b)| a.to_bits() == b.to_bits()),
+                "{name}: the velocity fields differ"
+            );
+        }
+    }
+}
