@@ -212,18 +212,18 @@ const ON_WALL: f64 = 1e-9;
 
 /// Is the node at s within ON_WALL·h of a crossing? `crossings` sorted.
 fn on_wall(crossings: &[f64], s: f64, h: f64) -> bool {
-    let i = crossings.partition_point(|&c| c < s);
+    on_wall_at(crossings, crossings.partition_point(|&c| c < s), s, h)
+}
+
+/// [`on_wall`] with `i` = the number of crossings below s, already known.
+#[inline]
+fn on_wall_at(crossings: &[f64], i: usize, s: f64, h: f64) -> bool {
     let near = |j: usize| {
         crossings
             .get(j)
             .is_some_and(|&c| (c - s).abs() <= ON_WALL * h)
     };
     near(i) || (i > 0 && near(i - 1))
-}
-
-/// Parity of the crossings below s: odd = inside.
-fn inside(crossings: &[f64], s: f64) -> bool {
-    crossings.partition_point(|&c| c < s) % 2 == 1
 }
 
 /// θ of the links of a fluid node at s along a line: (+ direction, − direction), None for a
@@ -236,6 +236,19 @@ fn link_thetas(
     minus_fluid: bool,
 ) -> (Option<f64>, Option<f64>) {
     let i = crossings.partition_point(|&c| c <= s);
+    link_thetas_at(crossings, i, s, h, plus_fluid, minus_fluid)
+}
+
+/// [`link_thetas`] with `i` = the number of crossings at or below s, already known.
+#[inline]
+fn link_thetas_at(
+    crossings: &[f64],
+    i: usize,
+    s: f64,
+    h: f64,
+    plus_fluid: bool,
+    minus_fluid: bool,
+) -> (Option<f64>, Option<f64>) {
     let ahead = crossings.get(i).map(|&c| (c - s) / h);
     let behind = if i > 0 {
         Some((s - crossings[i - 1]) / h)
@@ -278,9 +291,17 @@ pub fn classify(domain: &dyn Domain, grid: Grid) -> Result<Classified> {
         .par_chunks_mut(grid.nx)
         .enumerate()
         .for_each(|(j, row)| {
+            // Inside when the count of crossings below the node is odd. Along the row the nodes
+            // come in order, so the count is carried from node to node instead of searched for
+            // (the same predicate).
+            let line = &rows[j][..];
+            let mut below = 0;
             for (i, f) in row.iter_mut().enumerate() {
                 let (sx, sy) = (i as f64 * h, j as f64 * h);
-                *f = inside(&rows[j], sx) && !on_wall(&rows[j], sx, h) && !on_wall(&cols[i], sy, h);
+                while below < line.len() && line[below] < sx {
+                    below += 1;
+                }
+                *f = below % 2 == 1 && !on_wall_at(line, below, sx, h) && !on_wall(&cols[i], sy, h);
             }
         });
     // Neighbours from (i, j) directly: Grid::neighbour divides k by nx, which at a million
@@ -293,13 +314,21 @@ pub fn classify(domain: &dyn Domain, grid: Grid) -> Result<Classified> {
         .map(|j| {
             let mut cuts = Vec::new();
             let mut counts = Vec::with_capacity(grid.nx);
+            let line = &rows[j][..];
+            // Crossings at or below the node, carried along the row.
+            let mut upto = 0;
             for (i, col) in cols.iter().enumerate() {
                 let k = grid.index(i, j);
                 let before = cuts.len();
+                let sx = i as f64 * h;
+                while upto < line.len() && line[upto] <= sx {
+                    upto += 1;
+                }
                 if fluid[k] {
-                    let (e, w) = link_thetas(
-                        &rows[j],
-                        i as f64 * h,
+                    let (e, w) = link_thetas_at(
+                        line,
+                        upto,
+                        sx,
                         h,
                         i + 1 < nx && fluid_at(i + 1, j),
                         i > 0 && fluid_at(i - 1, j),
