@@ -7,6 +7,12 @@
 //! seconds (0 unless `CANALIS_BENCH_HEAT=1`) and peak memory in bytes per unknown. Then fits the
 //! exponent of total time against unknowns from 256 to 2048 cells. Options: `--sizes 128,256`, `--shapes circle,annulus`, `--repeat N` (median of N
 //! runs, default 3), `--method multigrid|jacobi`.
+//!
+//! `--calls` instead times the kernels one call at a time, in this process on a pool worker:
+//! for each shape and size, the grid classification, the operator, the multigrid setup, one
+//! V-cycle and one operator application (with p·Ap), medians of `--repeat N` calls (default
+//! 20, after 3 warm-up calls), in milliseconds. With `RAYON_NUM_THREADS=1` this is the
+//! single-core cost.
 
 use canalis::geometry::builtin::parse_builtin;
 use canalis::geometry::mask::Mask;
@@ -40,31 +46,7 @@ fn child(shape: &str, cells: usize, method: Method) {
         heat: std::env::var("CANALIS_BENCH_HEAT").is_ok(),
         ..Default::default()
     };
-    let (domain, grid, exact): (Box<dyn Domain>, Grid, bool) = match shape {
-        "lmask" => {
-            // An L-shaped passage drawn as a binary mask, cells × cells pixels: the square
-            // minus its upper right quarter, with a two-pixel solid border.
-            let n = cells;
-            let (mask, _) = Mask::from_fn(n, n, 1e-3 / n as f64, |c, r| {
-                let border = c < 2 || r < 2 || c + 2 >= n || r + 2 >= n;
-                let cut = c >= n / 2 && r < n / 2;
-                !border && !cut
-            })
-            .expect("mask");
-            let g = Grid::from_lattice(mask.lattice().expect("lattice"));
-            (Box::new(mask), g, false)
-        }
-        name => {
-            let spec = match name {
-                "circle" => "circle:d=10mm",
-                "annulus" => "annulus:do=20mm,di=10mm,offset=2mm",
-                _ => "finned:d=16mm,fins=4,height=3mm,thickness=1mm",
-            };
-            let s = parse_builtin(spec).expect("shape");
-            let (lo, hi) = s.bbox();
-            (Box::new(s), Grid::covering(lo, hi, cells), true)
-        }
-    };
+    let (domain, grid, exact) = domain_of(shape, cells);
     let sol = solve_unit(domain.as_ref(), grid, exact, &opts).expect("solve");
     let t = sol.seconds;
     let per_pass: Vec<String> = sol
@@ -86,6 +68,90 @@ fn child(shape: &str, cells: usize, method: Method) {
         sol.info.relative_residual,
         t.heat
     );
+}
+
+/// The domain and grid of a benchmark shape (see [`child`]).
+fn domain_of(shape: &str, cells: usize) -> (Box<dyn Domain>, Grid, bool) {
+    match shape {
+        "lmask" => {
+            let n = cells;
+            let (mask, _) = Mask::from_fn(n, n, 1e-3 / n as f64, |c, r| {
+                let border = c < 2 || r < 2 || c + 2 >= n || r + 2 >= n;
+                let cut = c >= n / 2 && r < n / 2;
+                !border && !cut
+            })
+            .expect("mask");
+            let g = Grid::from_lattice(mask.lattice().expect("lattice"));
+            (Box::new(mask), g, false)
+        }
+        name => {
+            let spec = match name {
+                "circle" => "circle:d=10mm",
+                "annulus" => "annulus:do=20mm,di=10mm,offset=2mm",
+                _ => "finned:d=16mm,fins=4,height=3mm,thickness=1mm",
+            };
+            let s = parse_builtin(spec).expect("shape");
+            let (lo, hi) = s.bbox();
+            (Box::new(s), Grid::covering(lo, hi, cells), true)
+        }
+    }
+}
+
+/// Per-call kernel timings (`--calls`), milliseconds.
+fn calls(shapes: &[String], sizes: &[usize], repeat: usize) {
+    use canalis::grid::classify;
+    use canalis::multigrid::Multigrid;
+    use canalis::operator::GridOperator;
+    use canalis::solver::{LinearOperator, Preconditioner};
+    use std::time::Instant;
+    let ms = |t: Instant| t.elapsed().as_secs_f64() * 1e3;
+    println!(
+        "| shape | cells | grid nodes | classify ms | operator ms | setup ms | V-cycle ms | A·p with p·Ap ms |"
+    );
+    println!("|---|---|---|---|---|---|---|---|");
+    for shape in shapes {
+        for &cells in sizes {
+            let (domain, grid, _) = domain_of(shape, cells);
+            let t = Instant::now();
+            let c = classify(domain.as_ref(), grid).expect("classify");
+            let t_class = ms(t);
+            let t = Instant::now();
+            let a = GridOperator::new(&c);
+            let t_op = ms(t);
+            let t = Instant::now();
+            let mg = Multigrid::new(&a);
+            let t_setup = ms(t);
+            let r: Vec<f64> = a
+                .diag
+                .iter()
+                .map(|&d| if d != 0.0 { 1.0 } else { 0.0 })
+                .collect();
+            let (mut z, mut q) = (vec![0.0; r.len()], vec![0.0; r.len()]);
+            let time = |f: &mut dyn FnMut()| {
+                for _ in 0..3 {
+                    f();
+                }
+                let mut v: Vec<f64> = (0..repeat.max(1))
+                    .map(|_| {
+                        let t = Instant::now();
+                        f();
+                        ms(t)
+                    })
+                    .collect();
+                median(&mut v)
+            };
+            let t_v = time(&mut || {
+                std::hint::black_box(mg.apply_dot(&r, &mut z));
+            });
+            let t_a = time(&mut || {
+                std::hint::black_box(a.apply_dot(&z, &mut q));
+            });
+            println!(
+                "| {shape} | {cells} | {} | {t_class:.1} | {t_op:.1} | {t_setup:.1} | {t_v:.2} | {t_a:.2} |",
+                r.len()
+            );
+        }
+    }
 }
 
 fn median(v: &mut [f64]) -> f64 {
@@ -116,6 +182,11 @@ fn main() {
     let shapes: Vec<String> = get("--shapes")
         .map(|s| s.split(',').map(str::to_string).collect())
         .unwrap_or_else(|| SHAPES.iter().map(|s| s.to_string()).collect());
+    if args.iter().any(|a| a == "--calls") {
+        let repeat: usize = get("--repeat").and_then(|v| v.parse().ok()).unwrap_or(20);
+        rayon::scope(|_| calls(&shapes, &sizes, repeat));
+        return;
+    }
     let repeat: usize = get("--repeat").and_then(|v| v.parse().ok()).unwrap_or(3);
     let exe = std::env::current_exe().expect("own path");
     println!(
