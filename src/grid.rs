@@ -249,14 +249,18 @@ fn link_thetas_at(
     plus_fluid: bool,
     minus_fluid: bool,
 ) -> (Option<f64>, Option<f64>) {
-    let ahead = crossings.get(i).map(|&c| (c - s) / h);
+    // Distances to the nearest walls ahead and behind; θ = distance/h. Most nodes are well
+    // away from any wall, so the division is only made when the distance may be below h (the
+    // margin keeps the test exactly the θ < 1 of the quotient).
+    let ahead = crossings.get(i).map(|&c| c - s);
     let behind = if i > 0 {
-        Some((s - crossings[i - 1]) / h)
+        Some(s - crossings[i - 1])
     } else {
         None
     };
+    let within = |d: f64| d < h * (1.0 + 1e-9) && d / h < 1.0;
     let theta = |d: Option<f64>, neighbour_fluid: bool| match d {
-        Some(t) if t < 1.0 => Some(t.max(THETA_MIN)),
+        Some(d) if within(d) => Some((d / h).max(THETA_MIN)),
         // No wall within the link: regular if the neighbour is fluid; otherwise the neighbour
         // lies on the wall itself (it was made solid as an on-wall node), θ = 1.
         _ if neighbour_fluid => None,
