@@ -235,8 +235,9 @@ pub fn solve_unit_monitored(
     // Only for exact walls: a mask's staircase has a re-entrant corner at every step, where the
     // smooth local fit behind the correction does not hold.
     if correct {
-        let corr = post::wall_correction(&classified, &numbering, &u);
-        let b2: Vec<f64> = b.iter().zip(&corr).map(|(x, y)| x + y).collect();
+        // b + correction, formed in the correction's own vector (one vector fewer to fault in).
+        let mut b2 = post::wall_correction(&classified, &numbering, &u);
+        b2.iter_mut().zip(&b).for_each(|(c, x)| *c = x + *c);
         let more = solve(&b2, &mut u, params)?;
         passes.push(more);
         info = CgInfo {
