@@ -237,7 +237,7 @@ pub fn solve_unit_monitored(
     if correct {
         // b + correction, formed in the correction's own vector (one vector fewer to fault in).
         let mut b2 = post::wall_correction(&classified, &numbering, &u);
-        b2.iter_mut().zip(&b).for_each(|(c, x)| *c = x + *c);
+        b2.iter_mut().zip(&b).for_each(|(c, x)| *c += x);
         let more = solve(&b2, &mut u, params)?;
         passes.push(more);
         info = CgInfo {
