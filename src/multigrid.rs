@@ -15,10 +15,12 @@
 //!   Nothing of the geometry is re-discretised, so a gap thinner than the coarse spacing, a
 //!   fin or a tiny passage stays exactly as the fine operator has it.
 //! - **Smoother**: on the fine level one red–black Gauss–Seidel sweep before the coarse
-//!   correction and one in the reverse colour order after it (every colour in parallel); on the
+//!   correction and one in the reverse colour order after it, done in two streaming passes
+//!   over the grid with the residual, the transfers and r·z (see [`FINE_BLOCK`]); on the
 //!   coarse levels a banded lexicographic sweep (bands in parallel, then the separator rows
 //!   between them) forward before and backward after. Post-smoothing is the adjoint of
-//!   pre-smoothing, so the V-cycle is a symmetric positive definite operator, as CG requires.
+//!   pre-smoothing and the restricted residual uses the smoother's own diagonal, so the V-cycle
+//!   is a symmetric positive definite operator, as CG requires (symmetric to round-off; tested).
 //! - **Storage**: the fine level is the matrix-free [`GridOperator`] (diagonal and a link
 //!   bitmask per node); each coarse level stores every distinct stencil once with a 4-byte index
 //!   per node (see [`Level`]), and nearly all of its rows are the interior stencil, which the
@@ -1000,9 +1002,11 @@ fn fine_post(
     row_sums.iter().sum()
 }
 
-/// A raw pointer to share a vector between the tasks of one colour of a multicolour sweep.
+/// A raw pointer to share a coarse level's vector between the tasks of one phase of its banded
+/// sweep.
 struct SharedMut(*mut f64);
-// SAFETY: used only in the colour sweeps, whose tasks touch disjoint elements (see there).
+// SAFETY: used only in the banded coarse sweeps, whose tasks of one phase write disjoint rows
+// and read no row another task writes (see `smooth_coarse`).
 unsafe impl Sync for SharedMut {}
 unsafe impl Send for SharedMut {}
 
