@@ -16,7 +16,7 @@
 //!   fin or a tiny passage stays exactly as the fine operator has it.
 //! - **Smoother**: on the fine level one red–black Gauss–Seidel sweep before the coarse
 //!   correction and one in the reverse colour order after it, done in two streaming passes
-//!   over the grid with the residual, the transfers and r·z (see [`FINE_BLOCK`]); on the
+//!   over the grid with the residual, the transfers and r·z (`fine_pre`, `fine_post`); on the
 //!   coarse levels a banded lexicographic sweep (bands in parallel, then the separator rows
 //!   between them) forward before and backward after. Post-smoothing is the adjoint of
 //!   pre-smoothing and the restricted residual uses the smoother's own diagonal, so the V-cycle
