@@ -169,17 +169,15 @@ pub fn dot(a: &[f64], b: &[f64]) -> f64 {
     partial.iter().sum()
 }
 
-/// x += α·p and r −= α·q in one pass; returns r·r (fixed-order blocked reduction).
-fn update_xr(x: &mut [f64], r: &mut [f64], p: &[f64], q: &[f64], alpha: f64) -> f64 {
+/// r −= α·q; returns r·r (fixed-order blocked reduction).
+fn update_r(r: &mut [f64], q: &[f64], alpha: f64) -> f64 {
     use rayon::prelude::*;
-    let partial: Vec<f64> = x
+    let partial: Vec<f64> = r
         .par_chunks_mut(BLOCK)
-        .zip(r.par_chunks_mut(BLOCK))
-        .zip(p.par_chunks(BLOCK).zip(q.par_chunks(BLOCK)))
-        .map(|((x, r), (p, q))| {
-            for i in 0..x.len() {
-                x[i] += alpha * p[i];
-                r[i] -= alpha * q[i];
+        .zip(q.par_chunks(BLOCK))
+        .map(|(r, q)| {
+            for (r, q) in r.iter_mut().zip(q) {
+                *r -= alpha * q;
             }
             // The block is still in cache: a second, vectorised loop for r·r.
             dot4(r, r)
@@ -188,14 +186,28 @@ fn update_xr(x: &mut [f64], r: &mut [f64], p: &[f64], q: &[f64], alpha: f64) -> 
     partial.iter().sum()
 }
 
-/// p = z + β·p.
-fn update_p(p: &mut [f64], z: &[f64], beta: f64) {
+/// x += α·p.
+fn update_x(x: &mut [f64], p: &[f64], alpha: f64) {
     use rayon::prelude::*;
-    p.par_chunks_mut(BLOCK)
+    x.par_chunks_mut(BLOCK)
+        .zip(p.par_chunks(BLOCK))
+        .for_each(|(x, p)| {
+            for (x, p) in x.iter_mut().zip(p) {
+                *x += alpha * p;
+            }
+        });
+}
+
+/// x += α·p, then p = z + β·p, in one pass.
+fn update_xp(x: &mut [f64], p: &mut [f64], z: &[f64], alpha: f64, beta: f64) {
+    use rayon::prelude::*;
+    x.par_chunks_mut(BLOCK)
+        .zip(p.par_chunks_mut(BLOCK))
         .zip(z.par_chunks(BLOCK))
-        .for_each(|(p, z)| {
-            for i in 0..p.len() {
-                p[i] = z[i] + beta * p[i];
+        .for_each(|((x, p), z)| {
+            for ((x, p), z) in x.iter_mut().zip(p.iter_mut()).zip(z) {
+                *x += alpha * *p;
+                *p = z + beta * *p;
             }
         });
 }
@@ -307,16 +319,19 @@ pub fn pcg_in(
                 });
             }
             let alpha = rz / pq;
-            let rn = update_xr(x, r, p, q, alpha).sqrt();
+            // x += α·p is deferred to the pass that updates p (one pass over p fewer); x is
+            // current again before anything else reads it.
+            let rn = update_r(r, q, alpha).sqrt();
             it += 1;
             monitor.iteration(it, rn / b_norm);
             if rn <= target {
+                update_x(x, p, alpha);
                 break;
             }
             let rz_new = pre.apply_dot(r, z);
             let beta = rz_new / rz;
             rz = rz_new;
-            update_p(p, z, beta);
+            update_xp(x, p, z, alpha, beta);
         }
         r_norm = true_residual(op, b, x, r);
         if r_norm > target {
