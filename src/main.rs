@@ -383,21 +383,23 @@ fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
 /// longer than half a second.
 struct Progress {
     start: std::time::Instant,
-    last: std::cell::Cell<f64>,
-    shown: std::cell::Cell<bool>,
+    /// Seconds of the last line shown, as f64 bits (atomic: a monitor is shared with the
+    /// solver's worker thread).
+    last: std::sync::atomic::AtomicU64,
+    shown: std::sync::atomic::AtomicBool,
 }
 
 impl Progress {
     fn new() -> Progress {
         Progress {
             start: std::time::Instant::now(),
-            last: std::cell::Cell::new(0.0),
-            shown: std::cell::Cell::new(false),
+            last: std::sync::atomic::AtomicU64::new(0f64.to_bits()),
+            shown: std::sync::atomic::AtomicBool::new(false),
         }
     }
 
     fn finish(&self) {
-        if self.shown.get() {
+        if self.shown.load(std::sync::atomic::Ordering::Relaxed) {
             eprintln!();
         }
     }
@@ -405,10 +407,11 @@ impl Progress {
 
 impl canalis::solver::Monitor for Progress {
     fn iteration(&self, iteration: usize, relative_residual: f64) {
+        use std::sync::atomic::Ordering::Relaxed;
         let t = self.start.elapsed().as_secs_f64();
-        if t > 0.5 && t - self.last.get() > 0.2 {
-            self.last.set(t);
-            self.shown.set(true);
+        if t > 0.5 && t - f64::from_bits(self.last.load(Relaxed)) > 0.2 {
+            self.last.store(t.to_bits(), Relaxed);
+            self.shown.store(true, Relaxed);
             eprint!(
                 "\r  solving: iteration {iteration:>5}, relative residual {relative_residual:.2e}, {t:.1} s   "
             );

@@ -83,7 +83,7 @@ impl LinearOperator for CsMat<f64> {
 
 /// Watches a solve: called after every iteration with the recursively updated relative
 /// residual (cheap; the true residual is checked at the end).
-pub trait Monitor {
+pub trait Monitor: Sync {
     fn iteration(&self, iteration: usize, relative_residual: f64);
 }
 
