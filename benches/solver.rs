@@ -171,9 +171,8 @@ fn main() {
         _ => Method::Multigrid,
     };
     if let (Some(shape), Some(cells)) = (get("--child-shape"), get("--child-cells")) {
-        // On a worker of the pool, as the binary runs (see main.rs).
-        let cells = cells.parse().expect("cells");
-        rayon::scope(|_| child(&shape, cells, method));
+        // (solve_unit runs itself on a worker of the pool, as in the binary.)
+        child(&shape, cells.parse().expect("cells"), method);
         return;
     }
     let sizes: Vec<usize> = get("--sizes")
@@ -184,6 +183,7 @@ fn main() {
         .unwrap_or_else(|| SHAPES.iter().map(|s| s.to_string()).collect());
     if args.iter().any(|a| a == "--calls") {
         let repeat: usize = get("--repeat").and_then(|v| v.parse().ok()).unwrap_or(20);
+        // The kernels are called directly here, so from a worker as solve_unit calls them.
         rayon::scope(|_| calls(&shapes, &sizes, repeat));
         return;
     }

@@ -158,6 +158,19 @@ impl Grid {
             _ => None,
         }
     }
+
+    /// The neighbour of node k in direction d for a node off the grid's border (every fluid
+    /// node: the grid carries a ring of solid nodes), without the bounds test and the division
+    /// of [`Grid::neighbour`].
+    #[inline]
+    pub fn inner_neighbour(&self, k: usize, d: Dir) -> usize {
+        match d {
+            Dir::East => k + 1,
+            Dir::West => k - 1,
+            Dir::North => k + self.nx,
+            Dir::South => k - self.nx,
+        }
+    }
 }
 
 /// A link from fluid node `node` in direction `dir` that meets a wall at θ·h.
@@ -415,13 +428,13 @@ fn make_links_symmetric(c: &mut Classified) {
                 if !cc.fluid[k] {
                     continue;
                 }
-                for (d, back, m) in [
-                    (Dir::East, Dir::West, (i + 1 < nx).then(|| k + 1)),
-                    (Dir::West, Dir::East, (i > 0).then(|| k - 1)),
-                    (Dir::North, Dir::South, (j + 1 < ny).then(|| k + nx)),
-                    (Dir::South, Dir::North, (j > 0).then(|| k - nx)),
+                for (d, back) in [
+                    (Dir::East, Dir::West),
+                    (Dir::West, Dir::East),
+                    (Dir::North, Dir::South),
+                    (Dir::South, Dir::North),
                 ] {
-                    let Some(m) = m else { continue };
+                    let m = g.inner_neighbour(k, d);
                     if !has_cuts(m) || !cc.fluid[m] || cc.theta(k, d).is_some() {
                         continue;
                     }

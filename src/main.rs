@@ -507,21 +507,15 @@ fn main() -> ExitCode {
             };
         }
     };
-    // The whole command runs on a worker of rayon's pool: a parallel loop started from a worker
-    // needs no hand-over between threads, and the solver starts dozens of them per iteration
-    // (measured: a V-cycle at a million unknowns on one thread took 37 ms from a worker against
-    // 46–50 ms from the main thread). The workers get the main thread's usual 8 MiB of stack.
-    let _ = rayon::ThreadPoolBuilder::new()
-        .stack_size(8 << 20)
-        .build_global();
-    let result = rayon::scope(|_| match &cli.command {
+    // (Each solve moves itself onto a worker of rayon's pool: pipeline::solve_unit_monitored.)
+    let result = match &cli.command {
         Command::Solve(a) => solve(a).map(|_| true),
         Command::Shapes => {
             shapes();
             Ok(true)
         }
         Command::Verify { cells } => run_verify(*cells),
-    });
+    };
     match result {
         Ok(true) => ExitCode::SUCCESS,
         Ok(false) => ExitCode::from(1),

@@ -650,10 +650,6 @@ const LINK_WEIGHTS: [[f64; 4]; 16] = {
     t
 };
 
-/// Rows per task of the two fine-level passes (a fixed number, so the work split, and with it
-/// nothing of the result, depends on the number of threads).
-const FINE_BLOCK: usize = 32;
-
 /// The fine level's part of the V-cycle, done in two streaming passes over the grid instead of
 /// six (the fine level is about three quarters of the V-cycle's memory traffic):
 ///
@@ -671,6 +667,10 @@ const FINE_BLOCK: usize = 32;
 /// the other ([`half_sweep_row`]; it vectorises, where a stride-2 loop over one colour did
 /// not). The numbers are those of the in-place red–black sweeps.
 ///
+/// This constant is the rows per task of the two passes (a fixed number, so the work split,
+/// and with it nothing of the result, depends on the number of threads).
+const FINE_BLOCK: usize = 32;
+
 /// The fine level's arrays, as the passes read them.
 struct Fine<'a> {
     a: &'a GridOperator,
@@ -730,7 +730,7 @@ fn presmooth_row(f: &Fine, b: &[f64], j: usize, out: &mut [f64]) {
 /// One half-sweep of colour `colour` ((i + j) mod 2) on row j: from the rows south, centre and
 /// north of x before the half-sweep, the row after it. Nodes of the colour get
 /// (b + Σ neighbours)/d, the others keep their value; thin nodes are recomputed from the link
-/// bits (`at(dj, i)` reads row j + dj − 1 at column i).
+/// bits.
 #[inline]
 fn half_sweep_row(
     f: &Fine,
@@ -875,26 +875,22 @@ fn fine_pre(f: &Fine, b: &[f64], x: &mut [f64], restrict: Option<(&mut [f64], us
     use rayon::prelude::*;
     let (nx, ny) = (f.a.nx, f.a.ny);
     let inner = |m: usize| m >= 1 && m + 1 < ny;
-    let fill = |rows: &mut Rows, m: usize| {
-        let out = rows.slot(m);
+    // Row m of the pre-smoothed x (zero on the ring rows).
+    let presmoothed = |m: usize, out: &mut [f64]| {
         if inner(m) {
             presmooth_row(f, b, m, out);
         } else {
             out.iter_mut().for_each(|v| *v = 0.0);
         }
     };
+    let fill = |rows: &mut Rows, m: usize| presmoothed(m, rows.slot(m));
     match restrict {
         None => x
             .par_chunks_mut(FINE_BLOCK * nx)
             .enumerate()
             .for_each(|(blk, xb)| {
                 for (q, out) in xb.chunks_mut(nx).enumerate() {
-                    let m = blk * FINE_BLOCK + q;
-                    if inner(m) {
-                        presmooth_row(f, b, m, out);
-                    } else {
-                        out.iter_mut().for_each(|v| *v = 0.0);
-                    }
+                    presmoothed(blk * FINE_BLOCK + q, out);
                 }
             }),
         Some((tmp, cnx)) => {
@@ -1442,25 +1438,32 @@ impl Preconditioner for Multigrid<'_> {
 mod tests {
     use super::*;
     use crate::geometry::{Primitive, Shape};
+    use crate::grid::Classified;
     use crate::grid::{classify, Grid};
     use crate::solver::{pcg, CgParams};
 
-    #[test]
-    fn galerkin_levels_are_symmetric() {
+    /// The unit disc with a straight slit (`center`, `size`, `angle`) cut out, classified on a
+    /// grid of `cells` across.
+    fn slit_disc(center: [f64; 2], size: [f64; 2], angle: f64, cells: usize) -> Classified {
         let s = Shape::new(
             vec![Primitive::Circle {
                 center: [0.0, 0.0],
                 radius: 1.0,
             }],
             vec![Primitive::Rect {
-                center: [0.5, 0.0],
-                size: [1.2, 0.05],
+                center,
+                size,
                 corner_radius: 0.0,
-                angle: 0.3,
+                angle,
             }],
         );
         let (lo, hi) = s.bbox();
-        let c = classify(&s, Grid::covering(lo, hi, 64)).unwrap();
+        classify(&s, Grid::covering(lo, hi, cells)).unwrap()
+    }
+
+    #[test]
+    fn galerkin_levels_are_symmetric() {
+        let c = slit_disc([0.5, 0.0], [1.2, 0.05], 0.3, 64);
         let a = GridOperator::new(&c);
         let mg = Multigrid::new(&a);
         for l in &mg.levels {
@@ -1497,20 +1500,7 @@ mod tests {
     #[test]
     fn thin_walls_match_the_assembled_matrix_and_the_cycle_is_symmetric() {
         use crate::operator::{assemble, Numbering};
-        let s = Shape::new(
-            vec![Primitive::Circle {
-                center: [0.0, 0.0],
-                radius: 1.0,
-            }],
-            vec![Primitive::Rect {
-                center: [0.3, 0.01],
-                size: [1.2, 0.009],
-                corner_radius: 0.0,
-                angle: 0.2,
-            }],
-        );
-        let (lo, hi) = s.bbox();
-        let c = classify(&s, Grid::covering(lo, hi, 80)).unwrap();
+        let c = slit_disc([0.3, 0.01], [1.2, 0.009], 0.2, 80);
         let a = GridOperator::new(&c);
         let thin: usize = (0..a.ny).map(|j| a.thin_in_row(j).len()).sum();
         assert!(thin > 10, "the slit should make thin nodes, got {thin}");

@@ -153,13 +153,7 @@ impl GridOperator {
                         match c.theta(k, dir) {
                             Some(theta) => {
                                 d += 1.0 / theta;
-                                let far = match dir {
-                                    Dir::East => k + 1,
-                                    Dir::West => k - 1,
-                                    Dir::North => k + nx,
-                                    Dir::South => k - nx,
-                                };
-                                is_thin |= c.fluid[far];
+                                is_thin |= c.fluid[c.grid.inner_neighbour(k, dir)];
                             }
                             None => {
                                 d += 1.0;
