@@ -192,26 +192,6 @@ impl GridOperator {
     pub fn thin_in_row(&self, j: usize) -> &[u32] {
         &self.thin[self.thin_rows[j] as usize..self.thin_rows[j + 1] as usize]
     }
-
-    /// Sum of the regular neighbours' values of node k.
-    #[inline]
-    pub fn neighbour_sum(&self, k: usize, x: &[f64]) -> f64 {
-        let m = self.links[k];
-        let mut s = 0.0;
-        if m & (1 << Dir::East as u8) != 0 {
-            s += x[k + 1];
-        }
-        if m & (1 << Dir::West as u8) != 0 {
-            s += x[k - 1];
-        }
-        if m & (1 << Dir::North as u8) != 0 {
-            s += x[k + self.nx];
-        }
-        if m & (1 << Dir::South as u8) != 0 {
-            s += x[k - self.nx];
-        }
-        s
-    }
 }
 
 /// Right-hand side h²·f for the unit problem f = 1.
