@@ -66,7 +66,7 @@ const FIRST_PASS_TOLERANCE: f64 = 1e-3;
 pub struct UnitOptions {
     pub method: Method,
     pub cg: CgParams,
-    /// Apply the deferred wall correction ([`post::wall_correction`]) on exact walls.
+    /// Apply the deferred wall correction ([`post::add_wall_correction`]) on exact walls.
     pub wall_correction: bool,
     /// Also solve the two heat-transfer problems (Nu_H1, Nu_T).
     pub heat: bool,
@@ -160,7 +160,7 @@ fn solve_unit_on_worker(
     let classified = classify(domain, grid)?;
     let t1 = Instant::now();
     let numbering = Numbering::new(&classified);
-    let b = unit_rhs(&classified, &numbering);
+    let mut b = unit_rhs(&classified, &numbering);
     // Assembly and setup per method; `solve(b, x)` then solves A·x = b in unknown order,
     // starting from x.
     let csr;
@@ -249,16 +249,15 @@ fn solve_unit_on_worker(
     };
     let mut info = solve(&b, &mut u, &first)?;
     let mut passes = vec![info];
-    // Deferred correction of the wall truncation error (post::wall_correction): the matrix is
+    // Deferred correction of the wall truncation error (post::add_wall_correction): the matrix is
     // kept, the right-hand side gains the curvature term of each cut link, and the solve
     // restarts from the first solution.
     // Only for exact walls: a mask's staircase has a re-entrant corner at every step, where the
     // smooth local fit behind the correction does not hold.
     if correct {
-        // b + correction, formed in the correction's own vector (one vector fewer to fault in).
-        let mut b2 = post::wall_correction(&classified, &numbering, &u);
-        b2.iter_mut().zip(&b).for_each(|(c, x)| *c += x);
-        let more = solve(&b2, &mut u, params)?;
+        // b + correction, formed in b's own vector (one vector fewer to fault in).
+        post::add_wall_correction(&classified, &numbering, &u, &mut b);
+        let more = solve(&b, &mut u, params)?;
         passes.push(more);
         info = CgInfo {
             iterations: info.iterations + more.iterations,

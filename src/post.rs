@@ -565,7 +565,10 @@ fn least_squares(a: DMatrix<f64>, b: &DVector<f64>) -> Option<DVector<f64>> {
 /// removes it; the matrix (and so its symmetry and positive definiteness) is untouched, only the
 /// right-hand side changes. The correction vanishes with the fit error of b, so the corrected
 /// solution converges faster and more regularly (measured in tests/verification.rs).
-pub fn wall_correction(c: &Classified, num: &Numbering, u: &[f64]) -> Vec<f64> {
+///
+/// Adds the correction to `rhs` (unknown order) in place: each unknown's terms are summed in
+/// cut order and the sum then added to its entry, so no second right-hand side is allocated.
+pub fn add_wall_correction(c: &Classified, num: &Numbering, u: &[f64], rhs: &mut [f64]) {
     use rayon::prelude::*;
     let h2 = c.grid.h * c.grid.h;
     // The fits in parallel (one workspace per task), then the sums in cut order, so the result
@@ -586,11 +589,21 @@ pub fn wall_correction(c: &Classified, num: &Numbering, u: &[f64]) -> Vec<f64> {
             },
         )
         .collect();
-    let mut corr = vec![0.0; num.len()];
+    // Cuts are ordered by node, so the terms of one unknown are consecutive.
+    let mut run: Option<(usize, f64)> = None;
     for (q, v) in terms.into_iter().flatten() {
-        corr[q] += v;
+        run = match run {
+            Some((p, sum)) if p == q => Some((p, sum + v)),
+            Some((p, sum)) => {
+                rhs[p] += sum;
+                Some((q, v))
+            }
+            None => Some((q, v)),
+        };
     }
-    corr
+    if let Some((p, sum)) = run {
+        rhs[p] += sum;
+    }
 }
 
 /// All figures of merit from the unit solution.

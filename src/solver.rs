@@ -247,12 +247,15 @@ pub fn pcg_monitored(
     pcg_in(&mut work, op, pre, b, x, params, method, monitor)
 }
 
-/// The four work vectors of CG (r, z, p, q), kept between solves of the same size: a solve at
-/// a million unknowns otherwise faults in and zeroes 40 MB of fresh pages each time.
+/// The three work vectors of CG (r, p, q), kept between solves of the same size: a solve at
+/// a million unknowns otherwise faults in and zeroes 30 MB of fresh pages each time. There is
+/// no vector for z = M⁻¹·r: q = A·p is dead once r is updated, so z is written into q, and
+/// q = A·p overwrites z only after p = z + β·p has consumed it (the first z goes straight
+/// into p). One grid vector fewer to fault in (10 MB at a million unknowns, about 7 ms on
+/// the benchmark machine, whose fresh pages cost 0.7 ms per MB).
 #[derive(Debug, Default)]
 pub struct CgWorkspace {
     r: Vec<f64>,
-    z: Vec<f64>,
     p: Vec<f64>,
     q: Vec<f64>,
 }
@@ -282,13 +285,13 @@ pub fn pcg_in(
         });
     }
     let target = params.tolerance * b_norm;
-    // Every entry is written before it is read (r by the residual, z by the preconditioner,
-    // p by the copy of z, q by the operator), so old contents do not matter.
-    for v in [&mut work.r, &mut work.z, &mut work.p, &mut work.q] {
+    // Every entry is written before it is read (r by the residual, p by the preconditioner,
+    // q by the operator or the preconditioner), so old contents do not matter.
+    for v in [&mut work.r, &mut work.p, &mut work.q] {
         v.resize(n, 0.0);
     }
-    let CgWorkspace { r, z, p, q } = work;
-    let (r, z, p, q) = (&mut r[..], &mut z[..], &mut p[..], &mut q[..]);
+    let CgWorkspace { r, p, q } = work;
+    let (r, p, q) = (&mut r[..], &mut p[..], &mut q[..]);
     let mut r_norm = true_residual(op, b, x, r);
     let mut it = 0;
     let mut restarts = 0;
@@ -296,8 +299,8 @@ pub fn pcg_in(
         if r_norm <= target {
             break;
         }
-        let mut rz = pre.apply_dot(r, z);
-        p.copy_from_slice(z);
+        // p = z = M⁻¹·r.
+        let mut rz = pre.apply_dot(r, p);
         loop {
             if it >= params.max_iterations {
                 let rel = true_residual(op, b, x, r) / b_norm;
@@ -328,10 +331,11 @@ pub fn pcg_in(
                 update_x(x, p, alpha);
                 break;
             }
-            let rz_new = pre.apply_dot(r, z);
+            // z = M⁻¹·r into q, which is dead until the next A·p (see `CgWorkspace`).
+            let rz_new = pre.apply_dot(r, q);
             let beta = rz_new / rz;
             rz = rz_new;
-            update_xp(x, p, z, alpha, beta);
+            update_xp(x, p, q, alpha, beta);
         }
         r_norm = true_residual(op, b, x, r);
         if r_norm > target {
