@@ -98,8 +98,8 @@ impl LinearOperator for GridOperator {
 
 impl GridOperator {
     /// y = A·x, rows in parallel (each output row is written by one task); returns x·y of each
-    /// row. Branch-free ([`apply_row`]); solid nodes get y = 0. With `b`: y = b − A·x instead,
-    /// and y·y of each row.
+    /// row. Branch-free ([`apply_row`]) over each row's fluid span; solid nodes get y = 0. With
+    /// `b`: y = b − A·x instead, and y·y of each row.
     fn apply_rows(&self, x: &[f64], y: &mut [f64], b: Option<&[f64]>) -> Vec<f64> {
         use rayon::prelude::*;
         let nx = self.nx;
@@ -126,7 +126,8 @@ impl GridOperator {
                     &x[row..row + nx],
                     &x[row + nx..row + 2 * nx],
                 );
-                apply_row(&self.diag[row..row + nx], xs, xc, xn, out);
+                let span = self.row_span(j);
+                apply_row(&self.diag[row..row + nx], xs, xc, xn, out, span);
                 for &k in self.thin_in_row(j) {
                     let (k, i) = (k as usize, k as usize - row);
                     let s = link_sum(self.links[k], x[k + 1], x[k - 1], x[k + nx], x[k - nx]);
@@ -139,7 +140,10 @@ impl GridOperator {
                         }
                         dot4(out, out)
                     }
-                    None => dot4(xc, out),
+                    None => {
+                        let (lo, hi) = span;
+                        dot4(&xc[lo..hi], &out[lo..hi])
+                    }
                 }
             })
             .collect()
@@ -147,21 +151,38 @@ impl GridOperator {
 }
 
 /// One row of y = A·x from the rows south, centre and north of x: y = d·x − (sum of the four
-/// neighbours), and y = 0 where d = 0 (solid). Exact for every node but the thin ones of
+/// neighbours), and y = 0 where d = 0 (solid). Computed over the row's fluid span `lo..hi`
+/// ([`GridOperator::row_span`]), zero around it. Exact for every node but the thin ones of
 /// [`GridOperator`], which the caller recomputes. Contiguous and branch-free, so it vectorises.
 #[inline]
-fn apply_row(d: &[f64], xs: &[f64], xc: &[f64], xn: &[f64], out: &mut [f64]) {
-    let nx = out.len();
-    let m = nx - 2;
-    let (e, w, c) = (&xc[2..2 + m], &xc[..m], &xc[1..1 + m]);
-    let (n, s, d) = (&xn[1..1 + m], &xs[1..1 + m], &d[1..1 + m]);
-    let o = &mut out[1..1 + m];
+fn apply_row(
+    d: &[f64],
+    xs: &[f64],
+    xc: &[f64],
+    xn: &[f64],
+    out: &mut [f64],
+    (lo, hi): (usize, usize),
+) {
+    let m = hi - lo;
+    let (e, w, c) = (
+        &xc[lo + 1..lo + 1 + m],
+        &xc[lo - 1..lo - 1 + m],
+        &xc[lo..lo + m],
+    );
+    let (n, s, d) = (&xn[lo..lo + m], &xs[lo..lo + m], &d[lo..lo + m]);
+    let o = &mut out[lo..lo + m];
     for i in 0..m {
         let v = d[i] * c[i] - ((e[i] + w[i]) + (n[i] + s[i]));
         o[i] = if d[i] != 0.0 { v } else { 0.0 };
     }
-    out[0] = 0.0;
-    out[nx - 1] = 0.0;
+    zero_outside(out, (lo, hi));
+}
+
+/// Zeros a row outside the columns `lo..hi`.
+#[inline]
+fn zero_outside(out: &mut [f64], (lo, hi): (usize, usize)) {
+    out[..lo].iter_mut().for_each(|v| *v = 0.0);
+    out[hi..].iter_mut().for_each(|v| *v = 0.0);
 }
 
 /// Σ over the regular links of the neighbour values (east, west, north, south), the link
@@ -684,22 +705,23 @@ fn presmooth_row(f: &Fine, b: &[f64], j: usize, out: &mut [f64]) {
     let nx = a.nx;
     let row = j * nx;
     let t = |k: usize| b[k] * inv[k] as f64;
-    let m = nx - 2;
+    let (lo, hi) = a.row_span(j);
+    let m = hi - lo;
     let (bs, bc, bn) = (
-        &b[row - nx + 1..row - nx + 1 + m],
+        &b[row - nx + lo..row - nx + hi],
         &b[row..row + nx],
-        &b[row + nx + 1..row + nx + 1 + m],
+        &b[row + nx + lo..row + nx + hi],
     );
     let (is, ic, inn) = (
-        &inv[row - nx + 1..row - nx + 1 + m],
+        &inv[row - nx + lo..row - nx + hi],
         &inv[row..row + nx],
-        &inv[row + nx + 1..row + nx + 1 + m],
+        &inv[row + nx + lo..row + nx + hi],
     );
-    let (be, bw, bm) = (&bc[2..2 + m], &bc[..m], &bc[1..1 + m]);
-    let (ie, iw, im) = (&ic[2..2 + m], &ic[..m], &ic[1..1 + m]);
-    let o = &mut out[1..1 + m];
-    // Node i + 1 of the row is red when (i + 1 + j) is even.
-    let first_red = (j + 1).is_multiple_of(2);
+    let (be, bw, bm) = (&bc[lo + 1..hi + 1], &bc[lo - 1..hi - 1], &bc[lo..hi]);
+    let (ie, iw, im) = (&ic[lo + 1..hi + 1], &ic[lo - 1..hi - 1], &ic[lo..hi]);
+    let o = &mut out[lo..hi];
+    // Node lo + i of the row is red when (lo + i + j) is even.
+    let first_red = (lo + j).is_multiple_of(2);
     for i in 0..m {
         let centre = bm[i] * im[i] as f64;
         let sum = (be[i] * ie[i] as f64 + bw[i] * iw[i] as f64)
@@ -711,8 +733,7 @@ fn presmooth_row(f: &Fine, b: &[f64], j: usize, out: &mut [f64]) {
             black
         };
     }
-    out[0] = 0.0;
-    out[nx - 1] = 0.0;
+    zero_outside(out, (lo, hi));
     for &k in a.thin_in_row(j) {
         let k = k as usize;
         if (k - row + j) % 2 == 1 {
@@ -738,19 +759,19 @@ fn half_sweep_row(
     let (a, inv) = (f.a, f.inv);
     let nx = a.nx;
     let row = j * nx;
-    let m = nx - 2;
-    let (e, w, c) = (&xc[2..2 + m], &xc[..m], &xc[1..1 + m]);
-    let (n, s) = (&xn[1..1 + m], &xs[1..1 + m]);
-    let (bb, ii) = (&b[row + 1..row + 1 + m], &inv[row + 1..row + 1 + m]);
-    let o = &mut out[1..1 + m];
-    // Node i + 1 of the row has the colour when (i + 1 + j) % 2 == colour.
-    let first = (j + 1) % 2 == colour;
+    let (lo, hi) = a.row_span(j);
+    let m = hi - lo;
+    let (e, w, c) = (&xc[lo + 1..hi + 1], &xc[lo - 1..hi - 1], &xc[lo..hi]);
+    let (n, s) = (&xn[lo..hi], &xs[lo..hi]);
+    let (bb, ii) = (&b[row + lo..row + hi], &inv[row + lo..row + hi]);
+    let o = &mut out[lo..hi];
+    // Node lo + i of the row has the colour when (lo + i + j) % 2 == colour.
+    let first = (lo + j) % 2 == colour;
     for i in 0..m {
         let v = (bb[i] + ((e[i] + w[i]) + (n[i] + s[i]))) * ii[i] as f64;
         o[i] = if (i % 2 == 0) == first { v } else { c[i] };
     }
-    out[0] = 0.0;
-    out[nx - 1] = 0.0;
+    zero_outside(out, (lo, hi));
     for &k in a.thin_in_row(j) {
         let (k, i) = (k as usize, k as usize - row);
         if (i + j) % 2 == colour {
@@ -773,21 +794,21 @@ fn residual_row_fine(
     let (a, scale) = (f.a, f.scale);
     let nx = a.nx;
     let row = j * nx;
-    let m = nx - 2;
-    let (e, w, c) = (&xc[2..2 + m], &xc[..m], &xc[1..1 + m]);
-    let (n, s) = (&xn[1..1 + m], &xs[1..1 + m]);
+    let (lo, hi) = a.row_span(j);
+    let m = hi - lo;
+    let (e, w, c) = (&xc[lo + 1..hi + 1], &xc[lo - 1..hi - 1], &xc[lo..hi]);
+    let (n, s) = (&xn[lo..hi], &xs[lo..hi]);
     let (bb, inv, sc) = (
-        &b[row + 1..row + 1 + m],
-        &f.inv[row + 1..row + 1 + m],
-        &scale[row + 1..row + 1 + m],
+        &b[row + lo..row + hi],
+        &f.inv[row + lo..row + hi],
+        &scale[row + lo..row + hi],
     );
-    let o = &mut r[1..1 + m];
+    let o = &mut r[lo..hi];
     for i in 0..m {
         let ax = diag_of_inv(inv[i]) * c[i] - ((e[i] + w[i]) + (n[i] + s[i]));
         o[i] = (bb[i] - ax) * sc[i] as f64;
     }
-    r[0] = 0.0;
-    r[nx - 1] = 0.0;
+    zero_outside(&mut r[..nx], (lo, hi));
     for &k in a.thin_in_row(j) {
         let (k, i) = (k as usize, k as usize - row);
         let sum = link_sum(a.links[k], xc[i + 1], xc[i - 1], xn[i], xs[i]);
@@ -920,7 +941,9 @@ fn fine_pre(f: &Fine, b: &[f64], x: &mut [f64], restrict: Option<(&mut [f64], us
                             if j + 1 < ny {
                                 fill(rows, j + 1);
                             }
-                            out.copy_from_slice(rows.get(j));
+                            // Outside the fluid span x stays zero (it is never written there).
+                            let (lo, hi) = f.a.row_span(j);
+                            out[lo..hi].copy_from_slice(&rows.get(j)[lo..hi]);
                             if inner(j) {
                                 residual_row_fine(f, b, j, rows.around(j), &mut r[..nx]);
                             } else {
@@ -954,12 +977,22 @@ fn fine_post(
             return;
         }
         let xr = &x[m * nx..(m + 1) * nx];
+        let (lo, hi) = f.a.row_span(m);
         match coarse {
             Some((xc, cnx)) => {
-                prolong_row(xc, cnx, m, &f.scale[m * nx..(m + 1) * nx], xr, out);
+                prolong_row(
+                    xc,
+                    cnx,
+                    m,
+                    &f.scale[m * nx..(m + 1) * nx],
+                    xr,
+                    out,
+                    (lo, hi),
+                );
             }
-            None => out.copy_from_slice(xr),
+            None => out[lo..hi].copy_from_slice(&xr[lo..hi]),
         }
+        zero_outside(out, (lo, hi));
     };
     let row_sums: Vec<f64> = z
         .par_chunks_mut(FINE_BLOCK * nx)
@@ -993,7 +1026,8 @@ fn fine_post(
                 }
                 if inner(j) {
                     half_sweep_row(f, b, j, 0, w.around(j), out);
-                    sums.push(dot4(&b[j * nx..(j + 1) * nx], out));
+                    let (lo, hi) = f.a.row_span(j);
+                    sums.push(dot4(&b[j * nx + lo..j * nx + hi], &out[lo..hi]));
                 } else {
                     out.iter_mut().for_each(|v| *v = 0.0);
                     sums.push(0.0);
@@ -1305,10 +1339,13 @@ fn restrict_columns(tmp: &[f64], bc: &mut [f64], cnx: usize) {
     });
 }
 
-/// Row j (an inner row) of x + P·x_c: `x` and `out` are the row, `scale` the row scales of P
-/// on it (0 at inactive nodes). The row interpolates along y from its one or two coarse parent
-/// rows and along x on the fly.
+/// Row j (an inner row) of x + P·x_c at the columns `lo..hi` (1 ≤ lo ≤ hi ≤ nx − 1): `x` and
+/// `out` are the row, `scale` the row scales of P on it (0 at inactive nodes); the rest of `out`
+/// is left to the caller. The row interpolates along y from its one or two coarse parent rows
+/// and along x on the fly: fine column 2I − 1 takes coarse column I, fine 2I the mean of I and
+/// I + 1.
 #[inline]
+#[allow(clippy::too_many_arguments)]
 fn prolong_row<S: Copy + Into<f64>>(
     xc: &[f64],
     cnx: usize,
@@ -1316,38 +1353,48 @@ fn prolong_row<S: Copy + Into<f64>>(
     scale: &[S],
     x: &[f64],
     out: &mut [f64],
+    (lo, hi): (usize, usize),
 ) {
-    let fnx = out.len();
+    if lo >= hi {
+        return;
+    }
     let (p, n) = parents(j);
     let ra = &xc[p[0].0 * cnx..(p[0].0 + 1) * cnx];
     let rb = &xc[p[n - 1].0 * cnx..(p[n - 1].0 + 1) * cnx];
-    // The coarse row interpolated to this fine row, then along x: fine 2I − 1 takes coarse I,
-    // fine 2I the mean of I and I + 1.
+    // The coarse row interpolated to this fine row, at the coarse columns lo..hi needs:
+    // lo / 2 up to (hi − 1) / 2 + 1.
+    let (tlo, thi) = (lo / 2, ((hi - 1) / 2 + 2).min(cnx));
     let mut t = Buffer::take(cnx);
     if n == 1 {
-        t.copy_from_slice(ra);
+        t[tlo..thi].copy_from_slice(&ra[tlo..thi]);
     } else {
-        for ((t, a), b) in t.iter_mut().zip(ra).zip(rb) {
+        for ((t, a), b) in t[tlo..thi].iter_mut().zip(&ra[tlo..thi]).zip(&rb[tlo..thi]) {
             *t = 0.5 * (a + b);
         }
     }
-    out[0] = x[0];
-    out[fnx - 1] = x[fnx - 1];
-    let inner = fnx - 2;
-    let pairs = inner / 2;
+    let mut q = lo;
+    if q % 2 == 0 {
+        out[q] = x[q] + scale[q].into() * (0.5 * (t[q / 2] + t[q / 2 + 1]));
+        q += 1;
+    }
+    // q is odd from here: pairs (q, q + 1) = (2c + 1, 2c + 2) take t[c + 1] and the mean of
+    // t[c + 1], t[c + 2].
+    let pairs = (hi.max(q) - q) / 2;
+    let c0 = (q - 1) / 2;
     let (o, xx, sc) = (
-        &mut out[1..1 + inner],
-        &x[1..1 + inner],
-        &scale[1..1 + inner],
+        &mut out[q..q + 2 * pairs],
+        &x[q..q + 2 * pairs],
+        &scale[q..q + 2 * pairs],
     );
+    let tt = &t[c0 + 1..c0 + pairs + 2];
     for c in 0..pairs {
-        let (a, b) = (t[c + 1], t[c + 2]);
+        let (a, b) = (tt[c], tt[c + 1]);
         o[2 * c] = xx[2 * c] + sc[2 * c].into() * a;
         o[2 * c + 1] = xx[2 * c + 1] + sc[2 * c + 1].into() * (0.5 * (a + b));
     }
-    if inner % 2 == 1 {
-        let c = pairs;
-        o[2 * c] = xx[2 * c] + sc[2 * c].into() * t[c + 1];
+    q += 2 * pairs;
+    if q < hi {
+        out[q] = x[q] + scale[q].into() * t[q.div_ceil(2)];
     }
 }
 
@@ -1364,7 +1411,9 @@ fn prolong_add(xc: &[f64], cnx: usize, x: &mut [f64], fnx: usize, fny: usize, ma
                 if j == 0 || j + 1 >= fny {
                     return;
                 }
-                prolong_row(xc, cnx, j, m, row, buf);
+                prolong_row(xc, cnx, j, m, row, buf, (1, fnx - 1));
+                buf[0] = row[0];
+                buf[fnx - 1] = row[fnx - 1];
                 row.copy_from_slice(buf);
             },
         );

@@ -69,6 +69,23 @@ fn shapes() -> Vec<(&'static str, Box<dyn Domain>)> {
             );
             Box::new(s)
         }),
+        // One above the other: solid grid rows between the passages (empty row spans).
+        ("stacked bores", {
+            let s = Shape::new(
+                vec![
+                    Primitive::Circle {
+                        center: [0.0, 0.0],
+                        radius: 3e-3,
+                    },
+                    Primitive::Circle {
+                        center: [1e-3, 9e-3],
+                        radius: 4e-3,
+                    },
+                ],
+                vec![],
+            );
+            Box::new(s)
+        }),
         ("thin plate", Box::new(plate)),
         ("grazing circle", Box::new(grazing)),
         ("L-shaped mask", Box::new(mask)),
