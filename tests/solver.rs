@@ -26,6 +26,12 @@ fn solve(domain: &dyn Domain, cells: usize, method: Method, correction: bool) ->
     solve_unit(domain, grid, domain.lattice().is_none(), &opts).expect("solve")
 }
 
+/// Two separate round passages, each given as (centre, radius) in metres.
+fn two_bores(a: ([f64; 2], f64), b: ([f64; 2], f64)) -> Box<dyn Domain> {
+    let disc = |(center, radius): ([f64; 2], f64)| Primitive::Circle { center, radius };
+    Box::new(Shape::new(vec![disc(a), disc(b)], vec![]))
+}
+
 fn shapes() -> Vec<(&'static str, Box<dyn Domain>)> {
     let b = |s: &str| -> Box<dyn Domain> { Box::new(parse_builtin(s).expect("builtin")) };
     // A slit 0.3 grid spacings wide at 200 cells: a thin solid plate nearly cutting a square.
@@ -53,39 +59,15 @@ fn shapes() -> Vec<(&'static str, Box<dyn Domain>)> {
             "four-fin tube",
             b("finned:d=16mm,fins=4,height=3mm,thickness=1mm"),
         ),
-        ("twin bore", {
-            let s = Shape::new(
-                vec![
-                    Primitive::Circle {
-                        center: [0.0, 0.0],
-                        radius: 3e-3,
-                    },
-                    Primitive::Circle {
-                        center: [9e-3, 1e-3],
-                        radius: 5e-3,
-                    },
-                ],
-                vec![],
-            );
-            Box::new(s)
-        }),
+        (
+            "twin bore",
+            two_bores(([0.0, 0.0], 3e-3), ([9e-3, 1e-3], 5e-3)),
+        ),
         // One above the other: solid grid rows between the passages (empty row spans).
-        ("stacked bores", {
-            let s = Shape::new(
-                vec![
-                    Primitive::Circle {
-                        center: [0.0, 0.0],
-                        radius: 3e-3,
-                    },
-                    Primitive::Circle {
-                        center: [1e-3, 9e-3],
-                        radius: 4e-3,
-                    },
-                ],
-                vec![],
-            );
-            Box::new(s)
-        }),
+        (
+            "stacked bores",
+            two_bores(([0.0, 0.0], 3e-3), ([1e-3, 9e-3], 4e-3)),
+        ),
         ("thin plate", Box::new(plate)),
         ("grazing circle", Box::new(grazing)),
         ("L-shaped mask", Box::new(mask)),
