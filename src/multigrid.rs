@@ -541,8 +541,9 @@ pub struct Multigrid<'a> {
     /// Row scales of P on the fine level ([`pscale_of`], 0 at solid nodes), rounded to single
     /// precision; the Galerkin product uses the same rounded numbers, so R = Pᵀ holds exactly.
     fine_scale: Vec<f32>,
-    /// masks[l]: 1 at the active nodes of coarse level l, 0 elsewhere (the row scales of its P).
-    masks: Vec<Vec<f64>>,
+    /// masks[l]: 1 at the active nodes of coarse level l, 0 elsewhere (the row scales of its P),
+    /// one byte a node (exact as numbers, an eighth of the memory of f64).
+    masks: Vec<Vec<u8>>,
     levels: Vec<Level>,
     /// Dense Cholesky factor of the coarsest level and the grid indices of its unknowns; None
     /// when there is only the fine level and it is solved by smoothing alone.
@@ -624,12 +625,7 @@ impl<'a> Multigrid<'a> {
         };
         let mut masks = Vec::new();
         for l in &levels {
-            masks.push(
-                l.active
-                    .iter()
-                    .map(|&a| if a { 1.0 } else { 0.0 })
-                    .collect(),
-            );
+            masks.push(l.active.iter().map(|&a| u8::from(a)).collect());
         }
         Multigrid {
             fine,
@@ -1400,7 +1396,7 @@ fn prolong_row<S: Copy + Into<f64>>(
 
 /// x += P·x_c on the fine nodes that are active (`mask` holds the row scales of P, 0 at
 /// inactive nodes); rows in parallel.
-fn prolong_add(xc: &[f64], cnx: usize, x: &mut [f64], fnx: usize, fny: usize, mask: &[f64]) {
+fn prolong_add(xc: &[f64], cnx: usize, x: &mut [f64], fnx: usize, fny: usize, mask: &[u8]) {
     use rayon::prelude::*;
     x.par_chunks_mut(fnx)
         .zip(mask.par_chunks(fnx))
