@@ -292,6 +292,16 @@ fn link_thetas_at(
 pub fn classify(domain: &dyn Domain, grid: Grid) -> Result<Classified> {
     use rayon::prelude::*;
     let n = grid.len();
+    // Node and unknown indices are stored as u32 (operator::Numbering, the thin-node lists).
+    if n >= u32::MAX as usize {
+        return Err(Error::param(
+            "--cells",
+            format!(
+                "a {} × {} grid has more nodes than this program can number (2³² − 1)",
+                grid.nx, grid.ny
+            ),
+        ));
+    }
     let h = grid.h;
     // Rows and columns are independent: in parallel, collected in order (the same result with
     // any number of threads).

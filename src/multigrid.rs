@@ -1560,15 +1560,15 @@ mod tests {
         // A rough vector, zero at solid nodes.
         let field = |k: usize, seed: f64| ((k as f64 * 0.618 + seed).sin() * 1e3).fract();
         let mut x = vec![0.0; a.diag.len()];
-        for &k in &num.node_of {
+        for k in num.nodes() {
             x[k] = field(k, 0.3);
         }
         let mut y = vec![0.0; x.len()];
         a.apply(&x, &mut y);
-        let xu: Vec<f64> = num.node_of.iter().map(|&k| x[k]).collect();
+        let xu: Vec<f64> = num.nodes().map(|k| x[k]).collect();
         let mut yu = vec![0.0; xu.len()];
         LinearOperator::apply(&csr, &xu, &mut yu);
-        for (q, &k) in num.node_of.iter().enumerate() {
+        for (q, k) in num.nodes().enumerate() {
             assert!(
                 (y[k] - yu[q]).abs() <= 1e-12 * yu[q].abs().max(1.0),
                 "node {k}"
@@ -1583,7 +1583,7 @@ mod tests {
         let mg = Multigrid::new(&a);
         let mut u = vec![0.0; x.len()];
         let mut v = vec![0.0; x.len()];
-        for &k in &num.node_of {
+        for k in num.nodes() {
             u[k] = field(k, 1.1);
             v[k] = field(k, 2.7);
         }

@@ -30,8 +30,9 @@ pub const NO_UNKNOWN: u32 = u32::MAX;
 pub struct Numbering {
     /// Unknown of each grid node, or [`NO_UNKNOWN`].
     pub unknown_of: Vec<u32>,
-    /// Grid node of each unknown.
-    pub node_of: Vec<usize>,
+    /// Grid node of each unknown (as u32: grids are capped below 2³² nodes, and the numbering
+    /// is then 4 bytes an unknown lighter; [`Numbering::nodes`] gives them as indices).
+    pub node_of: Vec<u32>,
 }
 
 impl Numbering {
@@ -41,7 +42,7 @@ impl Numbering {
         for (k, &f) in c.fluid.iter().enumerate() {
             if f {
                 unknown_of[k] = node_of.len() as u32;
-                node_of.push(k);
+                node_of.push(k as u32);
             }
         }
         Numbering {
@@ -57,6 +58,16 @@ impl Numbering {
     pub fn is_empty(&self) -> bool {
         self.node_of.is_empty()
     }
+
+    /// The grid node of each unknown, in unknown order.
+    pub fn nodes(&self) -> impl ExactSizeIterator<Item = usize> + '_ {
+        self.node_of.iter().map(|&k| k as usize)
+    }
+
+    /// The grid node of unknown q.
+    pub fn node(&self, q: usize) -> usize {
+        self.node_of[q] as usize
+    }
 }
 
 /// Assembles h²·(−∇²_h) in CSR form (rows sorted, diagonal included), row by row: unknowns
@@ -68,7 +79,7 @@ pub fn assemble(c: &Classified, num: &Numbering) -> CsMat<f64> {
     let mut indices = Vec::with_capacity(5 * n);
     let mut data = Vec::with_capacity(5 * n);
     indptr.push(0);
-    for (row, &k) in num.node_of.iter().enumerate() {
+    for (row, k) in num.nodes().enumerate() {
         let mut diag = 0.0;
         let mut off = [None; 4];
         for (slot, d) in [Dir::South, Dir::West, Dir::East, Dir::North]

@@ -201,7 +201,7 @@ fn solve_unit_on_worker(
     let mut work = CgWorkspace::default();
     let mut solve = |rhs: &[f64], x: &mut [f64], params: &CgParams| -> Result<CgInfo> {
         if on_grid {
-            for (q, &k) in numbering.node_of.iter().enumerate() {
+            for (q, k) in numbering.nodes().enumerate() {
                 gb[k] = rhs[q];
                 gx[k] = x[q];
             }
@@ -215,7 +215,7 @@ fn solve_unit_on_worker(
                 method.name(),
                 monitor,
             )?;
-            for (q, &k) in numbering.node_of.iter().enumerate() {
+            for (q, k) in numbering.nodes().enumerate() {
                 x[q] = gx[k];
             }
             Ok(info)
@@ -411,7 +411,7 @@ fn heat_transfer(
 struct OnUnknowns<'a> {
     op: &'a dyn LinearOperator,
     pre: &'a dyn Preconditioner,
-    node_of: &'a [usize],
+    node_of: &'a [u32],
     /// Grid vectors in and out; entries at solid nodes stay zero.
     scratch: std::cell::RefCell<(Vec<f64>, Vec<f64>)>,
 }
@@ -420,7 +420,7 @@ impl<'a> OnUnknowns<'a> {
     fn new(
         op: &'a dyn LinearOperator,
         pre: &'a dyn Preconditioner,
-        node_of: &'a [usize],
+        node_of: &'a [u32],
         grid_len: usize,
     ) -> Self {
         OnUnknowns {
@@ -431,14 +431,19 @@ impl<'a> OnUnknowns<'a> {
         }
     }
 
+    /// The grid node of each unknown.
+    fn nodes(&self) -> impl Iterator<Item = usize> + '_ {
+        self.node_of.iter().map(|&k| k as usize)
+    }
+
     fn through(&self, x: &[f64], y: &mut [f64], f: impl Fn(&[f64], &mut [f64])) {
         let mut s = self.scratch.borrow_mut();
         let (gx, gy) = &mut *s;
-        for (q, &k) in self.node_of.iter().enumerate() {
+        for (q, k) in self.nodes().enumerate() {
             gx[k] = x[q];
         }
         f(gx, gy);
-        for (q, &k) in self.node_of.iter().enumerate() {
+        for (q, k) in self.nodes().enumerate() {
             y[q] = gy[k];
         }
     }
@@ -455,13 +460,13 @@ impl LinearOperator for OnUnknowns<'_> {
 
     fn diagonal(&self) -> Vec<f64> {
         let d = self.op.diagonal();
-        self.node_of.iter().map(|&k| d[k]).collect()
+        self.nodes().map(|k| d[k]).collect()
     }
 
     fn abs_product_norm(&self, x: &[f64]) -> f64 {
         let mut s = self.scratch.borrow_mut();
         let gx = &mut s.0;
-        for (q, &k) in self.node_of.iter().enumerate() {
+        for (q, k) in self.nodes().enumerate() {
             gx[k] = x[q];
         }
         self.op.abs_product_norm(gx)

@@ -61,7 +61,7 @@ pub struct ShearSample {
 pub fn flow_integral(c: &Classified, num: &Numbering, u: &[f64], area: f64) -> f64 {
     let h2 = c.grid.h * c.grid.h;
     let mut sum = 0.0;
-    for (q, &k) in num.node_of.iter().enumerate() {
+    for (q, k) in num.nodes().enumerate() {
         let cuts = c.cuts_of(k);
         let mut a = 4.0;
         for cut in cuts {
@@ -76,9 +76,8 @@ pub fn flow_integral(c: &Classified, num: &Numbering, u: &[f64], area: f64) -> f
 /// belongs to −∇²ũ = 1 only): node i gets h²·(a_E + a_W + a_N + a_S)/4.
 pub fn quadrature_weights(c: &Classified, num: &Numbering) -> Vec<f64> {
     let h2 = c.grid.h * c.grid.h;
-    num.node_of
-        .iter()
-        .map(|&k| {
+    num.nodes()
+        .map(|k| {
             let mut a = 4.0;
             for cut in c.cuts_of(k) {
                 a -= 1.0 - cut.theta;
@@ -197,7 +196,7 @@ pub fn passages(c: &Classified, num: &Numbering, u: &[f64], walls: &Walls) -> Ve
     let mut weight = vec![0.0; count];
     let mut cx = vec![0.0; count];
     let mut cy = vec![0.0; count];
-    for (qi, &k) in num.node_of.iter().enumerate() {
+    for (qi, k) in num.nodes().enumerate() {
         let l = label[k] as usize;
         let (i, j) = g.ij(k);
         let x = g.node(i, j);
@@ -242,7 +241,7 @@ pub fn max_velocity(c: &Classified, num: &Numbering, u: &[f64]) -> f64 {
     let Some((imax, &umax)) = u.iter().enumerate().max_by(|a, b| a.1.total_cmp(b.1)) else {
         return 0.0;
     };
-    let k = num.node_of[imax];
+    let k = num.node(imax);
     let g = &c.grid;
     let (i, j) = g.ij(k);
     if i == 0 || j == 0 || i + 1 >= g.nx || j + 1 >= g.ny || !c.cuts_of(k).is_empty() {

@@ -23,7 +23,7 @@ use std::fmt::Write;
 /// Velocity of every grid node in displayed units, 0 at solid nodes.
 pub fn node_values(o: &Outcome, scale: &Scale) -> Vec<f64> {
     let mut v = vec![0.0; o.unit.classified.grid.len()];
-    for (q, &k) in o.unit.numbering.node_of.iter().enumerate() {
+    for (q, k) in o.unit.numbering.nodes().enumerate() {
         v[k] = scale.u_factor * o.unit.u[q];
     }
     v
@@ -34,7 +34,7 @@ pub fn velocity_csv(o: &Outcome, scale: &Scale) -> String {
     let g = &o.unit.classified.grid;
     let mut s = String::with_capacity(o.unit.u.len() * 60);
     let _ = writeln!(s, "x_m,y_m,{}", scale.u_name());
-    for (q, &k) in o.unit.numbering.node_of.iter().enumerate() {
+    for (q, k) in o.unit.numbering.nodes().enumerate() {
         let (i, j) = g.ij(k);
         let p = g.node(i, j);
         let _ = writeln!(s, "{},{},{}", p[0], p[1], scale.u_factor * o.unit.u[q]);
@@ -136,7 +136,7 @@ pub fn velocity_vti(o: &Outcome, scale: &Scale) -> String {
     // reproduce the reported flow rate: Q = Σ wᵢ·uᵢ + (G/μ)·h²·A/24 (post::flow_integral).
     let weights = crate::post::quadrature_weights(c, &o.unit.numbering);
     let mut full = vec![0.0; g.len()];
-    for (q, &k) in o.unit.numbering.node_of.iter().enumerate() {
+    for (q, k) in o.unit.numbering.nodes().enumerate() {
         full[k] = weights[q];
     }
     let _ = writeln!(

@@ -908,7 +908,7 @@ fn passage_anchors(o: &Outcome) -> Vec<Point> {
     let mut sum = vec![[0.0f64; 2]; count];
     let mut nodes = vec![0usize; count];
     let mut fastest = vec![(f64::NEG_INFINITY, [0.0f64; 2]); count];
-    for (q, &k) in o.unit.numbering.node_of.iter().enumerate() {
+    for (q, k) in o.unit.numbering.nodes().enumerate() {
         let l = label[k];
         if l == u32::MAX {
             continue;
@@ -1041,7 +1041,7 @@ pub fn temperature_h1_png(o: &Outcome, width: u32) -> Result<Option<Vec<u8>>> {
         return Ok(None);
     };
     let mut values = vec![0.0; o.unit.classified.grid.len()];
-    for (q, &k) in o.unit.numbering.node_of.iter().enumerate() {
+    for (q, k) in o.unit.numbering.nodes().enumerate() {
         values[k] = heat.psi[q] / heat.psi_bulk;
     }
     let caption = format!(
