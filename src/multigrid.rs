@@ -518,7 +518,8 @@ fn coarsen(fine: &(dyn StencilRows + Sync), scale: Option<&[f32]>) -> Level {
 /// Scratch vectors: the pre-smoothed fine vector, the x-restricted rows and each coarse level's
 /// solution and right-hand side.
 struct Scratch {
-    fine_x: Vec<f64>,
+    /// The rows of x next to each block boundary of the fine level's second pass.
+    halo: Vec<f64>,
     tmp: Vec<f64>,
     x: Vec<Vec<f64>>,
     b: Vec<Vec<f64>>,
@@ -618,7 +619,7 @@ impl<'a> Multigrid<'a> {
             (chol, idx)
         });
         let scratch = Scratch {
-            fine_x: vec![0.0; fine.diag.len()],
+            halo: Vec::new(),
             tmp: Vec::with_capacity(fine.diag.len() / 2 + 4 * fine.ny),
             x: levels.iter().map(|l| vec![0.0; l.len()]).collect(),
             b: levels.iter().map(|l| vec![0.0; l.len()]).collect(),
@@ -677,9 +678,11 @@ const LINK_WEIGHTS: [[f64; 4]; 16] = {
 /// Each half-sweep reads the values of the other colour only, so it is a pure function of the
 /// previous stage: a pass carries a few rows of each stage in ring buffers, each task
 /// recomputes the rows just outside its block that it needs, and every row is the same
-/// contiguous loop over all nodes that keeps the new value on one colour and the old one on
-/// the other ([`half_sweep_row`]; it vectorises, where a stride-2 loop over one colour did
-/// not). The numbers are those of the in-place red–black sweeps.
+/// contiguous loop over the row's fluid span that keeps the new value on one colour and the
+/// old one on the other ([`half_sweep_row`]; faster than a stride-2 loop over one colour).
+/// The numbers are those of the in-place red–black sweeps. Pass 1 writes the pre-smoothed x
+/// into the output vector z and pass 2 turns it into z in place, with the rows next to each
+/// block boundary copied aside first, so the V-cycle keeps no fine-level vector of its own.
 ///
 /// This constant is the rows per task of the two passes (a fixed number, so the work split,
 /// and with it nothing of the result, depends on the number of threads).
@@ -937,7 +940,7 @@ fn fine_pre(f: &Fine, b: &[f64], x: &mut [f64], restrict: Option<(&mut [f64], us
                             if j + 1 < ny {
                                 fill(rows, j + 1);
                             }
-                            // Outside the fluid span x stays zero (it is never written there).
+                            // Only the fluid span: nothing reads x outside it.
                             let (lo, hi) = f.a.row_span(j);
                             out[lo..hi].copy_from_slice(&rows.get(j)[lo..hi]);
                             if inner(j) {
@@ -953,26 +956,54 @@ fn fine_pre(f: &Fine, b: &[f64], x: &mut [f64], restrict: Option<(&mut [f64], us
     }
 }
 
-/// Pass 2 of the fine level (see [`FINE_BLOCK`]): z = post-smoothing of (x + P·x_c) (x the
-/// pre-smoothed vector of pass 1, `coarse` = (x_c, coarse nx) or None for no correction);
-/// returns r·z (row sums added in row order).
+/// Pass 2 of the fine level (see [`FINE_BLOCK`]), in place: `z` holds the pre-smoothed x of
+/// pass 1 on entry and the post-smoothing of (x + P·x_c) on return (`coarse` = (x_c, coarse
+/// nx), or None for no correction); returns r·z (row sums added in row order).
+///
+/// In place, so the V-cycle needs no grid vector of its own for x (10 MB fewer at a million
+/// unknowns). A task writes row j of its block only after it has read the rows of x up to
+/// j + 2, so within a block the order is safe; the two rows of x on either side of each block
+/// belong to the neighbouring tasks, which overwrite them, so they are copied into `halo`
+/// (four rows per block) before the tasks start. Only the fluid span of a row of x is ever
+/// read, and every row of z is written in full.
 fn fine_post(
     f: &Fine,
     b: &[f64],
-    x: &[f64],
     coarse: Option<(&[f64], usize)>,
     z: &mut [f64],
+    halo: &mut Vec<f64>,
 ) -> f64 {
     use rayon::prelude::*;
     let (nx, ny) = (f.a.nx, f.a.ny);
     let inner = |m: usize| m >= 1 && m + 1 < ny;
-    // Stage 1: row m of x + P·x_c.
-    let corrected = |m: usize, out: &mut [f64]| {
+    let blocks = ny.div_ceil(FINE_BLOCK);
+    // Halo rows of block blk: j0 − 2, j0 − 1, j1, j1 + 1 (j0..j1 its own rows), those that exist.
+    let halo_rows = |blk: usize| {
+        let j0 = blk * FINE_BLOCK;
+        let j1 = (j0 + FINE_BLOCK).min(ny);
+        [j0.wrapping_sub(2), j0.wrapping_sub(1), j1, j1 + 1]
+    };
+    halo.resize(blocks * 4 * nx, 0.0);
+    {
+        let z: &[f64] = z;
+        halo.par_chunks_mut(4 * nx)
+            .enumerate()
+            .for_each(|(blk, hb)| {
+                for (t, &m) in halo_rows(blk).iter().enumerate() {
+                    if m < ny {
+                        let (lo, hi) = f.a.row_span(m);
+                        hb[t * nx + lo..t * nx + hi].copy_from_slice(&z[m * nx + lo..m * nx + hi]);
+                    }
+                }
+            });
+    }
+    let halo: &[f64] = halo;
+    // Stage 1: row m of x + P·x_c, from row m of x (`xr`).
+    let corrected = |m: usize, xr: &[f64], out: &mut [f64]| {
         if !inner(m) {
             out.iter_mut().for_each(|v| *v = 0.0);
             return;
         }
-        let xr = &x[m * nx..(m + 1) * nx];
         let (lo, hi) = f.a.row_span(m);
         match coarse {
             Some((xc, cnx)) => {
@@ -997,6 +1028,19 @@ fn fine_post(
             let mut c = Rows::new(nx);
             let mut w = Rows::new(nx);
             let j0 = blk * FINE_BLOCK;
+            let own = zb.len() / nx;
+            let hrows = halo_rows(blk);
+            let hb = &halo[blk * 4 * nx..(blk + 1) * 4 * nx];
+            // Row m of x: the block's own rows from z (not yet overwritten when read), the
+            // others from the halo.
+            let fill = |c: &mut Rows, zb: &[f64], m: usize| {
+                if m >= j0 && m < j0 + own {
+                    corrected(m, &zb[(m - j0) * nx..(m - j0 + 1) * nx], c.slot(m));
+                } else {
+                    let t = hrows.iter().position(|&r| r == m).expect("a halo row");
+                    corrected(m, &hb[t * nx..(t + 1) * nx], c.slot(m));
+                }
+            };
             // Stage 2 (black half-sweep) of row m from stage-1 rows m − 1..m + 1.
             let black = |c: &Rows, w: &mut Rows, m: usize| {
                 if inner(m) {
@@ -1006,20 +1050,21 @@ fn fine_post(
                 }
             };
             for m in j0.saturating_sub(2)..=(j0 + 1).min(ny - 1) {
-                corrected(m, c.slot(m));
+                fill(&mut c, zb, m);
             }
             for m in j0.saturating_sub(1)..=j0.min(ny - 1) {
                 black(&c, &mut w, m);
             }
             let mut sums = Vec::with_capacity(FINE_BLOCK);
-            for (q, out) in zb.chunks_mut(nx).enumerate() {
+            for q in 0..own {
                 let j = j0 + q;
                 if j + 2 < ny {
-                    corrected(j + 2, c.slot(j + 2));
+                    fill(&mut c, zb, j + 2);
                 }
                 if j + 1 < ny {
                     black(&c, &mut w, j + 1);
                 }
+                let out = &mut zb[q * nx..(q + 1) * nx];
                 if inner(j) {
                     half_sweep_row(f, b, j, 0, w.around(j), out);
                     let (lo, hi) = f.a.row_span(j);
@@ -1468,20 +1513,18 @@ impl Preconditioner for Multigrid<'_> {
             inv: &self.inv_diag,
             scale: &self.fine_scale,
         };
-        let mut fine_x = std::mem::take(&mut s.fine_x);
-        let rz = if self.levels.is_empty() {
-            fine_pre(&f, r, &mut fine_x, None);
-            fine_post(&f, r, &fine_x, None, z)
+        // The pre-smoothed x goes into z, and pass 2 works on it in place (see `fine_post`).
+        if self.levels.is_empty() {
+            fine_pre(&f, r, z, None);
+            fine_post(&f, r, None, z, &mut s.halo)
         } else {
             let c0 = &self.levels[0];
             prepare_tmp(&mut s.tmp, a.ny, c0.ny, c0.nx);
-            fine_pre(&f, r, &mut fine_x, Some((&mut s.tmp, c0.nx)));
+            fine_pre(&f, r, z, Some((&mut s.tmp, c0.nx)));
             restrict_columns(&s.tmp, &mut s.b[0], c0.nx);
             self.cycle(0, s);
-            fine_post(&f, r, &fine_x, Some((&s.x[0], c0.nx)), z)
-        };
-        s.fine_x = fine_x;
-        rz
+            fine_post(&f, r, Some((&s.x[0], c0.nx)), z, &mut s.halo)
+        }
     }
 }
 
