@@ -164,18 +164,29 @@ fn apply_row(
     (lo, hi): (usize, usize),
 ) {
     let m = hi - lo;
-    let (e, w, c) = (
-        &xc[lo + 1..lo + 1 + m],
-        &xc[lo - 1..lo - 1 + m],
-        &xc[lo..lo + m],
-    );
-    let (n, s, d) = (&xn[lo..lo + m], &xs[lo..lo + m], &d[lo..lo + m]);
-    let o = &mut out[lo..lo + m];
+    let [e, w, c, n, s] = span_neighbours((xs, xc, xn), (lo, hi));
+    let (d, o) = (&d[lo..hi], &mut out[lo..hi]);
     for i in 0..m {
         let v = d[i] * c[i] - ((e[i] + w[i]) + (n[i] + s[i]));
         o[i] = if d[i] != 0.0 { v } else { 0.0 };
     }
     zero_outside(out, (lo, hi));
+}
+
+/// The neighbour slices of a row's span `lo..hi` (1 ≤ lo ≤ hi ≤ nx − 1), as (east, west,
+/// centre, north, south), all of length hi − lo, from the rows south, centre and north.
+#[inline(always)]
+fn span_neighbours<'x>(
+    (xs, xc, xn): (&'x [f64], &'x [f64], &'x [f64]),
+    (lo, hi): (usize, usize),
+) -> [&'x [f64]; 5] {
+    [
+        &xc[lo + 1..hi + 1],
+        &xc[lo - 1..hi - 1],
+        &xc[lo..hi],
+        &xn[lo..hi],
+        &xs[lo..hi],
+    ]
 }
 
 /// Zeros a row outside the columns `lo..hi`.
@@ -515,8 +526,8 @@ fn coarsen(fine: &(dyn StencilRows + Sync), scale: Option<&[f32]>) -> Level {
     }
 }
 
-/// Scratch vectors: the pre-smoothed fine vector, the x-restricted rows and each coarse level's
-/// solution and right-hand side.
+/// Scratch vectors: the halo rows of the fine level's second pass, the x-restricted rows and
+/// each coarse level's solution and right-hand side.
 struct Scratch {
     /// The rows of x next to each block boundary of the fine level's second pass.
     halo: Vec<f64>,
@@ -760,8 +771,7 @@ fn half_sweep_row(
     let row = j * nx;
     let (lo, hi) = a.row_span(j);
     let m = hi - lo;
-    let (e, w, c) = (&xc[lo + 1..hi + 1], &xc[lo - 1..hi - 1], &xc[lo..hi]);
-    let (n, s) = (&xn[lo..hi], &xs[lo..hi]);
+    let [e, w, c, n, s] = span_neighbours((xs, xc, xn), (lo, hi));
     let (bb, ii) = (&b[row + lo..row + hi], &inv[row + lo..row + hi]);
     let o = &mut out[lo..hi];
     // Node lo + i of the row has the colour when (lo + i + j) % 2 == colour.
@@ -795,8 +805,7 @@ fn residual_row_fine(
     let row = j * nx;
     let (lo, hi) = a.row_span(j);
     let m = hi - lo;
-    let (e, w, c) = (&xc[lo + 1..hi + 1], &xc[lo - 1..hi - 1], &xc[lo..hi]);
-    let (n, s) = (&xn[lo..hi], &xs[lo..hi]);
+    let [e, w, c, n, s] = span_neighbours((xs, xc, xn), (lo, hi));
     let (bb, inv, sc) = (
         &b[row + lo..row + hi],
         &f.inv[row + lo..row + hi],
@@ -816,7 +825,7 @@ fn residual_row_fine(
 }
 
 /// d′ = 1/fl(1/d) from the stored single-precision 1/d, 0 at solid nodes (where 1/d is
-/// stored as 0); branch-free, so the residual rows still vectorise.
+/// stored as 0); a select rather than a branch.
 #[inline(always)]
 fn diag_of_inv(inv: f32) -> f64 {
     let d = 1.0 / inv as f64;
@@ -977,12 +986,18 @@ fn fine_post(
     let (nx, ny) = (f.a.nx, f.a.ny);
     let inner = |m: usize| m >= 1 && m + 1 < ny;
     let blocks = ny.div_ceil(FINE_BLOCK);
-    // Halo rows of block blk: j0 − 2, j0 − 1, j1, j1 + 1 (j0..j1 its own rows), those that exist.
-    let halo_rows = |blk: usize| {
+    // Halo rows of block blk, slots 0..4: j0 − 2, j0 − 1, j1, j1 + 1 (j0..j1 its own rows),
+    // those that exist; `halo_slot` is the inverse.
+    let block_rows = |blk: usize| {
         let j0 = blk * FINE_BLOCK;
-        let j1 = (j0 + FINE_BLOCK).min(ny);
+        (j0, (j0 + FINE_BLOCK).min(ny))
+    };
+    let halo_rows = |blk: usize| {
+        let (j0, j1) = block_rows(blk);
         [j0.wrapping_sub(2), j0.wrapping_sub(1), j1, j1 + 1]
     };
+    let halo_slot =
+        |(j0, j1): (usize, usize), m: usize| if m < j0 { m + 2 - j0 } else { 2 + m - j1 };
     halo.resize(blocks * 4 * nx, 0.0);
     {
         let z: &[f64] = z;
@@ -1027,17 +1042,16 @@ fn fine_post(
         .flat_map_iter(|(blk, zb)| {
             let mut c = Rows::new(nx);
             let mut w = Rows::new(nx);
-            let j0 = blk * FINE_BLOCK;
-            let own = zb.len() / nx;
-            let hrows = halo_rows(blk);
+            let (j0, j1) = block_rows(blk);
+            let own = j1 - j0;
             let hb = &halo[blk * 4 * nx..(blk + 1) * 4 * nx];
             // Row m of x: the block's own rows from z (not yet overwritten when read), the
             // others from the halo.
             let fill = |c: &mut Rows, zb: &[f64], m: usize| {
-                if m >= j0 && m < j0 + own {
+                if (j0..j1).contains(&m) {
                     corrected(m, &zb[(m - j0) * nx..(m - j0 + 1) * nx], c.slot(m));
                 } else {
-                    let t = hrows.iter().position(|&r| r == m).expect("a halo row");
+                    let t = halo_slot((j0, j1), m);
                     corrected(m, &hb[t * nx..(t + 1) * nx], c.slot(m));
                 }
             };

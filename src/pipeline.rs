@@ -357,7 +357,7 @@ fn heat_transfer(
     let on_unknowns;
     let inner;
     let (eop, epre): (&dyn LinearOperator, &dyn Preconditioner) = if on_grid {
-        on_unknowns = OnUnknowns::new(op, pre, &num.node_of, c.grid.len());
+        on_unknowns = OnUnknowns::new(op, pre, num, c.grid.len());
         (&on_unknowns, &on_unknowns)
     } else {
         inner = InnerCg::new(
@@ -411,7 +411,7 @@ fn heat_transfer(
 struct OnUnknowns<'a> {
     op: &'a dyn LinearOperator,
     pre: &'a dyn Preconditioner,
-    node_of: &'a [u32],
+    num: &'a Numbering,
     /// Grid vectors in and out; entries at solid nodes stay zero.
     scratch: std::cell::RefCell<(Vec<f64>, Vec<f64>)>,
 }
@@ -420,30 +420,25 @@ impl<'a> OnUnknowns<'a> {
     fn new(
         op: &'a dyn LinearOperator,
         pre: &'a dyn Preconditioner,
-        node_of: &'a [u32],
+        num: &'a Numbering,
         grid_len: usize,
     ) -> Self {
         OnUnknowns {
             op,
             pre,
-            node_of,
+            num,
             scratch: std::cell::RefCell::new((vec![0.0; grid_len], vec![0.0; grid_len])),
         }
-    }
-
-    /// The grid node of each unknown.
-    fn nodes(&self) -> impl Iterator<Item = usize> + '_ {
-        self.node_of.iter().map(|&k| k as usize)
     }
 
     fn through(&self, x: &[f64], y: &mut [f64], f: impl Fn(&[f64], &mut [f64])) {
         let mut s = self.scratch.borrow_mut();
         let (gx, gy) = &mut *s;
-        for (q, k) in self.nodes().enumerate() {
+        for (q, k) in self.num.nodes().enumerate() {
             gx[k] = x[q];
         }
         f(gx, gy);
-        for (q, k) in self.nodes().enumerate() {
+        for (q, k) in self.num.nodes().enumerate() {
             y[q] = gy[k];
         }
     }
@@ -451,7 +446,7 @@ impl<'a> OnUnknowns<'a> {
 
 impl LinearOperator for OnUnknowns<'_> {
     fn dim(&self) -> usize {
-        self.node_of.len()
+        self.num.len()
     }
 
     fn apply(&self, x: &[f64], y: &mut [f64]) {
@@ -460,13 +455,13 @@ impl LinearOperator for OnUnknowns<'_> {
 
     fn diagonal(&self) -> Vec<f64> {
         let d = self.op.diagonal();
-        self.nodes().map(|k| d[k]).collect()
+        self.num.nodes().map(|k| d[k]).collect()
     }
 
     fn abs_product_norm(&self, x: &[f64]) -> f64 {
         let mut s = self.scratch.borrow_mut();
         let gx = &mut s.0;
-        for (q, k) in self.nodes().enumerate() {
+        for (q, k) in self.num.nodes().enumerate() {
             gx[k] = x[q];
         }
         self.op.abs_product_norm(gx)
