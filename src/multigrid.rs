@@ -767,8 +767,8 @@ fn presmooth_row(f: &Fine, b: &[f64], j: usize, out: &mut [f64]) {
     let (be, bw, bm) = (&bc[lo + 1..hi + 1], &bc[lo - 1..hi - 1], &bc[lo..hi]);
     let (ie, iw, im) = (&ic[lo + 1..hi + 1], &ic[lo - 1..hi - 1], &ic[lo..hi]);
     let o = &mut out[lo..hi];
-    // Node lo + i of the row is red when (lo + i + j) is even.
-    // Every node as black (a loop that vectorises), then the red ones put right.
+    // Every node as black (a loop that vectorises), then the red ones put right: node lo + i is
+    // red when (lo + i + j) is even, so the red ones start at i = `first_red`.
     let (bs, bn, be, bw, bm) = (&bs[..m], &bn[..m], &be[..m], &bw[..m], &bm[..m]);
     let (is, inn, ie, iw, im, o) = (
         &is[..m],
@@ -818,8 +818,8 @@ fn half_sweep_row(
     let [e, w, c, n, s] = span_neighbours((xs, xc, xn), (lo, hi));
     let (bb, ii) = (&b[row + lo..row + hi], &inv[row + lo..row + hi]);
     let o = &mut out[lo..hi];
-    // Node lo + i of the row has the colour when (lo + i + j) % 2 == colour.
-    // Every node updated (a loop that vectorises), then the other colour put back.
+    // Every node updated (a loop that vectorises), then the other colour put back: node lo + i
+    // has the colour when (lo + i + j) % 2 == colour, so the other colour starts at i = `other`.
     let (e, w, n, s) = (&e[..m], &w[..m], &n[..m], &s[..m]);
     let (bb, ii, o) = (&bb[..m], &ii[..m], &mut o[..m]);
     for i in 0..m {
