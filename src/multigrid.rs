@@ -229,6 +229,21 @@ struct Level {
     spans: Vec<(u32, u32)>,
     odd_start: Vec<u32>,
     odd_cols: Vec<u32>,
+    /// [`interior_parts`] of the table, found once at setup.
+    interior: Option<Interior>,
+}
+
+/// The interior stencil of a level as (N/S edge, E/W edge, corner, centre, 1/centre).
+type Interior = (f64, f64, f64, f64, f64);
+
+/// The interior stencil's parts when it has the symmetry of a Galerkin product of the 5-point
+/// operator (it does; checked rather than assumed) and a nonzero centre, else None (a level
+/// without interior nodes).
+fn interior_parts(table: &[[f64; 9]], inv_table: &[f64]) -> Option<Interior> {
+    let r = table.get(REGULAR_ID as usize)?;
+    let symmetric = r[1] == r[7] && r[3] == r[5] && r[0] == r[2] && r[0] == r[6] && r[0] == r[8];
+    (symmetric && r[CENTRE] != 0.0)
+        .then(|| (r[1], r[3], r[0], r[CENTRE], inv_table[REGULAR_ID as usize]))
 }
 
 impl Level {
@@ -239,22 +254,11 @@ impl Level {
     fn st(&self, k: usize) -> &[f64; 9] {
         &self.table[self.ids[k] as usize]
     }
-    /// The interior stencil as (N/S edge, E/W edge, corner, centre, 1/centre) when it has the
-    /// symmetry of a Galerkin product of the 5-point operator (it does; checked rather than
-    /// assumed), for the fast path of the sweeps.
-    fn regular_parts(&self) -> Option<(f64, f64, f64, f64, f64)> {
-        let r = self.table.get(REGULAR_ID as usize)?;
-        let symmetric =
-            r[1] == r[7] && r[3] == r[5] && r[0] == r[2] && r[0] == r[6] && r[0] == r[8];
-        (symmetric && r[CENTRE] != 0.0).then(|| {
-            (
-                r[1],
-                r[3],
-                r[0],
-                r[CENTRE],
-                self.inv_table[REGULAR_ID as usize],
-            )
-        })
+    /// The interior stencil's parts ([`interior_parts`]), for the fast paths of the sweeps and
+    /// the residual.
+    #[inline]
+    fn regular_parts(&self) -> Option<Interior> {
+        self.interior
     }
     fn active_count(&self) -> usize {
         self.active.iter().filter(|&&a| a).count()
@@ -512,7 +516,7 @@ fn coarsen(fine: &(dyn StencilRows + Sync), scale: Option<&[f32]>) -> Level {
         active.extend(a);
         ids.extend(id);
     }
-    let inv_table = table
+    let inv_table: Vec<f64> = table
         .iter()
         .map(|st| {
             if st[CENTRE] != 0.0 {
@@ -523,6 +527,7 @@ fn coarsen(fine: &(dyn StencilRows + Sync), scale: Option<&[f32]>) -> Level {
         })
         .collect();
     let (spans, odd_start, odd_cols) = row_index(nx, ny, &active, &ids);
+    let interior = interior_parts(&table, &inv_table);
     Level {
         nx,
         ny,
@@ -533,6 +538,7 @@ fn coarsen(fine: &(dyn StencilRows + Sync), scale: Option<&[f32]>) -> Level {
         spans,
         odd_start,
         odd_cols,
+        interior,
     }
 }
 
@@ -1193,13 +1199,14 @@ fn smooth_coarse(l: &Level, b: &[f64], x: &mut [f64], forward: bool) {
             // separator rows next to them, which no task writes in this phase; other bands are
             // at least one separator row away. All indices lie inside the grid.
             let first = rows.start;
+            let mut parts = Buffer::take(2 * l.nx);
             if forward {
                 for j in rows {
-                    unsafe { sweep_row(l, b, shared.0, j, true, j == first, true) };
+                    unsafe { sweep_row(l, b, shared.0, j, (true, j == first, true), &mut parts) };
                 }
             } else {
                 for j in rows.rev() {
-                    unsafe { sweep_row(l, b, shared.0, j, false, false, false) };
+                    unsafe { sweep_row(l, b, shared.0, j, (false, false, false), &mut parts) };
                 }
             }
         });
@@ -1209,7 +1216,8 @@ fn smooth_coarse(l: &Level, b: &[f64], x: &mut [f64], forward: bool) {
             let shared = &shared;
             // SAFETY: separator rows are BAND_ROWS + 1 rows apart, so this task writes row j
             // and reads rows j ± 1 (band rows), which no task writes in this phase.
-            unsafe { sweep_row(l, b, shared.0, j, forward, false, false) };
+            let mut parts = Buffer::take(2 * l.nx);
+            unsafe { sweep_row(l, b, shared.0, j, (forward, false, false), &mut parts) };
         });
     };
     if forward {
@@ -1221,13 +1229,17 @@ fn smooth_coarse(l: &Level, b: &[f64], x: &mut [f64], forward: bool) {
     }
 }
 
-/// Gauss–Seidel along inner row j of a coarse level: left to right from x = 0 (`forward`, the
-/// pre-smoothing), or right to left from the current x.
+/// Gauss–Seidel along inner row j of a coarse level; `flags` = (forward, south_zero,
+/// north_zero). Left to right from x = 0 (`forward`, the pre-smoothing), or right to left from
+/// the current x. `parts` is scratch of at least 2·nx values.
 ///
 /// From zero, every node not yet updated in the sweep counts as 0 whatever x holds there: the
 /// east neighbour, the north row (`north_zero`, a later row of the band or the separator after
 /// it) and the south row when `south_zero` (the separator before the band). So x need not be
 /// cleared before the sweep, and those reads are skipped.
+///
+/// A level with an interior stencil takes [`sweep_row_split`]; [`sweep_row_impl`], one loop
+/// with a test per node, serves the others and defines the numbers the split loops reproduce.
 ///
 /// Along the row, x_k = a_k − c_k·x_prev with a_k = (b_k − the other terms)/d_k and
 /// c_k = (the coefficient towards the node updated just before)/d_k: a_k does not wait for
@@ -1242,24 +1254,24 @@ unsafe fn sweep_row(
     b: &[f64],
     x: *mut f64,
     j: usize,
-    forward: bool,
-    south_zero: bool,
-    north_zero: bool,
+    flags: (bool, bool, bool),
+    parts: &mut [f64],
 ) {
     if let Some(reg) = l.regular_parts() {
+        let p = parts;
         unsafe {
-            match (forward, south_zero, north_zero) {
-                (true, true, true) => sweep_row_split::<true, true, true>(l, reg, b, x, j),
-                (true, false, true) => sweep_row_split::<true, false, true>(l, reg, b, x, j),
-                (true, true, false) => sweep_row_split::<true, true, false>(l, reg, b, x, j),
-                (true, false, false) => sweep_row_split::<true, false, false>(l, reg, b, x, j),
-                (false, _, _) => sweep_row_split::<false, false, false>(l, reg, b, x, j),
+            match flags {
+                (true, true, true) => sweep_row_split::<true, true, true>(l, reg, b, x, j, p),
+                (true, false, true) => sweep_row_split::<true, false, true>(l, reg, b, x, j, p),
+                (true, true, false) => sweep_row_split::<true, true, false>(l, reg, b, x, j, p),
+                (true, false, false) => sweep_row_split::<true, false, false>(l, reg, b, x, j, p),
+                (false, _, _) => sweep_row_split::<false, false, false>(l, reg, b, x, j, p),
             }
         }
         return;
     }
     unsafe {
-        match (forward, south_zero, north_zero) {
+        match flags {
             (true, true, true) => sweep_row_impl::<true, true, true>(l, b, x, j),
             (true, false, true) => sweep_row_impl::<true, false, true>(l, b, x, j),
             (true, true, false) => sweep_row_impl::<true, true, false>(l, b, x, j),
@@ -1276,14 +1288,15 @@ unsafe fn sweep_row(
 /// (the same expressions in the same order); outside the span x is 0.
 ///
 /// # Safety
-/// As [`sweep_row`].
+/// As [`sweep_row`]; `parts` holds at least 2·(hi − lo) values.
 #[inline(always)]
 unsafe fn sweep_row_split<const FWD: bool, const ZS: bool, const ZN: bool>(
     l: &Level,
-    (ey, ex, q, _, inv_r): (f64, f64, f64, f64, f64),
+    (ey, ex, q, _, inv_r): Interior,
     b: &[f64],
     x: *mut f64,
     j: usize,
+    parts: &mut [f64],
 ) {
     let nx = l.nx;
     let row = j * nx;
@@ -1291,8 +1304,8 @@ unsafe fn sweep_row_split<const FWD: bool, const ZS: bool, const ZN: bool>(
     let (lo, hi) = (lo as usize, hi as usize);
     let m = hi - lo;
     let c_r = ex * inv_r;
-    let mut parts = Buffer::take(2 * m);
-    let (a, c) = parts.split_at_mut(m);
+    let (a, rest) = parts.split_at_mut(m);
+    let c = &mut rest[..m];
     {
         // SAFETY: rows j − 1, j, j + 1 lie inside the level's vector and no other thread writes
         // them during the call (the caller's contract); nothing writes through x in this block.
@@ -1838,13 +1851,21 @@ mod tests {
                     }
                 })
                 .collect();
+            let mut parts = vec![0.0; 2 * l.nx];
             for j in 1..l.ny - 1 {
                 let (mut x1, mut x2) = (old.clone(), old.clone());
                 macro_rules! both {
                     ($f:expr, $s:expr, $n:expr) => {
                         unsafe {
                             sweep_row_impl::<$f, $s, $n>(l, &b, x1.as_mut_ptr(), j);
-                            sweep_row_split::<$f, $s, $n>(l, reg, &b, x2.as_mut_ptr(), j);
+                            sweep_row_split::<$f, $s, $n>(
+                                l,
+                                reg,
+                                &b,
+                                x2.as_mut_ptr(),
+                                j,
+                                &mut parts,
+                            );
                         }
                     };
                 }
