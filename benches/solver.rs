@@ -116,7 +116,10 @@ fn calls(shapes: &[String], sizes: &[usize], repeat: usize) {
             let c = classify(domain.as_ref(), grid).expect("classify");
             let t_class = ms(t);
             let t = Instant::now();
-            let a = GridOperator::new(&c);
+            let a = GridOperator::new(
+                &canalis::problem::Problem::laplace(&c),
+                &canalis::problem::Numbering::new(&c),
+            );
             let t_op = ms(t);
             let t = Instant::now();
             let mg = Multigrid::new(&a);

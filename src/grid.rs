@@ -8,7 +8,7 @@
 //! Invariant: knows nothing of the PDE or of matrices; it only describes where the walls are.
 
 use crate::error::{Error, Result};
-use crate::geometry::{Domain, Lattice, Point};
+use crate::geometry::{Crossing, Domain, Lattice, Point, WallId};
 
 /// Smallest cut fraction kept. A wall closer than θ_min·h to a node is moved to θ_min·h: the
 /// wall moves by at most 1e-3·h, a perturbation of the solution of order 1e-3·h·|∇u|, far below
@@ -173,12 +173,17 @@ impl Grid {
     }
 }
 
-/// A link from fluid node `node` in direction `dir` that meets a wall at θ·h.
+/// A link from fluid node `node` in direction `dir` that meets a wall at θ·h: wall `wall`
+/// ([`WallId`]), which the link meets at an angle whose cosine (to the wall normal) is `cos`.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Cut {
     pub node: usize,
     pub dir: Dir,
     pub theta: f64,
+    pub wall: WallId,
+    /// |cos| of the angle between the link and the wall normal, in (0, 1] (single precision:
+    /// only a Robin or Neumann wall reads it, as a factor of its normal derivative).
+    pub cos: f32,
 }
 
 /// A grid with its nodes classified and its cut links found.
@@ -239,6 +244,10 @@ fn on_wall_at(crossings: &[f64], i: usize, s: f64, h: f64) -> bool {
     near(i) || (i > 0 && near(i - 1))
 }
 
+/// A cut link's θ and the index of the crossing it ends at (None when the neighbour lies on a
+/// wall that the line only touches there).
+type LinkCut = Option<(f64, Option<usize>)>;
+
 /// θ of the links of a fluid node at s along a line: (+ direction, − direction), None for a
 /// regular link. `plus_fluid` / `minus_fluid` say whether the neighbours are fluid nodes.
 fn link_thetas(
@@ -247,7 +256,7 @@ fn link_thetas(
     h: f64,
     plus_fluid: bool,
     minus_fluid: bool,
-) -> (Option<f64>, Option<f64>) {
+) -> (LinkCut, LinkCut) {
     let i = crossings.partition_point(|&c| c <= s);
     link_thetas_at(crossings, i, s, h, plus_fluid, minus_fluid)
 }
@@ -261,23 +270,24 @@ fn link_thetas_at(
     h: f64,
     plus_fluid: bool,
     minus_fluid: bool,
-) -> (Option<f64>, Option<f64>) {
+) -> (LinkCut, LinkCut) {
     // Distances to the nearest walls ahead and behind; θ = distance/h. Most nodes are well
     // away from any wall, so the division is only made when the distance may be below h (the
     // margin keeps the test exactly the θ < 1 of the quotient).
-    let ahead = crossings.get(i).map(|&c| c - s);
+    let ahead = crossings.get(i).map(|&c| (c - s, i));
     let behind = if i > 0 {
-        Some(s - crossings[i - 1])
+        Some((s - crossings[i - 1], i - 1))
     } else {
         None
     };
     let within = |d: f64| d < h * (1.0 + 1e-9) && d / h < 1.0;
-    let theta = |d: Option<f64>, neighbour_fluid: bool| match d {
-        Some(d) if within(d) => Some((d / h).max(THETA_MIN)),
+    let theta = |d: Option<(f64, usize)>, neighbour_fluid: bool| match d {
+        Some((d, at)) if within(d) => Some(((d / h).max(THETA_MIN), Some(at))),
         // No wall within the link: regular if the neighbour is fluid; otherwise the neighbour
-        // lies on the wall itself (it was made solid as an on-wall node), θ = 1.
+        // lies on the wall itself (it was made solid as an on-wall node), θ = 1, on the wall of
+        // the nearest crossing beyond it, if any.
         _ if neighbour_fluid => None,
-        _ => Some(1.0),
+        d => Some((1.0, d.map(|(_, at)| at))),
     };
     (theta(ahead, plus_fluid), theta(behind, minus_fluid))
 }
@@ -305,14 +315,19 @@ pub fn classify(domain: &dyn Domain, grid: Grid) -> Result<Classified> {
     let h = grid.h;
     // Rows and columns are independent: in parallel, collected in order (the same result with
     // any number of threads).
-    let rows: Vec<Vec<f64>> = (0..grid.ny)
+    // Per line: the crossing parameters (what the classification reads) and, beside them, the
+    // wall and angle of each (what the cuts record).
+    let split = |hits: Vec<Crossing>| -> (Vec<f64>, Vec<(WallId, f32)>) {
+        hits.iter().map(|c| (c.s, (c.wall, c.cos as f32))).unzip()
+    };
+    let (rows, row_walls): (Vec<Vec<f64>>, Vec<Vec<(WallId, f32)>>) = (0..grid.ny)
         .into_par_iter()
-        .map(|j| domain.wall_crossings(grid.node(0, j), [1.0, 0.0]))
-        .collect();
-    let cols: Vec<Vec<f64>> = (0..grid.nx)
+        .map(|j| split(domain.wall_hits(grid.node(0, j), [1.0, 0.0])))
+        .unzip();
+    let (cols, col_walls): (Vec<Vec<f64>>, Vec<Vec<(WallId, f32)>>) = (0..grid.nx)
         .into_par_iter()
-        .map(|i| domain.wall_crossings(grid.node(i, 0), [0.0, 1.0]))
-        .collect();
+        .map(|i| split(domain.wall_hits(grid.node(i, 0), [0.0, 1.0])))
+        .unzip();
     let mut fluid = vec![false; n];
     fluid
         .par_chunks_mut(grid.nx)
@@ -367,17 +382,20 @@ pub fn classify(domain: &dyn Domain, grid: Grid) -> Result<Classified> {
                         j + 1 < ny && fluid_at(i, j + 1),
                         j > 0 && fluid_at(i, j - 1),
                     );
-                    for (d, t) in [
-                        (Dir::East, e),
-                        (Dir::West, w),
-                        (Dir::North, no),
-                        (Dir::South, so),
+                    for (d, t, walls) in [
+                        (Dir::East, e, &row_walls[j]),
+                        (Dir::West, w, &row_walls[j]),
+                        (Dir::North, no, &col_walls[i]),
+                        (Dir::South, so, &col_walls[i]),
                     ] {
-                        if let Some(theta) = t {
+                        if let Some((theta, at)) = t {
+                            let (wall, cos) = at.map_or((0, 1.0), |at| walls[at]);
                             cuts.push(Cut {
                                 node: k,
                                 dir: d,
                                 theta,
+                                wall,
+                                cos,
                             });
                         }
                     }
@@ -448,11 +466,12 @@ fn make_links_symmetric(c: &mut Classified) {
                     if !has_cuts(m) || !cc.fluid[m] || cc.theta(k, d).is_some() {
                         continue;
                     }
-                    if cc.theta(m, back).is_some() {
+                    if let Some(other) = cc.cuts_of(m).iter().find(|c| c.dir == back) {
                         row.push(Cut {
                             node: k,
                             dir: d,
                             theta: 1.0,
+                            ..*other
                         });
                     }
                 }

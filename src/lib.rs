@@ -19,6 +19,7 @@ pub mod operator;
 pub mod output;
 pub mod pipeline;
 pub mod post;
+pub mod problem;
 pub mod report;
 pub mod solver;
 pub mod study;

@@ -1711,6 +1711,7 @@ mod tests {
     use crate::geometry::{Primitive, Shape};
     use crate::grid::Classified;
     use crate::grid::{classify, Grid};
+    use crate::problem::{Numbering, Problem};
     use crate::solver::{pcg, CgParams};
 
     /// The unit disc with a straight slit (`center`, `size`, `angle`) cut out, classified on a
@@ -1735,7 +1736,7 @@ mod tests {
     #[test]
     fn galerkin_levels_are_symmetric() {
         let c = slit_disc([0.5, 0.0], [1.2, 0.05], 0.3, 64);
-        let a = GridOperator::new(&c);
+        let a = GridOperator::new(&Problem::laplace(&c), &Numbering::new(&c));
         let mg = Multigrid::new(&a);
         for l in &mg.levels {
             for k in 0..l.len() {
@@ -1770,13 +1771,13 @@ mod tests {
     /// (operator::assemble, the reference), and the V-cycle must stay symmetric.
     #[test]
     fn thin_walls_match_the_assembled_matrix_and_the_cycle_is_symmetric() {
-        use crate::operator::{assemble, Numbering};
+        use crate::operator::assemble;
         let c = slit_disc([0.3, 0.01], [1.2, 0.009], 0.2, 80);
-        let a = GridOperator::new(&c);
+        let a = GridOperator::new(&Problem::laplace(&c), &Numbering::new(&c));
         let thin: usize = (0..a.ny).map(|j| a.thin_in_row(j).len()).sum();
         assert!(thin > 10, "the slit should make thin nodes, got {thin}");
         let num = Numbering::new(&c);
-        let csr = assemble(&c, &num);
+        let csr = assemble(&Problem::laplace(&c), &num);
         // A rough vector, zero at solid nodes.
         let field = |k: usize, seed: f64| ((k as f64 * 0.618 + seed).sin() * 1e3).fract();
         let mut x = vec![0.0; a.diag.len()];
@@ -1826,7 +1827,7 @@ mod tests {
     #[test]
     fn split_coarse_sweep_matches_the_general_one_bit_for_bit() {
         let c = slit_disc([0.3, 0.01], [1.2, 0.009], 0.2, 160);
-        let a = GridOperator::new(&c);
+        let a = GridOperator::new(&Problem::laplace(&c), &Numbering::new(&c));
         let mg = Multigrid::new(&a);
         let field = |k: usize, seed: f64| ((k as f64 * 0.618 + seed).sin() * 1e3).fract();
         let mut levels = 0;

@@ -1,115 +1,50 @@
-//! The discrete operator: numbering of unknowns and the cut-cell Laplacian.
+//! The discrete operators of a [`Problem`]: the CSR matrix (the reference path) and the
+//! matrix-free grid operator (the multigrid path).
 //!
-//! Owns: the map between fluid nodes and unknowns, and the assembly of the symmetric positive
-//! definite matrix of −∇² with homogeneous Dirichlet walls, scaled by h².
-//!
-//! Scheme (Gibou, Fedkiw, Cheng & Kang, J. Comput. Phys. 176 (2002) 205–227): the 5-point
-//! Laplacian at fluid node i; where the neighbour j across a link lies beyond a wall at θ·h
-//! (0 < θ ≤ 1), a ghost value is extrapolated linearly through u = 0 at the wall,
-//! u_ghost = −u_i·(1 − θ)/θ, so that link contributes u_i/(θ·h²) to the row and nothing to the
-//! off-diagonal. Row i of h²·(−∇²_h) is therefore
-//!
-//! ```text
-//!   Σ_regular (u_i − u_j)  +  Σ_cut u_i/θ  =  h²·f_i
-//! ```
-//!
-//! Off-diagonals stay −1 and only the diagonal changes, so the matrix is symmetric positive
-//! definite; the solution is second order in the maximum norm. A mask with the wall on the
-//! pixel faces is the same formula with θ = ½.
+//! Owns: the storage of the operator whose rows [`Problem::stencil`] defines (the cut-cell
+//! scheme and its references are documented there), in two forms: sprs CSR over the unknowns,
+//! and [`GridOperator`] over the whole grid. Every entry of either comes from
+//! [`Problem::stencil`]; nothing here writes the scheme itself.
 //!
 //! Invariant: knows nothing of files, of the iteration or of physical units beyond h.
 
 use crate::grid::{Classified, Dir};
+use crate::problem::{Field, Problem};
+pub use crate::problem::{Numbering, NO_UNKNOWN};
 use sprs::CsMat;
 
-/// Marker for a node that carries no unknown.
-pub const NO_UNKNOWN: u32 = u32::MAX;
-
-/// Unknowns of the discrete problem: one per fluid node, numbered row by row.
-#[derive(Debug, Clone)]
-pub struct Numbering {
-    /// Unknown of each grid node, or [`NO_UNKNOWN`].
-    pub unknown_of: Vec<u32>,
-    /// Grid node of each unknown (as u32: grids are capped below 2³² nodes, and the numbering
-    /// is then 4 bytes an unknown lighter; [`Numbering::nodes`] gives them as indices).
-    pub node_of: Vec<u32>,
-}
-
-impl Numbering {
-    pub fn new(c: &Classified) -> Numbering {
-        let mut unknown_of = vec![NO_UNKNOWN; c.grid.len()];
-        let mut node_of = Vec::with_capacity(c.fluid_count());
-        for (k, &f) in c.fluid.iter().enumerate() {
-            if f {
-                unknown_of[k] = node_of.len() as u32;
-                node_of.push(k as u32);
-            }
-        }
-        Numbering {
-            unknown_of,
-            node_of,
-        }
-    }
-
-    pub fn len(&self) -> usize {
-        self.node_of.len()
-    }
-
-    pub fn is_empty(&self) -> bool {
-        self.node_of.is_empty()
-    }
-
-    /// The grid node of each unknown, in unknown order.
-    pub fn nodes(&self) -> impl ExactSizeIterator<Item = usize> + '_ {
-        self.node_of.iter().map(|&k| k as usize)
-    }
-
-    /// The grid node of unknown q.
-    pub fn node(&self, q: usize) -> usize {
-        self.node_of[q] as usize
-    }
-}
-
-/// Assembles h²·(−∇²_h) in CSR form (rows sorted, diagonal included), row by row: unknowns
-/// are numbered row-major, so the columns of a row come out sorted as South, West, self, East,
-/// North and no triplet sort is needed.
-pub fn assemble(c: &Classified, num: &Numbering) -> CsMat<f64> {
+/// Assembles the problem's matrix (rows of [`Problem::stencil`], scaled by h²) in CSR form,
+/// rows sorted, diagonal included: unknowns are numbered row-major, so the columns of a row
+/// come out sorted as South, West, self, East, North and no triplet sort is needed.
+pub fn assemble(problem: &Problem, num: &Numbering) -> CsMat<f64> {
+    let c = problem.classified;
     let n = num.len();
     let mut indptr = Vec::with_capacity(n + 1);
     let mut indices = Vec::with_capacity(5 * n);
     let mut data = Vec::with_capacity(5 * n);
     indptr.push(0);
     for (row, k) in num.nodes().enumerate() {
-        let mut diag = 0.0;
-        let mut off = [None; 4];
-        for (slot, d) in [Dir::South, Dir::West, Dir::East, Dir::North]
-            .into_iter()
-            .enumerate()
-        {
-            match c.theta(k, d) {
-                Some(theta) => diag += 1.0 / theta,
-                None => {
-                    diag += 1.0;
-                    // A regular link always ends at a fluid node (see grid::classify).
-                    let m = c
-                        .grid
-                        .neighbour(k, d)
-                        .expect("regular link inside the grid");
-                    let col = num.unknown_of[m];
-                    debug_assert_ne!(col, NO_UNKNOWN);
-                    off[slot] = Some(col as usize);
-                }
-            }
-        }
-        for col in off[..2].iter().flatten() {
-            indices.push(*col);
-            data.push(-1.0);
+        let st = problem.stencil(k, row);
+        // Dir::ALL order is east, west, north, south; columns go south, west, (self), east,
+        // north.
+        let column = |d: Dir| {
+            let a = st.off[d as usize];
+            (a != 0.0).then(|| {
+                // A regular link always ends at a fluid node (see grid::classify).
+                let col = num.unknown_of[c.grid.inner_neighbour(k, d)];
+                debug_assert_ne!(col, NO_UNKNOWN);
+                (col as usize, -a)
+            })
+        };
+        for (col, v) in [column(Dir::South), column(Dir::West)].into_iter().flatten() {
+            indices.push(col);
+            data.push(v);
         }
         indices.push(row);
-        data.push(diag);
-        for col in off[2..].iter().flatten() {
-            indices.push(*col);
-            data.push(-1.0);
+        data.push(st.diag);
+        for (col, v) in [column(Dir::East), column(Dir::North)].into_iter().flatten() {
+            indices.push(col);
+            data.push(v);
         }
         indptr.push(indices.len());
     }
@@ -117,15 +52,21 @@ pub fn assemble(c: &Classified, num: &Numbering) -> CsMat<f64> {
 }
 
 /// The same operator on the whole grid, matrix-free: the diagonal of every node (0 at solid
-/// nodes) and, per node, a bit per direction for a regular link (off-diagonal −1). Vectors on
-/// it have one entry per grid node, zero at solid nodes. Nine bytes a node instead of the
-/// CSR's sixty; the path the multigrid solver takes.
+/// nodes) and, per node, a bit per direction for a nonzero off-diagonal. Vectors on it have
+/// one entry per grid node, zero at solid nodes. Nine bytes a node instead of the CSR's sixty;
+/// the path the multigrid solver takes.
 ///
-/// The fast kernels do not read the link bits: a vector is zero at every solid node, so the
-/// plain sum of the four neighbours equals the sum over the regular links, except at a node
-/// whose cut link ends on a fluid node (a wall thinner than a cell, with fluid on both sides).
-/// Those few nodes are listed per row ([`GridOperator::thin_in_row`]) and recomputed from the
-/// link bits after each row.
+/// The fast kernels do not read the link bits: they take every off-diagonal as −1 and sum all
+/// four neighbours. A vector is zero at every solid node, so that is the exact row of every
+/// node whose off-diagonals are −1 on its regular links, except
+/// - a node whose cut link ends on a fluid node (a wall thinner than a cell, with fluid on
+///   both sides), and
+/// - a node whose off-diagonals are not all 1 (a coefficient k ≠ 1, or the face widths next to
+///   a Robin or Neumann wall; see [`Problem::stencil`]).
+///
+/// Those irregular nodes are listed per row with their four off-diagonals
+/// ([`GridOperator::irregular_in_row`]) and recomputed after each row; for the plain
+/// Laplacian they are the few thin-wall nodes.
 ///
 /// Each row also records its fluid span ([`GridOperator::row_span`]), the columns from its
 /// first to its last fluid node: outside it every vector on the grid is zero and every kernel's
@@ -136,30 +77,47 @@ pub struct GridOperator {
     pub nx: usize,
     pub ny: usize,
     pub diag: Vec<f64>,
-    /// Bit `Dir as u8` set: regular link in that direction.
+    /// Bit `Dir as u8` set: nonzero off-diagonal in that direction.
     pub links: Vec<u8>,
-    /// Fluid nodes with a cut link to a fluid node, in index order.
-    thin: Vec<u32>,
-    /// `thin[thin_rows[j]..thin_rows[j + 1]]` lie in grid row j.
-    thin_rows: Vec<u32>,
+    /// Irregular nodes (see above), in index order, and their off-diagonals (as positive
+    /// numbers, [`Dir::ALL`] order: the row is d·x_k − Σ a_d·x_(neighbour d)).
+    irregular: Vec<u32>,
+    irregular_off: Vec<[f64; 4]>,
+    /// `irregular[irregular_rows[j]..irregular_rows[j + 1]]` lie in grid row j.
+    irregular_rows: Vec<u32>,
     /// Per row, the columns `lo..hi` from the first to one past the last fluid node (`1..1`
     /// when the row has none).
     spans: Vec<(u32, u32)>,
+    /// The diagonal each node would have with no cut links ([`Problem::regular_diag`]): None
+    /// when it is 4 everywhere (the plain Laplacian).
+    regular_diag: Option<Vec<f64>>,
+    /// The diagonal of a node with four regular unit links, when every such node has the same
+    /// one (4 for the plain Laplacian); None when it varies (a shift that varies per node).
+    interior_diag: Option<f64>,
 }
 
 impl GridOperator {
-    pub fn new(c: &Classified) -> GridOperator {
+    pub fn new(problem: &Problem, num: &Numbering) -> GridOperator {
         use rayon::prelude::*;
+        let c = problem.classified;
         let n = c.grid.len();
         let nx = c.grid.nx;
         let mut diag = vec![0.0; n];
         let mut links = vec![0u8; n];
-        let per_row: Vec<(Vec<u32>, (u32, u32))> = diag
+        let plain = problem.is_plain_laplacian();
+        let mut regular_diag = if plain { None } else { Some(vec![0.0; n]) };
+        type RowOut = (Vec<u32>, Vec<[f64; 4]>, (u32, u32));
+        let per_row: Vec<RowOut> = diag
             .par_chunks_mut(nx)
             .zip(links.par_chunks_mut(nx))
+            .zip(match &mut regular_diag {
+                Some(r) => r.par_chunks_mut(nx).map(Some).collect::<Vec<_>>(),
+                None => (0..c.grid.ny).map(|_| None).collect(),
+            })
             .enumerate()
-            .map(|(j, (drow, lrow))| {
-                let mut thin = Vec::new();
+            .map(|(j, ((drow, lrow), mut rrow))| {
+                let mut irregular = Vec::new();
+                let mut irregular_off = Vec::new();
                 let mut span: Option<(usize, usize)> = None;
                 for i in 0..drow.len() {
                     let k = j * nx + i;
@@ -167,49 +125,65 @@ impl GridOperator {
                         continue;
                     }
                     span = Some(span.map_or((i, i + 1), |(lo, _)| (lo, i + 1)));
-                    let mut d = 0.0;
+                    let q = num.unknown_of[k] as usize;
+                    let st = problem.stencil(k, q);
                     let mut mask = 0u8;
-                    let mut is_thin = false;
-                    for dir in Dir::ALL {
-                        match c.theta(k, dir) {
-                            Some(theta) => {
-                                d += 1.0 / theta;
-                                is_thin |= c.fluid[c.grid.inner_neighbour(k, dir)];
-                            }
-                            None => {
-                                d += 1.0;
-                                mask |= 1 << dir as u8;
-                            }
+                    // Irregular: an off-diagonal other than 0 or 1, or a zero one towards a
+                    // fluid node (the fast kernels would add that neighbour).
+                    let mut odd = false;
+                    for d in Dir::ALL {
+                        let a = st.off[d as usize];
+                        if a != 0.0 {
+                            mask |= 1 << d as u8;
                         }
+                        let fluid_beyond = c.fluid[c.grid.inner_neighbour(k, d)];
+                        odd |= (a != 0.0 && a != 1.0) || (a == 0.0 && fluid_beyond);
                     }
-                    drow[i] = d;
+                    drow[i] = st.diag;
                     lrow[i] = mask;
-                    if is_thin {
-                        thin.push(k as u32);
+                    if let Some(r) = rrow.as_deref_mut() {
+                        r[i] = problem.regular_diag(k, q);
+                    }
+                    if odd {
+                        irregular.push(k as u32);
+                        irregular_off.push(st.off);
                     }
                 }
                 // Fluid never lies on the solid ring, so 1 ≤ lo ≤ hi ≤ nx − 1.
                 let (lo, hi) = span.unwrap_or((1, 1));
-                (thin, (lo as u32, hi as u32))
+                (irregular, irregular_off, (lo as u32, hi as u32))
             })
             .collect();
-        let mut thin_rows = Vec::with_capacity(per_row.len() + 1);
-        thin_rows.push(0);
-        let mut thin = Vec::new();
+        let mut irregular_rows = Vec::with_capacity(per_row.len() + 1);
+        irregular_rows.push(0);
+        let mut irregular = Vec::new();
+        let mut irregular_off = Vec::new();
         let mut spans = Vec::with_capacity(per_row.len());
-        for (row, span) in per_row {
-            thin.extend(row);
-            thin_rows.push(thin.len() as u32);
+        for (nodes, off, span) in per_row {
+            irregular.extend(nodes);
+            irregular_off.extend(off);
+            irregular_rows.push(irregular.len() as u32);
             spans.push(span);
         }
+        let interior_diag = if problem.coefficients == crate::problem::Coefficients::Unit {
+            problem
+                .shift
+                .uniform()
+                .map(|s| if s == 0.0 { 4.0 } else { 4.0 + s * c.grid.h * c.grid.h })
+        } else {
+            None
+        };
         GridOperator {
             nx,
             ny: c.grid.ny,
             diag,
             links,
-            thin,
-            thin_rows,
+            irregular,
+            irregular_off,
+            irregular_rows,
             spans,
+            regular_diag,
+            interior_diag,
         }
     }
 
@@ -221,16 +195,64 @@ impl GridOperator {
         (lo as usize, hi as usize)
     }
 
-    /// The nodes of grid row j whose cut links end on fluid (see [`GridOperator`]).
+    /// The irregular nodes of grid row j (see [`GridOperator`]) with their off-diagonals.
+    #[inline]
+    pub fn irregular_in_row(&self, j: usize) -> impl Iterator<Item = (usize, &[f64; 4])> + '_ {
+        let r = self.irregular_rows[j] as usize..self.irregular_rows[j + 1] as usize;
+        self.irregular[r.clone()]
+            .iter()
+            .map(|&k| k as usize)
+            .zip(&self.irregular_off[r])
+    }
+
+    /// The irregular nodes of grid row j (transitional: the multigrid kernels still recompute
+    /// them from the link bits, which is exact for the plain Laplacian only).
     #[inline]
     pub fn thin_in_row(&self, j: usize) -> &[u32] {
-        &self.thin[self.thin_rows[j] as usize..self.thin_rows[j + 1] as usize]
+        &self.irregular[self.irregular_rows[j] as usize..self.irregular_rows[j + 1] as usize]
+    }
+
+    /// The off-diagonals of node k ([`Dir::ALL`] order, as positive numbers).
+    pub fn off_diagonals(&self, k: usize) -> [f64; 4] {
+        match self.irregular.binary_search(&(k as u32)) {
+            Ok(at) => self.irregular_off[at],
+            Err(_) => {
+                let l = self.links[k];
+                [0, 1, 2, 3].map(|d| ((l >> d) & 1) as f64)
+            }
+        }
+    }
+
+    /// Whether node k's row is an interior row: four regular links with off-diagonals 1 and
+    /// the interior diagonal ([`GridOperator::interior_diag`]).
+    pub fn is_interior(&self, k: usize) -> bool {
+        self.links[k] == 15
+            && Some(self.diag[k]) == self.interior_diag
+            && self.irregular.binary_search(&(k as u32)).is_err()
+    }
+
+    /// The diagonal node k would have with no cut links (4 for the plain Laplacian).
+    #[inline]
+    pub fn regular_diag(&self, k: usize) -> f64 {
+        self.regular_diag.as_ref().map_or(4.0, |r| r[k])
+    }
+
+    /// The diagonal shared by every interior row, if it is shared (see [`GridOperator`]).
+    pub fn interior_diag(&self) -> Option<f64> {
+        self.interior_diag
     }
 }
 
-/// Right-hand side h²·f for the unit problem f = 1.
+/// Σ_d a_d·v_d over the four neighbour values (east, west, north, south) of an irregular node:
+/// the off-diagonal part of its row ([`GridOperator::irregular_in_row`]).
+#[inline(always)]
+pub fn off_sum(a: &[f64; 4], e: f64, w: f64, n: f64, s: f64) -> f64 {
+    a[0] * e + a[1] * w + a[2] * n + a[3] * s
+}
+
+/// Right-hand side h²·f for the unit flow problem f = 1, u = 0 on the walls.
 pub fn unit_rhs(c: &Classified, num: &Numbering) -> Vec<f64> {
-    vec![c.grid.h * c.grid.h; num.len()]
+    Problem::laplace(c).rhs(num, &Field::Uniform(1.0))
 }
 
 #[cfg(test)]
@@ -254,7 +276,7 @@ mod tests {
         let (lo, hi) = s.bbox();
         let c = classify(&s, Grid::covering(lo, hi, 24)).unwrap();
         let num = Numbering::new(&c);
-        let a = assemble(&c, &num);
+        let a = assemble(&Problem::laplace(&c), &num);
         let at = a.transpose_view().to_csr();
         for (v, (i, j)) in a.iter() {
             let w = at.get(i, j).copied().unwrap_or(f64::NAN);
@@ -278,7 +300,7 @@ mod tests {
         let s = Shape::new(vec![disc(-1.5), disc(1.5)], vec![]);
         let (lo, hi) = s.bbox();
         let c = classify(&s, Grid::covering(lo, hi, 40)).unwrap();
-        let op = GridOperator::new(&c);
+        let op = GridOperator::new(&Problem::laplace(&c), &Numbering::new(&c));
         let nx = c.grid.nx;
         let mut empty_inner_rows = 0;
         for j in 0..c.grid.ny {

@@ -15,6 +15,7 @@ use crate::grid::{classify, Classified, Grid};
 use crate::multigrid::Multigrid;
 use crate::operator::{assemble, unit_rhs, GridOperator, Numbering};
 use crate::post::{self, Figures, ShearSample};
+use crate::problem::Problem;
 use crate::solver::{
     pcg_in, smallest_eigenpair, CgInfo, CgParams, CgWorkspace, EigenInfo, EigenParams, Identity,
     InnerCg, Jacobi, LinearOperator, Monitor, Preconditioner, Silent, SolveFn,
@@ -171,7 +172,7 @@ fn solve_unit_on_worker(
     let t2;
     match method {
         Method::Plain | Method::Jacobi => {
-            csr = assemble(&classified, &numbering);
+            csr = assemble(&Problem::laplace(&classified), &numbering);
             t2 = Instant::now();
             op = &csr;
             pre = if method == Method::Plain {
@@ -181,7 +182,7 @@ fn solve_unit_on_worker(
             };
         }
         Method::Multigrid => {
-            grid_op = GridOperator::new(&classified);
+            grid_op = GridOperator::new(&Problem::laplace(&classified), &numbering);
             t2 = Instant::now();
             op = &grid_op;
             pre = Box::new(Multigrid::new(&grid_op));
@@ -256,7 +257,7 @@ fn solve_unit_on_worker(
     // smooth local fit behind the correction does not hold.
     if correct {
         // b + correction, formed in b's own vector (one vector fewer to fault in).
-        post::add_wall_correction(&classified, &numbering, &u, &mut b);
+        post::add_wall_correction(&Problem::laplace(&classified), &numbering, &u, &mut b);
         let more = solve(&b, &mut u, params)?;
         passes.push(more);
         info = CgInfo {

@@ -10,6 +10,7 @@
 use crate::geometry::{Point, Walls};
 use crate::grid::{Classified, Dir};
 use crate::operator::{Numbering, NO_UNKNOWN};
+use crate::problem::Problem;
 use nalgebra::{DMatrix, DVector};
 
 /// Dimensionless results of the unit problem.
@@ -567,9 +568,9 @@ fn least_squares(a: DMatrix<f64>, b: &DVector<f64>) -> Option<DVector<f64>> {
 ///
 /// Adds the correction to `rhs` (unknown order) in place: each unknown's terms are summed in
 /// cut order and the sum then added to its entry, so no second right-hand side is allocated.
-pub fn add_wall_correction(c: &Classified, num: &Numbering, u: &[f64], rhs: &mut [f64]) {
+pub fn add_wall_correction(problem: &Problem, num: &Numbering, u: &[f64], rhs: &mut [f64]) {
     use rayon::prelude::*;
-    let h2 = c.grid.h * c.grid.h;
+    let c = problem.classified;
     // The fits in parallel (one workspace per task), then the sums in cut order, so the result
     // does not depend on the number of threads.
     let terms: Vec<Option<(usize, f64)>> = c
@@ -584,7 +585,7 @@ pub fn add_wall_correction(c: &Classified, num: &Numbering, u: &[f64], rhs: &mut
                 let [hxx, hxy, hyy] = der.hessian;
                 let b = d[0] * d[0] * hxx + 2.0 * d[0] * d[1] * hxy + d[1] * d[1] * hyy;
                 let q = num.unknown_of[cut.node] as usize;
-                Some((q, 0.5 * b * (1.0 - cut.theta) * h2))
+                Some((q, problem.ghost_curvature_term(cut, b)?))
             },
         )
         .collect();

@@ -156,8 +156,10 @@ impl Segment {
     }
 
     /// Parameters `s` at which the straight line `origin + s·dir` meets this segment, appended
-    /// to `out`. End points count (duplicates are removed by the caller).
-    fn line_hits(&self, origin: Point, dir: Point, out: &mut Vec<f64>) {
+    /// to `out` with |cos| of the angle between the line and the segment's normal there (1 where
+    /// the line crosses at right angles, 0 where it touches). End points count (duplicates are
+    /// removed by the caller).
+    fn line_hits(&self, origin: Point, dir: Point, out: &mut Vec<(f64, f64)>) {
         match *self {
             Segment::Line { a, b } => {
                 let e = sub(b, a);
@@ -168,15 +170,15 @@ impl Segment {
                     // decides by the inside test which of them is a wall.
                     if cross(w, dir).abs() <= 1e-12 * norm(e).max(norm(w)) {
                         let d2 = dot(dir, dir);
-                        out.push(dot(w, dir) / d2);
-                        out.push(dot(sub(b, origin), dir) / d2);
+                        out.push((dot(w, dir) / d2, 0.0));
+                        out.push((dot(sub(b, origin), dir) / d2, 0.0));
                     }
                     return;
                 }
                 let s = cross(w, e) / denom;
                 let u = cross(w, dir) / denom;
                 if (-1e-12..=1.0 + 1e-12).contains(&u) {
-                    out.push(s);
+                    out.push((s, (denom / (norm(dir) * norm(e))).abs()));
                 }
             }
             Segment::Arc {
@@ -186,16 +188,17 @@ impl Segment {
                 sweep,
             } => {
                 for s in circle_hits(center, radius, origin, dir) {
+                    let p = add(origin, scale(dir, s));
+                    let cos = (dot(sub(p, center), dir) / (radius * norm(dir))).abs().min(1.0);
                     if sweep >= 2.0 * PI - 1e-12 {
-                        out.push(s);
+                        out.push((s, cos));
                         continue;
                     }
-                    let p = add(origin, scale(dir, s));
                     let phi = (p[1] - center[1]).atan2(p[0] - center[0]);
                     let rel = (phi - start).rem_euclid(2.0 * PI);
                     let tol = 1e-10;
                     if rel <= sweep + tol || rel >= 2.0 * PI - tol {
-                        out.push(s);
+                        out.push((s, cos));
                     }
                 }
             }
@@ -211,7 +214,13 @@ impl Segment {
                 let (a, b) = (semi_axes[0], semi_axes[1]);
                 let p0 = [q0[0] / a, q0[1] / b];
                 let pd = [qd[0] / a, qd[1] / b];
-                out.extend(circle_hits([0.0, 0.0], 1.0, p0, pd));
+                for s in circle_hits([0.0, 0.0], 1.0, p0, pd) {
+                    // Normal in the ellipse's frame: the gradient of (qx/a)² + (qy/b)².
+                    let q = add(q0, scale(qd, s));
+                    let n = [q[0] / (a * a), q[1] / (b * b)];
+                    let cos = (dot(n, qd) / (norm(n) * norm(qd))).abs().min(1.0);
+                    out.push((s, if cos.is_finite() { cos } else { 1.0 }));
+                }
             }
         }
     }
@@ -739,6 +748,16 @@ pub trait Domain: Sync {
     /// Sorted parameters s at which `origin + s·dir` crosses a wall (where the fluid indicator
     /// changes). Only axis-aligned `dir` of unit length is asked for.
     fn wall_crossings(&self, origin: Point, dir: Point) -> Vec<f64>;
+    /// [`Domain::wall_crossings`] with the wall each crossing belongs to and the angle at which
+    /// the line meets it ([`Crossing`]); the parameters are the same numbers. By default every
+    /// crossing is on wall 0 at right angles, which is exact for a pixel staircase (its walls
+    /// run along the grid lines).
+    fn wall_hits(&self, origin: Point, dir: Point) -> Vec<Crossing> {
+        self.wall_crossings(origin, dir)
+            .into_iter()
+            .map(|s| Crossing { s, wall: 0, cos: 1.0 })
+            .collect()
+    }
     /// The wetted walls sampled at spacing at most `spacing`, with perimeter and fluid area.
     fn walls(&self, spacing: f64) -> Walls;
     /// A lattice the grid must use, if the domain comes with one (a mask's pixel centres):
@@ -746,6 +765,22 @@ pub trait Domain: Sync {
     fn lattice(&self) -> Option<Lattice> {
         None
     }
+}
+
+/// Which wall of a cross-section a crossing belongs to: the index of a shape's primitive
+/// (regions first, then holes, in file order); 0 for every wall of a mask. Boundary conditions
+/// are given per wall id (`problem::WallConditions`).
+pub type WallId = u32;
+
+/// Where a straight line crosses a wall: at parameter `s` along it, on wall `wall`, with
+/// `cos` = |cos| of the angle between the line and the wall's normal there (1: at right
+/// angles; a Robin or Neumann wall needs it to turn a normal derivative into one along the
+/// line).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Crossing {
+    pub s: f64,
+    pub wall: WallId,
+    pub cos: f64,
 }
 
 /// A fixed lattice of nodes: node (i, j) sits at `origin + (i·pitch, j·pitch)`.
@@ -818,7 +853,8 @@ impl Shape {
         norm(sub(hi, lo))
     }
 
-    fn primitives(&self) -> impl Iterator<Item = &Primitive> {
+    /// Regions, then holes: the order of the wall ids ([`WallId`]).
+    pub fn primitives(&self) -> impl Iterator<Item = &Primitive> {
         self.regions.iter().chain(self.holes.iter())
     }
 
@@ -828,22 +864,38 @@ impl Shape {
     /// differs just before and just after it (tested at the midpoints between successive
     /// candidates), which is exactly how a union minus holes is decided.
     pub fn wall_crossings(&self, origin: Point, dir: Point) -> Vec<f64> {
-        let mut cand = Vec::new();
-        for prim in self.primitives() {
+        self.wall_hits(origin, dir).iter().map(|c| c.s).collect()
+    }
+
+    /// [`Shape::wall_crossings`] with the wall each crossing belongs to (the index of its
+    /// primitive in [`Shape::primitives`] order: regions, then holes) and the angle there.
+    /// Where two primitives' boundaries cross the line at the same point (a junction), the
+    /// first of them in that order names the wall.
+    pub fn wall_hits(&self, origin: Point, dir: Point) -> Vec<Crossing> {
+        let mut cand: Vec<Crossing> = Vec::new();
+        let mut hits = Vec::new();
+        for (wall, prim) in self.primitives().enumerate() {
             for seg in prim.segments() {
-                seg.line_hits(origin, dir, &mut cand);
+                hits.clear();
+                seg.line_hits(origin, dir, &mut hits);
+                cand.extend(hits.iter().map(|&(s, cos)| Crossing {
+                    s,
+                    wall: wall as u32,
+                    cos,
+                }));
             }
         }
-        cand.retain(|s| s.is_finite());
-        cand.sort_by(|a, b| a.total_cmp(b));
+        cand.retain(|c| c.s.is_finite());
+        // Stable: equal parameters keep the primitives' order.
+        cand.sort_by(|a, b| a.s.total_cmp(&b.s));
         let tol = 1e-12 * self.scale() / norm(dir);
-        cand.dedup_by(|a, b| (*a - *b).abs() <= tol);
+        cand.dedup_by(|a, b| (a.s - b.s).abs() <= tol);
         let at = |s: f64| self.contains(add(origin, scale(dir, s)));
         let mut walls = Vec::with_capacity(cand.len());
         let mut state = false;
         for k in 0..cand.len() {
             let next = if k + 1 < cand.len() {
-                at(0.5 * (cand[k] + cand[k + 1]))
+                at(0.5 * (cand[k].s + cand[k + 1].s))
             } else {
                 false
             };
@@ -992,6 +1044,9 @@ impl Domain for Shape {
     }
     fn wall_crossings(&self, origin: Point, dir: Point) -> Vec<f64> {
         Shape::wall_crossings(self, origin, dir)
+    }
+    fn wall_hits(&self, origin: Point, dir: Point) -> Vec<Crossing> {
+        Shape::wall_hits(self, origin, dir)
     }
     fn walls(&self, spacing: f64) -> Walls {
         Shape::walls(self, spacing)

@@ -88,7 +88,7 @@
 //! length of the polylines and Σ area their enclosed area, as for [`super::Shape::walls`].
 
 use super::mask::Mask;
-use super::{Domain, Point, WallSample, Walls};
+use super::{Crossing, Domain, Point, WallSample, Walls};
 
 /// Step of the Laplacian smoothing, v ← v + λ·L(v).
 const LAMBDA: f64 = 0.5;
@@ -291,6 +291,36 @@ impl Traced {
 
     /// Crossings of `origin + s·dir` with the edges `candidates`, unsorted.
     fn hits(&self, candidates: impl Iterator<Item = usize>, origin: Point, dir: Point) -> Vec<f64> {
+        self.hits_at(candidates, origin, dir, |s, _| s)
+    }
+
+    /// [`Traced::hits`] with the angle of each crossing ([`Crossing`]; every wall is wall 0).
+    fn hits_with_angles(
+        &self,
+        candidates: impl Iterator<Item = usize>,
+        origin: Point,
+        dir: Point,
+    ) -> Vec<Crossing> {
+        let len = dir[0].hypot(dir[1]);
+        self.hits_at(candidates, origin, dir, |s, [a, b]| {
+            let e = [b[0] - a[0], b[1] - a[1]];
+            let cos = ((dir[0] * e[1] - dir[1] * e[0]) / (len * e[0].hypot(e[1]))).abs();
+            Crossing {
+                s,
+                wall: 0,
+                cos: if cos.is_finite() { cos.min(1.0) } else { 1.0 },
+            }
+        })
+    }
+
+    /// Each crossing of `origin + s·dir` with the edges `candidates` as `make(s, edge)`.
+    fn hits_at<T>(
+        &self,
+        candidates: impl Iterator<Item = usize>,
+        origin: Point,
+        dir: Point,
+        make: impl Fn(f64, [Point; 2]) -> T,
+    ) -> Vec<T> {
         let d2 = dir[0] * dir[0] + dir[1] * dir[1];
         let side = |p: Point| dir[0] * (p[1] - origin[1]) - dir[1] * (p[0] - origin[0]);
         let mut out = Vec::new();
@@ -300,7 +330,8 @@ impl Traced {
             if (da > 0.0) != (db > 0.0) {
                 let t = da / (da - db);
                 let x = [a[0] + t * (b[0] - a[0]), a[1] + t * (b[1] - a[1])];
-                out.push(((x[0] - origin[0]) * dir[0] + (x[1] - origin[1]) * dir[1]) / d2);
+                let s = ((x[0] - origin[0]) * dir[0] + (x[1] - origin[1]) * dir[1]) / d2;
+                out.push(make(s, [a, b]));
             }
         }
         out
@@ -328,19 +359,23 @@ impl Domain for Traced {
 
     /// Every crossing of a polyline edge is a wall (the contours do not cross one another).
     fn wall_crossings(&self, origin: Point, dir: Point) -> Vec<f64> {
+        self.wall_hits(origin, dir).iter().map(|c| c.s).collect()
+    }
+
+    fn wall_hits(&self, origin: Point, dir: Point) -> Vec<Crossing> {
         if !(origin.iter().chain(dir.iter()).all(|v| v.is_finite())) || dir == [0.0, 0.0] {
             return Vec::new();
         }
         let mut s = if dir[1] == 0.0 {
             let band = self.rows.at(origin[1]).iter().map(|&k| k as usize);
-            self.hits(band, origin, dir)
+            self.hits_with_angles(band, origin, dir)
         } else if dir[0] == 0.0 {
             let band = self.cols.at(origin[0]).iter().map(|&k| k as usize);
-            self.hits(band, origin, dir)
+            self.hits_with_angles(band, origin, dir)
         } else {
-            self.hits(0..self.edges.len(), origin, dir)
+            self.hits_with_angles(0..self.edges.len(), origin, dir)
         };
-        s.sort_by(|a, b| a.total_cmp(b));
+        s.sort_by(|a, b| a.s.total_cmp(&b.s));
         s
     }
 
