@@ -694,6 +694,84 @@ impl Field {
     }
 }
 
+// ---------------------------------------------------------------------------------------------
+// Exact solutions of the generalised problem c·u − ∇·(k∇u) = f (the problem layer's checks).
+
+/// The modified Bessel function I₀(x) = Σ_m (x²/4)^m/(m!)², summed until the terms stop
+/// changing the sum (all terms are positive, so there is no cancellation; finite up to x ≈ 700).
+/// Abramowitz & Stegun 1964, 9.6.10.
+pub fn bessel_i0(x: f64) -> f64 {
+    let q = 0.25 * x * x;
+    let (mut term, mut sum) = (1.0, 1.0);
+    for m in 1..2000 {
+        term *= q / (m as f64 * m as f64);
+        sum += term;
+        if term < 1e-17 * sum {
+            break;
+        }
+    }
+    sum
+}
+
+/// The modified Bessel function I₁(x) = (x/2)·Σ_m (x²/4)^m/(m!·(m + 1)!) (Abramowitz & Stegun
+/// 1964, 9.6.10).
+pub fn bessel_i1(x: f64) -> f64 {
+    let q = 0.25 * x * x;
+    let (mut term, mut sum) = (1.0, 1.0);
+    for m in 1..2000 {
+        term *= q / (m as f64 * (m + 1) as f64);
+        sum += term;
+        if term < 1e-17 * sum {
+            break;
+        }
+    }
+    0.5 * x * sum
+}
+
+/// The shifted problem on a disc: c·u − ∇²u = 1 for r < R, u = 0 at r = R, c > 0. Radial,
+/// u″ + u′/r − c·u = −1, whose bounded solution is u = (1 − I₀(√c·r)/I₀(√c·R))/c (the
+/// modified Bessel equation; exact). Returns u at radius r.
+pub fn shifted_disc(c: f64, radius: f64, r: f64) -> f64 {
+    let s = c.sqrt();
+    (1.0 - bessel_i0(s * r) / bessel_i0(s * radius)) / c
+}
+
+/// ∫u dA of [`shifted_disc`]: (πR²/c)·(1 − 2·I₁(√c·R)/(√c·R·I₀(√c·R))) (from
+/// ∫₀^R I₀(a·r)·r dr = R·I₁(a·R)/a; exact).
+pub fn shifted_disc_integral(c: f64, radius: f64) -> f64 {
+    let a = c.sqrt() * radius;
+    std::f64::consts::PI * radius * radius / c * (1.0 - 2.0 * bessel_i1(a) / (a * bessel_i0(a)))
+}
+
+/// Poiseuille flow with Navier slip on a disc: −∇²u = 1 for r < R, u = b·∂u/∂n_in at r = R
+/// (slip length b): u = (R² − r² + 2bR)/4, whose flow rate is (1 + 4b/R) times the no-slip
+/// one, πR⁴/8 (exact; e.g. Lauga, Brenner & Stone 2007, from memory).
+pub fn slip_disc(b: f64, radius: f64, r: f64) -> f64 {
+    (radius * radius - r * r + 2.0 * b * radius) / 4.0
+}
+
+/// A layered slab: −(k·u′)′ = 1 for 0 < y < H, u(0) = u(H) = 0, with k = k₁ for y < H/2 and
+/// k₂ above. The flux k·u′ = F − y is continuous; below, u = (F·y − y²/2)/k₁; above,
+/// u = (F·y − y²/2 − C)/k₂ with C = F·H − H²/2 from u(H) = 0; continuity of u at H/2 fixes F
+/// (one linear equation). Exact; any quantity independent of x, so it holds in a channel whose
+/// side walls carry no flux.
+pub fn layered_slab(k1: f64, k2: f64, height: f64, y: f64) -> f64 {
+    let m = 0.5 * height;
+    // Below: u = (F·y − y²/2)/k₁. Above: u = (F·y − y²/2 − C)/k₂ with the same flux k·u′ = F − y
+    // (continuous) and C fixed by u(H) = 0; value continuity at m then fixes F:
+    // (F·m − m²/2)/k₁ = (F·m − m²/2 − C)/k₂, C = F·H − H²/2.
+    let c_of = |f: f64| f * height - 0.5 * height * height;
+    // Linear in F: (F·m − m²/2)(1/k₁ − 1/k₂) + C(F)/k₂ = 0.
+    let a = m * (1.0 / k1 - 1.0 / k2) + height / k2;
+    let b = -0.5 * m * m * (1.0 / k1 - 1.0 / k2) - 0.5 * height * height / k2;
+    let f = -b / a;
+    if y <= m {
+        (f * y - 0.5 * y * y) / k1
+    } else {
+        (f * y - 0.5 * y * y - c_of(f)) / k2
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -940,6 +1018,59 @@ mod tests {
             }
         }
         s * hx * hy
+    }
+
+    #[test]
+    fn bessel_functions_against_tables() {
+        // Abramowitz & Stegun 1964, table 9.8 (from memory): I₀(1), I₁(1), I₀(10)·e⁻¹⁰.
+        assert!(rel(bessel_i0(1.0), 1.266_065_877_752_008) < 1e-14);
+        assert!(rel(bessel_i1(1.0), 0.565_159_103_992_485) < 1e-14);
+        assert!(rel(bessel_i0(10.0) * (-10.0f64).exp(), 0.127_833_337_2) < 1e-9);
+        // Large argument: I₀(x) ≈ eˣ/√(2πx)·(1 + 1/(8x) + 9/(128x²)) (A&S 9.7.1).
+        let x = 200.0f64;
+        let asym =
+            x.exp() / (2.0 * PI * x).sqrt() * (1.0 + 1.0 / (8.0 * x) + 9.0 / (128.0 * x * x));
+        assert!(rel(bessel_i0(x), asym) < 1e-7);
+    }
+
+    #[test]
+    fn generalised_solutions_solve_their_equations() {
+        // Second differences (step 1e-4, error O(step²)) of the radial and layered solutions.
+        let st = 1e-4;
+        for (c, r) in [(1.0, 0.3), (1e4, 0.97)] {
+            let u = |r: f64| shifted_disc(c, 1.0, r);
+            let lap = (u(r + st) - 2.0 * u(r) + u(r - st)) / (st * st)
+                + (u(r + st) - u(r - st)) / (2.0 * st * r);
+            assert!(
+                (c * u(r) - lap - 1.0).abs() < 1e-5,
+                "c = {c}: {}",
+                c * u(r) - lap
+            );
+            assert!(u(1.0).abs() < 1e-15);
+        }
+        // Slip: u(R) = b·(−u′(R)).
+        let (b, rr) = (0.1, 2.0);
+        let du = (slip_disc(b, rr, rr) - slip_disc(b, rr, rr - st)) / st;
+        assert!((slip_disc(b, rr, rr) + b * du).abs() < 1e-4);
+        // Layered: −(k u′)′ = 1, continuous u and k·u′ at H/2, zero at both walls.
+        let (k1, k2, hh) = (1.0, 5.0, 2.0);
+        let u = |y: f64| layered_slab(k1, k2, hh, y);
+        assert!(u(0.0).abs() < 1e-15 && u(hh).abs() < 1e-14);
+        for (y, k) in [(0.4, k1), (1.6, k2)] {
+            let d2 = (u(y + st) - 2.0 * u(y) + u(y - st)) / (st * st);
+            assert!((-k * d2 - 1.0).abs() < 1e-5);
+        }
+        let flux = |y: f64, k: f64| k * (u(y + st) - u(y - st)) / (2.0 * st);
+        assert!((flux(1.0 - 2.0 * st, k1) - flux(1.0 + 2.0 * st, k2)).abs() < 1e-3);
+        // Disc integral against a midpoint rule in r.
+        let (c, n) = (10.0, 20000);
+        let num: f64 = (0..n)
+            .map(|i| {
+                let r = (i as f64 + 0.5) / n as f64;
+                2.0 * PI * r * shifted_disc(c, 1.0, r) / n as f64
+            })
+            .sum();
+        assert!(rel(num, shifted_disc_integral(c, 1.0)) < 1e-8);
     }
 
     #[test]

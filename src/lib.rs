@@ -23,6 +23,7 @@ pub mod problem;
 pub mod report;
 pub mod solver;
 pub mod study;
+pub mod system;
 pub mod units;
 pub mod verify;
 

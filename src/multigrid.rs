@@ -580,8 +580,8 @@ struct Scratch {
 
 /// The multigrid V-cycle preconditioner. Built once from the fine operator (setup), applied
 /// once per CG iteration.
-pub struct Multigrid<'a> {
-    fine: &'a GridOperator,
+pub struct Multigrid {
+    fine: GridOperator,
     /// 1/d on the fine level, 0 at solid nodes, in single precision: the smoother is then
     /// Gauss–Seidel for the matrix A′ whose diagonal is d′ = 1/fl(1/d), a relative change below
     /// 6e-8 (it saves 4 bytes a node in each pass). The fine residual that is restricted is
@@ -605,10 +605,10 @@ pub struct Multigrid<'a> {
     scratch: Mutex<Scratch>,
 }
 
-impl<'a> Multigrid<'a> {
+impl Multigrid {
     /// Builds the hierarchy: coarsen until a level has at most [`DIRECT_LIMIT`] active nodes or
     /// cannot shrink, then factor that level.
-    pub fn new(fine: &'a GridOperator) -> Multigrid<'a> {
+    pub fn new(fine: GridOperator) -> Multigrid {
         use rayon::prelude::*;
         // The fine level's per-node numbers in one pass: row scale of P, 1/d.
         let n = fine.diag.len();
@@ -636,7 +636,7 @@ impl<'a> Multigrid<'a> {
                 break;
             }
             let next = match levels.last() {
-                None => coarsen(fine, Some(&fine_scale)),
+                None => coarsen(&fine, Some(&fine_scale)),
                 Some(l) => coarsen(l, None),
             };
             levels.push(next);
@@ -690,6 +690,11 @@ impl<'a> Multigrid<'a> {
             coarsest,
             scratch: Mutex::new(scratch),
         }
+    }
+
+    /// The fine-level operator the hierarchy was built from.
+    pub fn operator(&self) -> &GridOperator {
+        &self.fine
     }
 
     /// Number of levels including the fine one.
@@ -1637,7 +1642,7 @@ fn prolong_add(xc: &[f64], cnx: usize, x: &mut [f64], fnx: usize, fny: usize, ma
         );
 }
 
-impl Multigrid<'_> {
+impl Multigrid {
     /// V-cycle on coarse level `l` (index into `levels`) for the right-hand side in
     /// scratch.b[l], result in scratch.x[l].
     fn cycle(&self, l: usize, s: &mut Scratch) {
@@ -1676,13 +1681,13 @@ impl Multigrid<'_> {
     }
 }
 
-impl Preconditioner for Multigrid<'_> {
+impl Preconditioner for Multigrid {
     fn apply(&self, r: &[f64], z: &mut [f64]) {
         self.apply_dot(r, z);
     }
 
     fn apply_dot(&self, r: &[f64], z: &mut [f64]) -> f64 {
-        let a = self.fine;
+        let a = &self.fine;
         let mut s = self.scratch.lock().unwrap_or_else(|e| e.into_inner());
         let s = &mut *s;
         let f = Fine {
@@ -1737,7 +1742,7 @@ mod tests {
     fn galerkin_levels_are_symmetric() {
         let c = slit_disc([0.5, 0.0], [1.2, 0.05], 0.3, 64);
         let a = GridOperator::new(&Problem::laplace(&c), &Numbering::new(&c));
-        let mg = Multigrid::new(&a);
+        let mg = Multigrid::new(a.clone());
         for l in &mg.levels {
             for k in 0..l.len() {
                 if !l.active[k] {
@@ -1801,7 +1806,7 @@ mod tests {
             }
         }
         // Symmetry of the preconditioner: u·M⁻¹v = v·M⁻¹u.
-        let mg = Multigrid::new(&a);
+        let mg = Multigrid::new(a.clone());
         let mut u = vec![0.0; x.len()];
         let mut v = vec![0.0; x.len()];
         for k in num.nodes() {
@@ -1828,7 +1833,7 @@ mod tests {
     fn split_coarse_sweep_matches_the_general_one_bit_for_bit() {
         let c = slit_disc([0.3, 0.01], [1.2, 0.009], 0.2, 160);
         let a = GridOperator::new(&Problem::laplace(&c), &Numbering::new(&c));
-        let mg = Multigrid::new(&a);
+        let mg = Multigrid::new(a.clone());
         let field = |k: usize, seed: f64| ((k as f64 * 0.618 + seed).sin() * 1e3).fract();
         let mut levels = 0;
         for l in &mg.levels {

@@ -36,13 +36,19 @@ pub fn assemble(problem: &Problem, num: &Numbering) -> CsMat<f64> {
                 (col as usize, -a)
             })
         };
-        for (col, v) in [column(Dir::South), column(Dir::West)].into_iter().flatten() {
+        for (col, v) in [column(Dir::South), column(Dir::West)]
+            .into_iter()
+            .flatten()
+        {
             indices.push(col);
             data.push(v);
         }
         indices.push(row);
         data.push(st.diag);
-        for (col, v) in [column(Dir::East), column(Dir::North)].into_iter().flatten() {
+        for (col, v) in [column(Dir::East), column(Dir::North)]
+            .into_iter()
+            .flatten()
+        {
             indices.push(col);
             data.push(v);
         }
@@ -166,10 +172,13 @@ impl GridOperator {
             spans.push(span);
         }
         let interior_diag = if problem.coefficients == crate::problem::Coefficients::Unit {
-            problem
-                .shift
-                .uniform()
-                .map(|s| if s == 0.0 { 4.0 } else { 4.0 + s * c.grid.h * c.grid.h })
+            problem.shift.uniform().map(|s| {
+                if s == 0.0 {
+                    4.0
+                } else {
+                    4.0 + s * c.grid.h * c.grid.h
+                }
+            })
         } else {
             None
         };

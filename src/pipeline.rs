@@ -165,7 +165,7 @@ fn solve_unit_on_worker(
     // Assembly and setup per method; `solve(b, x)` then solves A·x = b in unknown order,
     // starting from x.
     let csr;
-    let grid_op;
+    let multigrid;
     let pre: Box<dyn Preconditioner + '_>;
     let op: &dyn LinearOperator;
     let on_grid = method == Method::Multigrid;
@@ -182,10 +182,11 @@ fn solve_unit_on_worker(
             };
         }
         Method::Multigrid => {
-            grid_op = GridOperator::new(&Problem::laplace(&classified), &numbering);
+            let grid_op = GridOperator::new(&Problem::laplace(&classified), &numbering);
             t2 = Instant::now();
-            op = &grid_op;
-            pre = Box::new(Multigrid::new(&grid_op));
+            multigrid = Multigrid::new(grid_op);
+            op = multigrid.operator();
+            pre = Box::new(&multigrid);
         }
     }
     let t_setup = Instant::now();

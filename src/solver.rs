@@ -46,6 +46,15 @@ pub trait Preconditioner {
     }
 }
 
+impl<P: Preconditioner + ?Sized> Preconditioner for &P {
+    fn apply(&self, r: &[f64], z: &mut [f64]) {
+        (**self).apply(r, z)
+    }
+    fn apply_dot(&self, r: &[f64], z: &mut [f64]) -> f64 {
+        (**self).apply_dot(r, z)
+    }
+}
+
 impl LinearOperator for CsMat<f64> {
     fn dim(&self) -> usize {
         self.rows()

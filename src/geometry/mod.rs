@@ -189,7 +189,9 @@ impl Segment {
             } => {
                 for s in circle_hits(center, radius, origin, dir) {
                     let p = add(origin, scale(dir, s));
-                    let cos = (dot(sub(p, center), dir) / (radius * norm(dir))).abs().min(1.0);
+                    let cos = (dot(sub(p, center), dir) / (radius * norm(dir)))
+                        .abs()
+                        .min(1.0);
                     if sweep >= 2.0 * PI - 1e-12 {
                         out.push((s, cos));
                         continue;
@@ -755,7 +757,11 @@ pub trait Domain: Sync {
     fn wall_hits(&self, origin: Point, dir: Point) -> Vec<Crossing> {
         self.wall_crossings(origin, dir)
             .into_iter()
-            .map(|s| Crossing { s, wall: 0, cos: 1.0 })
+            .map(|s| Crossing {
+                s,
+                wall: 0,
+                cos: 1.0,
+            })
             .collect()
     }
     /// The wetted walls sampled at spacing at most `spacing`, with perimeter and fluid area.
