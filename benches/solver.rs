@@ -119,7 +119,7 @@ fn calls(shapes: &[String], sizes: &[usize], repeat: usize) {
             let a = GridOperator::new(&c);
             let t_op = ms(t);
             let t = Instant::now();
-            let mg = Multigrid::new(&a);
+            let mg = Multigrid::new(&a).expect("multigrid setup");
             let t_setup = ms(t);
             let r: Vec<f64> = a
                 .diag

@@ -25,10 +25,12 @@
 //!   bitmask per node); each coarse level stores every distinct stencil once with a 4-byte index
 //!   per node (see [`Level`]), and nearly all of its rows are the interior stencil, which the
 //!   sweeps apply from registers.
-//! - **Coarsest level**: dense Cholesky (nalgebra) once the level is small.
+//! - **Coarsest level**: dense Cholesky (nalgebra) once the level is small ([`Coarsest`]); a
+//!   level it cannot factor is an [`Error::Numerical`] from [`Multigrid::new`], not a panic.
 //!
 //! Invariant: knows the grid's index layout, nothing of geometry or physics.
 
+use crate::error::{Error, Result};
 use crate::operator::GridOperator;
 use crate::solver::{dot4, LinearOperator, Preconditioner, BLOCK};
 use nalgebra::{Cholesky, DMatrix, DVector, Dyn};
@@ -568,6 +570,71 @@ fn row_index(nx: usize, ny: usize, active: &[bool], ids: &[u32]) -> RowIndex {
     (spans, odd_start, odd_cols)
 }
 
+/// The coarsest level's direct solve: the dense Cholesky factor of its operator and the grid
+/// indices of its unknowns (its active nodes, in index order).
+struct Coarsest {
+    chol: Cholesky<f64, Dyn>,
+    idx: Vec<usize>,
+}
+
+impl Coarsest {
+    /// Assembles the level's operator densely and factors it.
+    ///
+    /// # Errors
+    /// [`Error::Numerical`] when the factorisation breaks down (a pivot that is not positive):
+    /// the Galerkin product of a symmetric positive definite operator is positive semidefinite,
+    /// and the shift below makes it definite, so this means round-off or a bug has made the
+    /// level indefinite, which the V-cycle cannot work with.
+    fn new(l: &Level) -> Result<Coarsest> {
+        let idx: Vec<usize> = (0..l.len()).filter(|&k| l.active[k]).collect();
+        let mut pos = vec![usize::MAX; l.len()];
+        for (q, &k) in idx.iter().enumerate() {
+            pos[k] = q;
+        }
+        let n = idx.len();
+        let mut m = DMatrix::<f64>::zeros(n, n);
+        let mut max_diag: f64 = 0.0;
+        for (q, &k) in idx.iter().enumerate() {
+            let (i, j) = (k % l.nx, k / l.nx);
+            for (o, &(di, dj)) in OFFSETS.iter().enumerate() {
+                let v = l.st(k)[o];
+                if v == 0.0 {
+                    continue;
+                }
+                let kk = (j as isize + dj) as usize * l.nx + (i as isize + di) as usize;
+                m[(q, pos[kk])] += v;
+            }
+            max_diag = max_diag.max(l.st(k)[CENTRE]);
+        }
+        // A tiny shift keeps the factorisation defined if bilinear columns restricted to a
+        // sliver of fluid became linearly dependent (a null direction of Aᶜ is one P maps to
+        // zero, so the shift never reaches the fine grid).
+        for q in 0..n {
+            m[(q, q)] += 1e-13 * max_diag;
+        }
+        let chol = Cholesky::new(m).ok_or_else(|| {
+            Error::Numerical(format!(
+                "the multigrid preconditioner's coarsest level ({n} unknowns on a {} × {} grid) \
+                 is not positive definite, so its Cholesky factorisation failed; the Jacobi \
+                 method (--method jacobi) does not need it",
+                l.nx, l.ny
+            ))
+        })?;
+        Ok(Coarsest { chol, idx })
+    }
+
+    /// x = A_c⁻¹·b on the level's grid vectors (x zero at inactive nodes).
+    fn solve(&self, b: &[f64], x: &mut [f64]) {
+        let (chol, idx) = (&self.chol, &self.idx);
+        let rhs = DVector::from_iterator(idx.len(), idx.iter().map(|&k| b[k]));
+        let sol = chol.solve(&rhs);
+        x.iter_mut().for_each(|v| *v = 0.0);
+        for (q, &k) in idx.iter().enumerate() {
+            x[k] = sol[q];
+        }
+    }
+}
+
 /// Scratch vectors: the halo rows of the fine level's second pass, the x-restricted rows and
 /// each coarse level's solution and right-hand side.
 struct Scratch {
@@ -599,16 +666,20 @@ pub struct Multigrid<'a> {
     /// one byte a node (exact as numbers, an eighth of the memory of f64).
     masks: Vec<Vec<u8>>,
     levels: Vec<Level>,
-    /// Dense Cholesky factor of the coarsest level and the grid indices of its unknowns; None
-    /// when there is only the fine level and it is solved by smoothing alone.
-    coarsest: Option<(Cholesky<f64, Dyn>, Vec<usize>)>,
+    /// The dense Cholesky factor of the coarsest level; None when there is only the fine level
+    /// and it is solved by smoothing alone.
+    coarsest: Option<Coarsest>,
     scratch: Mutex<Scratch>,
 }
 
 impl<'a> Multigrid<'a> {
     /// Builds the hierarchy: coarsen until a level has at most [`DIRECT_LIMIT`] active nodes or
     /// cannot shrink, then factor that level.
-    pub fn new(fine: &'a GridOperator) -> Multigrid<'a> {
+    ///
+    /// # Errors
+    /// [`Error::Numerical`] when the coarsest level's Galerkin operator is not numerically
+    /// positive definite, so its Cholesky factorisation breaks down.
+    pub fn new(fine: &'a GridOperator) -> Result<Multigrid<'a>> {
         use rayon::prelude::*;
         // The fine level's per-node numbers in one pass: row scale of P, 1/d.
         let n = fine.diag.len();
@@ -641,36 +712,7 @@ impl<'a> Multigrid<'a> {
             };
             levels.push(next);
         }
-        let coarsest = levels.last().map(|l| {
-            let idx: Vec<usize> = (0..l.len()).filter(|&k| l.active[k]).collect();
-            let mut pos = vec![usize::MAX; l.len()];
-            for (q, &k) in idx.iter().enumerate() {
-                pos[k] = q;
-            }
-            let n = idx.len();
-            let mut m = DMatrix::<f64>::zeros(n, n);
-            let mut max_diag: f64 = 0.0;
-            for (q, &k) in idx.iter().enumerate() {
-                let (i, j) = (k % l.nx, k / l.nx);
-                for (o, &(di, dj)) in OFFSETS.iter().enumerate() {
-                    let v = l.st(k)[o];
-                    if v == 0.0 {
-                        continue;
-                    }
-                    let kk = (j as isize + dj) as usize * l.nx + (i as isize + di) as usize;
-                    m[(q, pos[kk])] += v;
-                }
-                max_diag = max_diag.max(l.st(k)[CENTRE]);
-            }
-            // A tiny shift keeps the factorisation defined if bilinear columns restricted to a
-            // sliver of fluid became linearly dependent (a null direction of Aᶜ is one P maps to
-            // zero, so the shift never reaches the fine grid).
-            for q in 0..n {
-                m[(q, q)] += 1e-13 * max_diag;
-            }
-            let chol = Cholesky::new(m).expect("Galerkin coarse operator is positive definite");
-            (chol, idx)
-        });
+        let coarsest = levels.last().map(Coarsest::new).transpose()?;
         let scratch = Scratch {
             halo: Vec::new(),
             tmp: Vec::with_capacity(fine.diag.len() / 2 + 4 * fine.ny),
@@ -681,7 +723,7 @@ impl<'a> Multigrid<'a> {
         for l in &levels {
             masks.push(l.active.iter().map(|&a| u8::from(a)).collect());
         }
-        Multigrid {
+        Ok(Multigrid {
             fine,
             inv_diag,
             fine_scale,
@@ -689,7 +731,7 @@ impl<'a> Multigrid<'a> {
             levels,
             coarsest,
             scratch: Mutex::new(scratch),
-        }
+        })
     }
 
     /// Number of levels including the fine one.
@@ -1643,13 +1685,8 @@ impl Multigrid<'_> {
     fn cycle(&self, l: usize, s: &mut Scratch) {
         let lev = &self.levels[l];
         if l + 1 == self.levels.len() {
-            if let Some((chol, idx)) = &self.coarsest {
-                let rhs = DVector::from_iterator(idx.len(), idx.iter().map(|&k| s.b[l][k]));
-                let sol = chol.solve(&rhs);
-                s.x[l].iter_mut().for_each(|v| *v = 0.0);
-                for (q, &k) in idx.iter().enumerate() {
-                    s.x[l][k] = sol[q];
-                }
+            if let Some(coarsest) = &self.coarsest {
+                coarsest.solve(&s.b[l], &mut s.x[l]);
             }
             return;
         }
@@ -1736,7 +1773,7 @@ mod tests {
     fn galerkin_levels_are_symmetric() {
         let c = slit_disc([0.5, 0.0], [1.2, 0.05], 0.3, 64);
         let a = GridOperator::new(&c);
-        let mg = Multigrid::new(&a);
+        let mg = Multigrid::new(&a).unwrap();
         for l in &mg.levels {
             for k in 0..l.len() {
                 if !l.active[k] {
@@ -1800,7 +1837,7 @@ mod tests {
             }
         }
         // Symmetry of the preconditioner: u·M⁻¹v = v·M⁻¹u.
-        let mg = Multigrid::new(&a);
+        let mg = Multigrid::new(&a).unwrap();
         let mut u = vec![0.0; x.len()];
         let mut v = vec![0.0; x.len()];
         for k in num.nodes() {
@@ -1827,7 +1864,7 @@ mod tests {
     fn split_coarse_sweep_matches_the_general_one_bit_for_bit() {
         let c = slit_disc([0.3, 0.01], [1.2, 0.009], 0.2, 160);
         let a = GridOperator::new(&c);
-        let mg = Multigrid::new(&a);
+        let mg = Multigrid::new(&a).unwrap();
         let field = |k: usize, seed: f64| ((k as f64 * 0.618 + seed).sin() * 1e3).fract();
         let mut levels = 0;
         for l in &mg.levels {
@@ -1887,5 +1924,43 @@ mod tests {
             }
         }
         assert!(levels >= 2, "expected several coarse levels, got {levels}");
+    }
+
+    /// Issue 15: a coarsest level that the dense Cholesky factorisation cannot take (here one
+    /// node with a negative diagonal, which no Galerkin product of the fine operator gives) is
+    /// an error that says what failed, with exit code 1, not a panic.
+    #[test]
+    fn issue_15_coarsest_factorisation_failure_is_an_error() {
+        let (nx, ny) = (3, 3);
+        let mut active = vec![false; nx * ny];
+        let mut ids = vec![0u32; nx * ny];
+        active[4] = true;
+        ids[4] = 2;
+        let mut st = [0.0; 9];
+        st[CENTRE] = -1.0;
+        let table = vec![[0.0; 9], [0.0; 9], st];
+        let inv_table = vec![0.0, 0.0, -1.0];
+        let (spans, odd_start, odd_cols) = row_index(nx, ny, &active, &ids);
+        let level = Level {
+            nx,
+            ny,
+            active,
+            ids,
+            table,
+            inv_table,
+            spans,
+            odd_start,
+            odd_cols,
+            interior: None,
+        };
+        let Err(e) = Coarsest::new(&level) else {
+            panic!("an indefinite coarsest level must not factor");
+        };
+        assert!(matches!(e, Error::Numerical(_)), "{e:?}");
+        let message = e.to_string();
+        assert!(message.contains("coarsest level"), "{message}");
+        assert!(message.contains("3 × 3 grid"), "{message}");
+        assert!(message.contains("Cholesky"), "{message}");
+        assert!(!e.is_input_error());
     }
 }

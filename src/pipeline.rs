@@ -184,7 +184,7 @@ fn solve_unit_on_worker(
             grid_op = GridOperator::new(&classified);
             t2 = Instant::now();
             op = &grid_op;
-            pre = Box::new(Multigrid::new(&grid_op));
+            pre = Box::new(Multigrid::new(&grid_op)?);
         }
     }
     let t_setup = Instant::now();
