@@ -122,7 +122,8 @@ fn calls(shapes: &[String], sizes: &[usize], repeat: usize) {
             );
             let t_op = ms(t);
             let t = Instant::now();
-            let mg = Multigrid::new(a.clone());
+            let mg = Multigrid::new(a).expect("multigrid setup");
+            let a = mg.operator();
             let t_setup = ms(t);
             let r: Vec<f64> = a
                 .diag

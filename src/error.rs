@@ -54,6 +54,12 @@ pub enum Error {
         tolerance: f64,
     },
 
+    /// A numerical step failed on a well-formed problem, other than an iteration that did not
+    /// converge: a direct factorisation that broke down (the multigrid coarsest level). Not the
+    /// user's input, so exit code 1.
+    #[error("numerical failure: {0}")]
+    Numerical(String),
+
     /// A fluid property model was asked for a state it does not cover, or a property is missing.
     #[error("fluid: {0}")]
     Fluid(String),
@@ -76,6 +82,6 @@ impl Error {
     /// True for failures caused by the user's input (exit code 2); false for runs that could not
     /// finish (exit code 1).
     pub fn is_input_error(&self) -> bool {
-        !matches!(self, Error::NotConverged { .. })
+        !matches!(self, Error::NotConverged { .. } | Error::Numerical(_))
     }
 }

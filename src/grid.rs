@@ -320,11 +320,12 @@ pub fn classify(domain: &dyn Domain, grid: Grid) -> Result<Classified> {
     let split = |hits: Vec<Crossing>| -> (Vec<f64>, Vec<(WallId, f32)>) {
         hits.iter().map(|c| (c.s, (c.wall, c.cos as f32))).unzip()
     };
-    let (rows, row_walls): (Vec<Vec<f64>>, Vec<Vec<(WallId, f32)>>) = (0..grid.ny)
+    type Lines = (Vec<Vec<f64>>, Vec<Vec<(WallId, f32)>>);
+    let (rows, row_walls): Lines = (0..grid.ny)
         .into_par_iter()
         .map(|j| split(domain.wall_hits(grid.node(0, j), [1.0, 0.0])))
         .unzip();
-    let (cols, col_walls): (Vec<Vec<f64>>, Vec<Vec<(WallId, f32)>>) = (0..grid.nx)
+    let (cols, col_walls): Lines = (0..grid.nx)
         .into_par_iter()
         .map(|i| split(domain.wall_hits(grid.node(i, 0), [0.0, 1.0])))
         .unzip();

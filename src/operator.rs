@@ -5,12 +5,17 @@
 //! scheme and its references are documented there), in two forms: sprs CSR over the unknowns,
 //! and [`GridOperator`] over the whole grid. Every entry of either comes from
 //! [`Problem::stencil`]; nothing here writes the scheme itself.
+//! The grid operator has its own product A·x (the solver's [`LinearOperator`]) and the row
+//! helpers [`span_neighbours`], [`zero_outside`] and [`off_sum`] that the multigrid kernels
+//! reuse.
 //!
-//! Invariant: knows nothing of files, of the iteration or of physical units beyond h.
+//! Invariant: knows nothing of files, of the iteration or of physical units beyond h. From
+//! `solver` it takes only the `LinearOperator` trait and `dot4`.
 
 use crate::grid::{Classified, Dir};
 use crate::problem::{Field, Problem};
 pub use crate::problem::{Numbering, NO_UNKNOWN};
+use crate::solver::{dot4, LinearOperator};
 use sprs::CsMat;
 
 /// Assembles the problem's matrix (rows of [`Problem::stencil`], scaled by h²) in CSR form,
@@ -214,13 +219,6 @@ impl GridOperator {
             .zip(&self.irregular_off[r])
     }
 
-    /// The irregular nodes of grid row j (transitional: the multigrid kernels still recompute
-    /// them from the link bits, which is exact for the plain Laplacian only).
-    #[inline]
-    pub fn thin_in_row(&self, j: usize) -> &[u32] {
-        &self.irregular[self.irregular_rows[j] as usize..self.irregular_rows[j + 1] as usize]
-    }
-
     /// The off-diagonals of node k ([`Dir::ALL`] order, as positive numbers).
     pub fn off_diagonals(&self, k: usize) -> [f64; 4] {
         match self.irregular.binary_search(&(k as u32)) {
@@ -259,9 +257,217 @@ pub fn off_sum(a: &[f64; 4], e: f64, w: f64, n: f64, s: f64) -> f64 {
     a[0] * e + a[1] * w + a[2] * n + a[3] * s
 }
 
+impl LinearOperator for GridOperator {
+    fn dim(&self) -> usize {
+        self.diag.len()
+    }
+
+    /// y = A·x, branch-free: solid nodes have d = 0 and no links, so y = 0 there; the solid
+    /// ring keeps every neighbour read inside the grid.
+    fn apply(&self, x: &[f64], y: &mut [f64]) {
+        self.apply_rows(x, y, None);
+    }
+
+    /// y = A·x with x·y summed row by row and the row sums added in row order: one pass over
+    /// x and y instead of two, the same numbers with any number of threads.
+    fn apply_dot(&self, x: &[f64], y: &mut [f64]) -> f64 {
+        let rows = self.apply_rows(x, y, None);
+        rows.iter().sum()
+    }
+
+    fn diagonal(&self) -> Vec<f64> {
+        self.diag.clone()
+    }
+
+    /// r = b − A·x and r·r in one pass over the rows (row sums added in row order).
+    fn residual(&self, b: &[f64], x: &[f64], r: &mut [f64]) -> f64 {
+        let rows = self.apply_rows(x, r, Some(b));
+        rows.iter().sum()
+    }
+
+    fn abs_product_norm(&self, x: &[f64]) -> f64 {
+        let nx = self.nx;
+        let n = self.diag.len();
+        let mut sum = 0.0;
+        for k in nx + 1..n - nx - 1 {
+            let odd;
+            let w = if self.irregular.is_empty() {
+                &LINK_WEIGHTS[self.links[k] as usize]
+            } else {
+                odd = self.off_diagonals(k);
+                &odd
+            };
+            let v = self.diag[k] * x[k].abs()
+                + w[0] * x[k + 1].abs()
+                + w[1] * x[k - 1].abs()
+                + w[2] * x[k + nx].abs()
+                + w[3] * x[k - nx].abs();
+            sum += v * v;
+        }
+        sum.sqrt()
+    }
+}
+
+impl GridOperator {
+    /// y = A·x, rows in parallel (each output row is written by one task); returns x·y of each
+    /// row. Branch-free ([`apply_row`]) over each row's fluid span; solid nodes get y = 0. With
+    /// `b`: y = b − A·x instead, and y·y of each row.
+    fn apply_rows(&self, x: &[f64], y: &mut [f64], b: Option<&[f64]>) -> Vec<f64> {
+        use rayon::prelude::*;
+        let nx = self.nx;
+        let ny = self.ny;
+        y.par_chunks_mut(nx)
+            .enumerate()
+            .map(|(j, out)| {
+                let row = j * nx;
+                if j == 0 || j + 1 >= ny {
+                    // A·x = 0 on the ring rows.
+                    return match b {
+                        Some(b) => {
+                            out.copy_from_slice(&b[row..row + nx]);
+                            dot4(out, out)
+                        }
+                        None => {
+                            out.iter_mut().for_each(|v| *v = 0.0);
+                            0.0
+                        }
+                    };
+                }
+                let (xs, xc, xn) = (
+                    &x[row - nx..row],
+                    &x[row..row + nx],
+                    &x[row + nx..row + 2 * nx],
+                );
+                let span = self.row_span(j);
+                apply_row(&self.diag[row..row + nx], xs, xc, xn, out, span);
+                for (k, a) in self.irregular_in_row(j) {
+                    let s = off_sum(a, x[k + 1], x[k - 1], x[k + nx], x[k - nx]);
+                    out[k - row] = self.diag[k] * x[k] - s;
+                }
+                match b {
+                    Some(b) => {
+                        for (o, bi) in out.iter_mut().zip(&b[row..row + nx]) {
+                            *o = bi - *o;
+                        }
+                        dot4(out, out)
+                    }
+                    None => {
+                        let (lo, hi) = span;
+                        dot4(&xc[lo..hi], &out[lo..hi])
+                    }
+                }
+            })
+            .collect()
+    }
+}
+
+/// One row of y = A·x from the rows south, centre and north of x: y = d·x − (sum of the four
+/// neighbours), and y = 0 where d = 0 (solid). Computed over the row's fluid span `lo..hi`
+/// ([`GridOperator::row_span`]), zero around it. Exact for every node but the thin ones of
+/// [`GridOperator`], which the caller recomputes. Contiguous and branch-free, so it vectorises.
+#[inline]
+fn apply_row(
+    d: &[f64],
+    xs: &[f64],
+    xc: &[f64],
+    xn: &[f64],
+    out: &mut [f64],
+    (lo, hi): (usize, usize),
+) {
+    let m = hi - lo;
+    let [e, w, c, n, s] = span_neighbours((xs, xc, xn), (lo, hi));
+    let (d, o) = (&d[lo..hi], &mut out[lo..hi]);
+    for i in 0..m {
+        let v = d[i] * c[i] - ((e[i] + w[i]) + (n[i] + s[i]));
+        o[i] = if d[i] != 0.0 { v } else { 0.0 };
+    }
+    zero_outside(out, (lo, hi));
+}
+
+/// The neighbour slices of a row's span `lo..hi` (1 ≤ lo ≤ hi ≤ nx − 1), as (east, west,
+/// centre, north, south), all of length hi − lo, from the rows south, centre and north.
+#[inline(always)]
+pub(crate) fn span_neighbours<'x>(
+    (xs, xc, xn): (&'x [f64], &'x [f64], &'x [f64]),
+    (lo, hi): (usize, usize),
+) -> [&'x [f64]; 5] {
+    [
+        &xc[lo + 1..hi + 1],
+        &xc[lo - 1..hi - 1],
+        &xc[lo..hi],
+        &xn[lo..hi],
+        &xs[lo..hi],
+    ]
+}
+
+/// Zeros a row outside the columns `lo..hi`.
+#[inline]
+pub(crate) fn zero_outside(out: &mut [f64], (lo, hi): (usize, usize)) {
+    out[..lo].iter_mut().for_each(|v| *v = 0.0);
+    out[hi..].iter_mut().for_each(|v| *v = 0.0);
+}
+
+/// 0/1 weights of the four regular links for each link mask (bits East, West, North, South).
+pub(crate) const LINK_WEIGHTS: [[f64; 4]; 16] = {
+    let mut t = [[0.0; 4]; 16];
+    let mut m = 0;
+    while m < 16 {
+        let mut d = 0;
+        while d < 4 {
+            t[m][d] = ((m >> d) & 1) as f64;
+            d += 1;
+        }
+        m += 1;
+    }
+    t
+};
+
 /// Right-hand side h²·f for the unit flow problem f = 1, u = 0 on the walls.
 pub fn unit_rhs(c: &Classified, num: &Numbering) -> Vec<f64> {
     Problem::laplace(c).rhs(num, &Field::Uniform(1.0))
+}
+
+/// Test cases shared by the unit tests of `operator` and `multigrid` (one place, so a change
+/// of the geometry API touches one helper).
+#[cfg(test)]
+pub(crate) mod fixtures {
+    use crate::geometry::{Primitive, Shape};
+    use crate::grid::{classify, Classified, Grid};
+
+    /// The unit disc with a straight slit (`center`, `size`, `angle`) cut out, classified on a
+    /// grid of `cells` across.
+    pub(crate) fn slit_disc(
+        center: [f64; 2],
+        size: [f64; 2],
+        angle: f64,
+        cells: usize,
+    ) -> Classified {
+        let s = Shape::new(
+            vec![Primitive::Circle {
+                center: [0.0, 0.0],
+                radius: 1.0,
+            }],
+            vec![Primitive::Rect {
+                center,
+                size,
+                corner_radius: 0.0,
+                angle,
+            }],
+        );
+        let (lo, hi) = s.bbox();
+        classify(&s, Grid::covering(lo, hi, cells)).unwrap()
+    }
+
+    /// The matrix-free operator of the unit flow problem on `c`.
+    pub(crate) fn laplace_operator(c: &Classified) -> super::GridOperator {
+        let p = crate::problem::Problem::laplace(c);
+        super::GridOperator::new(&p, &crate::problem::Numbering::new(c))
+    }
+
+    /// A rough, deterministic value in (−1, 1) for node k (`seed` picks the vector).
+    pub(crate) fn rough(k: usize, seed: f64) -> f64 {
+        ((k as f64 * 0.618 + seed).sin() * 1e3).fract()
+    }
 }
 
 #[cfg(test)]
@@ -330,5 +536,40 @@ mod tests {
             empty_inner_rows > 0,
             "the two discs should leave solid rows between them"
         );
+    }
+
+    /// A slit thinner than a cell leaves fluid on both sides of cut links (the thin nodes of
+    /// [`GridOperator`]): the fast kernels must still give the assembled matrix's product
+    /// ([`assemble`], the reference), and zero at solid nodes.
+    #[test]
+    fn thin_walls_match_the_assembled_matrix() {
+        use super::fixtures::{rough as field, slit_disc};
+        let c = slit_disc([0.3, 0.01], [1.2, 0.009], 0.2, 80);
+        let a = fixtures::laplace_operator(&c);
+        let thin: usize = (0..a.ny).map(|j| a.irregular_in_row(j).count()).sum();
+        assert!(thin > 10, "the slit should make thin nodes, got {thin}");
+        let num = Numbering::new(&c);
+        let csr = assemble(&Problem::laplace(&c), &num);
+        // A rough vector, zero at solid nodes.
+        let mut x = vec![0.0; a.diag.len()];
+        for k in num.nodes() {
+            x[k] = field(k, 0.3);
+        }
+        let mut y = vec![0.0; x.len()];
+        a.apply(&x, &mut y);
+        let xu: Vec<f64> = num.nodes().map(|k| x[k]).collect();
+        let mut yu = vec![0.0; xu.len()];
+        LinearOperator::apply(&csr, &xu, &mut yu);
+        for (q, k) in num.nodes().enumerate() {
+            assert!(
+                (y[k] - yu[q]).abs() <= 1e-12 * yu[q].abs().max(1.0),
+                "node {k}"
+            );
+        }
+        for (yk, d) in y.iter().zip(&a.diag) {
+            if *d == 0.0 {
+                assert_eq!(*yk, 0.0);
+            }
+        }
     }
 }

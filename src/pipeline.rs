@@ -184,7 +184,7 @@ fn solve_unit_on_worker(
         Method::Multigrid => {
             let grid_op = GridOperator::new(&Problem::laplace(&classified), &numbering);
             t2 = Instant::now();
-            multigrid = Multigrid::new(grid_op);
+            multigrid = Multigrid::new(grid_op)?;
             op = multigrid.operator();
             pre = Box::new(&multigrid);
         }

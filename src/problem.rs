@@ -36,12 +36,16 @@
 //! The shift enters as c·h² on the diagonal and the source as f·h² on the right. Off-diagonals
 //! are −k_f, so the matrix is symmetric; it is positive definite when every passage has a
 //! Dirichlet or Robin wall or a positive shift (flux walls alone leave the constant in the
-//! null space). Measured (tests/problem.rs): the shifted disc and the half disc with a
-//! flux-free flat converge at second order in the maximum norm; the slip disc (Robin) at order
-//! 1.3–1.5, its flow rate within 1e-4 of (1 + 4b/R) times the no-slip one at 100 cells. An
-//! attempt to end the node's cell at a flux wall (finite-volume extents along each axis, face
-//! widths averaged between the two ends for symmetry) was consistent on straight walls only
-//! and stalled at 2 % on the slip disc; it is not used.
+//! null space). Measured (tests/problem.rs, 50 to 1600 cells across a unit disc): the shifted
+//! disc converges at second order in the maximum norm (order 1.98 at c·R² = 1, 1.88 between
+//! 800 and 1600 cells at c·R² = 10⁴, whose wall layer is R/100 thick); a layered k at second
+//! order; the slip disc (Robin) at first order (0.9–1.5), its flow rate within 2e-5 of
+//! (1 + 4b/R) times the no-slip one at 400 cells; a flux-free flat halfway between node rows
+//! reproduces the full disc to round-off (mirror symmetry), one elsewhere at first order (the
+//! linear ghost misses the curvature across the wall, ½·u″·(1 − 2θ)·h²). An attempt to end
+//! the node's cell at a flux wall (finite-volume extents along each axis, face widths averaged
+//! between the two ends for symmetry) was consistent on straight walls only and stalled at 2 %
+//! on the slip disc; it is not used.
 //!
 //! Invariant: knows the grid and its cuts, nothing of iterations, storage formats or files.
 

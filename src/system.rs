@@ -54,7 +54,7 @@ enum Operators {
         jacobi: Option<Jacobi>,
     },
     /// The matrix-free grid operator inside its multigrid hierarchy.
-    Grid(Multigrid),
+    Grid(Box<Multigrid>),
 }
 
 /// Wall-clock seconds of the set-up.
@@ -113,7 +113,7 @@ impl<'a> System<'a> {
             Method::Multigrid => {
                 let op = GridOperator::new(&self.problem, &self.numbering);
                 let t1 = Instant::now();
-                (Operators::Grid(Multigrid::new(op)), t1)
+                (Operators::Grid(Box::new(Multigrid::new(op)?)), t1)
             }
         };
         self.operators = operators;

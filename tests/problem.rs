@@ -90,7 +90,7 @@ fn table(title: &str, cells: &[usize], errors: &[f64], iterations: &[usize]) -> 
 fn shifted_disc_is_second_order() {
     for (c, cells, max_err) in [
         (1.0, [50, 100, 200, 400], 1e-5),
-        (1e4, [100, 200, 400, 800], 5e-3),
+        (1e4, [200, 400, 800, 1600], 3e-3),
     ] {
         let shape = disc(1.0);
         let mut errors = Vec::new();
@@ -117,10 +117,27 @@ fn shifted_disc_is_second_order() {
         assert!(p > 1.8, "c·R² = {c}: order {p:.2}");
         assert!(iterations.iter().all(|&i| i <= 20), "{iterations:?}");
     }
+    // c·h² ≫ 1 (a marching step far shorter than a cell's diffusion time): the count stays
+    // flat, here at 100 cells with c·h² = 4e2 and 4e4.
+    for c in [1e6, 1e8] {
+        let cl = classified(&disc(1.0), 100, PLACEMENT);
+        let problem = Problem {
+            shift: Field::Uniform(c),
+            ..Problem::laplace(&cl)
+        };
+        let (_, _, it) = solve(problem, &Field::Uniform(1.0));
+        println!(
+            "shifted disc, c·h² = {:.0e}: {it} CG iterations",
+            c * cl.grid.h * cl.grid.h
+        );
+        assert!(it <= 20, "c = {c}: {it} iterations");
+    }
 }
 
 /// Navier slip on a disc, −∇²u = 1, u = b·∂u/∂n_in at r = R: u = (R² − r² + 2bR)/4 and the
-/// flow rate is (1 + 4b/R) times the no-slip one (exact; src/exact.rs).
+/// flow rate is (1 + 4b/R) times the no-slip one (exact; src/exact.rs). The Robin wall's
+/// linear ghost is first order in the maximum norm (src/problem.rs); the flow rate is within
+/// 1e-4 of the exact ratio at 400 cells.
 #[test]
 fn slip_disc_matches_navier_slip() {
     let radius = 1.0;
@@ -162,7 +179,7 @@ fn slip_disc_matches_navier_slip() {
         let ratio = *ratios.last().unwrap();
         println!("  flow-rate ratio {ratio:.6} (exact {want})");
         assert!(err < 1e-3, "b = {b}: error {err:.3e}");
-        assert!(p > 0.9, "b = {b}: order {p:.2}");
+        assert!(p > 0.8, "b = {b}: order {p:.2}");
         assert!(
             (ratio - want).abs() < 1e-3 * want,
             "ratio {ratio} vs {want}"
