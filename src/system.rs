@@ -197,7 +197,7 @@ impl<'a> System<'a> {
                 let info = pcg_in(
                     &mut self.work,
                     mg.operator(),
-                    mg,
+                    mg.as_ref(),
                     gb,
                     gx,
                     params,
@@ -241,7 +241,7 @@ impl<'a> System<'a> {
                 smallest_eigenpair(a, &inner, weights, x, &[], params, &name)
             }
             Operators::Grid(mg) => {
-                let on = OnUnknowns::new(mg.operator(), mg, &self.numbering);
+                let on = OnUnknowns::new(mg.operator(), mg.as_ref(), &self.numbering);
                 smallest_eigenpair(&on, &on, weights, x, &[], params, &name)
             }
         }
