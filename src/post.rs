@@ -7,7 +7,7 @@
 //!
 //! Invariant: writes no files and formats no text.
 
-use crate::geometry::{Point, Walls};
+use crate::geometry::{Point, WallSample, Walls};
 use crate::grid::{Classified, Dir};
 use crate::operator::{Numbering, NO_UNKNOWN};
 use crate::problem::Problem;
@@ -136,6 +136,43 @@ pub fn passage_count(c: &Classified) -> usize {
     passage_labels(c).1
 }
 
+/// The passage label ([`passage_labels`]) of each wall sample: that of the nearest fluid node
+/// on its fluid side within three cells (None if there is none).
+pub fn sample_labels(c: &Classified, label: &[u32], samples: &[WallSample]) -> Vec<Option<u32>> {
+    let g = &c.grid;
+    samples
+        .iter()
+        .map(|smp| {
+            let p = smp.point;
+            let ci = ((p[0] - g.origin[0]) / g.h).round() as isize;
+            let cj = ((p[1] - g.origin[1]) / g.h).round() as isize;
+            let mut best: Option<(u32, f64)> = None;
+            for dj in -3..=3isize {
+                for di in -3..=3isize {
+                    let (i, j) = (ci + di, cj + dj);
+                    if i < 0 || j < 0 || i >= g.nx as isize || j >= g.ny as isize {
+                        continue;
+                    }
+                    let k = g.index(i as usize, j as usize);
+                    if label[k] == u32::MAX {
+                        continue;
+                    }
+                    let x = g.node(i as usize, j as usize);
+                    let d = [x[0] - p[0], x[1] - p[1]];
+                    if d[0] * smp.normal[0] + d[1] * smp.normal[1] >= 0.0 {
+                        continue;
+                    }
+                    let d2 = d[0] * d[0] + d[1] * d[1];
+                    if best.is_none_or(|(_, b)| d2 < b) {
+                        best = Some((label[k], d2));
+                    }
+                }
+            }
+            best.map(|(l, _)| l)
+        })
+        .collect()
+}
+
 /// Figures of one passage of a cross-section made of disconnected fluid regions, all under the
 /// same pressure gradient.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -151,6 +188,8 @@ pub struct PassageFigures {
     pub flow_share: f64,
     /// Centroid of the passage's fluid nodes (quadrature weights), m.
     pub centroid: Point,
+    /// The passage's label in [`passage_labels`].
+    pub label: u32,
 }
 
 /// Per-passage figures, ordered by centroid, top-left first (descending y, then ascending x).
@@ -162,33 +201,12 @@ pub fn passages(c: &Classified, num: &Numbering, u: &[f64], walls: &Walls) -> Ve
     let q = quadrature_weights(c, num);
     let mut area = vec![0.0; count];
     let mut perimeter = vec![0.0; count];
-    for smp in &walls.samples {
-        let p = smp.point;
-        let ci = ((p[0] - g.origin[0]) / g.h).round() as isize;
-        let cj = ((p[1] - g.origin[1]) / g.h).round() as isize;
-        let mut best: Option<(u32, f64)> = None;
-        for dj in -3..=3isize {
-            for di in -3..=3isize {
-                let (i, j) = (ci + di, cj + dj);
-                if i < 0 || j < 0 || i >= g.nx as isize || j >= g.ny as isize {
-                    continue;
-                }
-                let k = g.index(i as usize, j as usize);
-                if label[k] == u32::MAX {
-                    continue;
-                }
-                let x = g.node(i as usize, j as usize);
-                let d = [x[0] - p[0], x[1] - p[1]];
-                if d[0] * smp.normal[0] + d[1] * smp.normal[1] >= 0.0 {
-                    continue;
-                }
-                let d2 = d[0] * d[0] + d[1] * d[1];
-                if best.is_none_or(|(_, b)| d2 < b) {
-                    best = Some((label[k], d2));
-                }
-            }
-        }
-        if let Some((l, _)) = best {
+    for (smp, l) in walls
+        .samples
+        .iter()
+        .zip(sample_labels(c, &label, &walls.samples))
+    {
+        if let Some(l) = l {
             area[l as usize] += smp.area;
             perimeter[l as usize] += smp.ds;
         }
@@ -221,6 +239,7 @@ pub fn passages(c: &Classified, num: &Numbering, u: &[f64], walls: &Walls) -> Ve
                 fanning_f_re: dh * dh * area[l] / (2.0 * flow[l]),
                 flow_share: flow[l] / total,
                 centroid: [cx[l] / weight[l], cy[l] / weight[l]],
+                label: l as u32,
             }
         })
         .collect();
