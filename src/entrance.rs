@@ -82,7 +82,7 @@ struct Sdirk {
     c: [f64; 3],
 }
 
-const SDIRK_GAMMA: f64 = 0.435_866_521_508_458_999_8;
+const SDIRK_GAMMA: f64 = 0.435_866_521_508_459;
 
 const SDIRK: Sdirk = {
     let g = SDIRK_GAMMA;
@@ -225,8 +225,8 @@ fn means_at(curve: &[[f64; 3]], x: f64) -> Option<(f64, f64)> {
     let mut total = [0.0; 2];
     // The inlet to the first point: Nu ∝ x^(−1/3).
     let head = x.min(first[0]);
-    for i in 0..2 {
-        total[i] = 1.5 * g(first, i + 1) * head.powf(2.0 / 3.0);
+    for (i, t) in total.iter_mut().enumerate() {
+        *t = 1.5 * g(first, i + 1) * head.powf(2.0 / 3.0);
     }
     for pair in curve.windows(2) {
         let (p, q) = (&pair[0], &pair[1]);
@@ -234,10 +234,10 @@ fn means_at(curve: &[[f64; 3]], x: f64) -> Option<(f64, f64)> {
             break;
         }
         let b = q[0].min(x);
-        for i in 0..2 {
+        for (i, t) in total.iter_mut().enumerate() {
             let (ga, gb) = (g(p, i + 1), g(q, i + 1));
             let gb_at = ga + (gb - ga) * (b - p[0]) / (q[0] - p[0]);
-            total[i] += lévêque_segment(p[0], b, ga, gb_at);
+            *t += lévêque_segment(p[0], b, ga, gb_at);
         }
     }
     Some((total[0] / x, total[1] / x))

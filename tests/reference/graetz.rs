@@ -87,8 +87,8 @@
 //! Nu_m,H needs ∫₀^x* Nu_x,H: substituting s = x*^{1/3} turns the integrand 3s² Nu(s³)
 //! into a smooth function (Nu ~ a x^{−1/3} + b + …); it is integrated with 12-point
 //! Gauss–Legendre panels in s (geometric panels, ratio ≤ 1.5, length ≤ 0.05), and ∫₀^{x_L}
-//! for x_L = 1e-9 from the Lévêque form a x^{−1/3} + b with b matched to the series at x_L
-//! (neglected remainder ~ x_L^{4/3}, i.e. < 1e-8 relative for x* ≥ 1e-6).
+//! for x_L = 1e-9 from the Lévêque form a x^{−1/3} + b + c x^{1/3} with b, c matched to the
+//! series at x_L and 8x_L (neglected remainder ~ x_L^{5/3}, < 1e-11 relative for x* ≥ 1e-6).
 //!
 //! Lévêque limit (near-wall linear velocity w ≈ 4y, y = 1 − r, equation yθ_x = θ_yy):
 //! T: θ = ∫₀^η e^{−t³}dt/Γ(4/3), η = y/(9x)^{1/3} → Nu_x,T → a_T x^{−1/3},
@@ -107,8 +107,9 @@
 //! two-point face fluxes 4 r_f Δθ/Δr; march in x* with the L-stable two-stage SDIRK
 //! (Alexander 1977, γ = 1 − 1/√2) on geometric steps Δ ln x* = const from x* = 1e-14.
 //! Both errors behave like N^{−2} and (Δ ln x)^2, so the results of (N, Δ), (2N, Δ),
-//! (N, Δ/2) are Richardson-extrapolated ([`circle_march_extrapolated`]). Nu_m,H uses the
-//! trapezoidal rule in ln x* from x* = 1e-9 plus the Lévêque integral below.
+//! (N, Δ/2) are Richardson-extrapolated ([`circle_march_extrapolated`]). Steps are uniform in
+//! σ = ln x* + x*/0.1 (geometric near the inlet, bounded further down). Nu_m,H uses the
+//! trapezoidal rule in σ from x* = 1e-9 plus the matched Lévêque integral below (as above).
 //!
 //! Sources (all from memory, no material copied): L. Graetz (1883, 1885); W. Nusselt (1910);
 //! M. A. Lévêque (1928); G. M. Brown, AIChE J. 6 (1960) 179 — eigenvalues;
@@ -681,9 +682,7 @@ impl Series {
     pub fn integrate_nu(&self, nu: impl Fn(f64) -> f64, lev: f64, xs: &[f64]) -> Vec<f64> {
         let (gx, gw) = gauss_legendre(12);
         let sl = X_LEVEQUE.cbrt();
-        let nl = nu(X_LEVEQUE);
-        let b = nl - lev / sl;
-        let mut acc = 1.5 * lev * X_LEVEQUE.powf(2.0 / 3.0) + b * X_LEVEQUE;
+        let mut acc = leveque_start(lev, X_LEVEQUE, nu(X_LEVEQUE), nu(8.0 * X_LEVEQUE));
         let mut s0 = sl;
         let mut out = Vec::with_capacity(xs.len());
         for &x in xs {
@@ -722,6 +721,18 @@ impl Series {
             })
             .collect()
     }
+}
+
+/// ∫₀^{x1} Nu dx for Nu = a x^{−1/3} + b + c x^{1/3}, with a the Lévêque coefficient and
+/// b, c matched to Nu(x1) = nu1 and Nu(8x1) = nu2. The neglected next term (∝ x^{1/3} relative
+/// to c) contributes O(x1^{5/3}).
+pub fn leveque_start(a: f64, x1: f64, nu1: f64, nu2: f64) -> f64 {
+    let s1 = x1.cbrt();
+    let y1 = nu1 * s1 - a;
+    let y2 = nu2 * 2.0 * s1 - a;
+    let c = (y2 - 2.0 * y1) / (2.0 * s1 * s1);
+    let b = (y1 - c * s1 * s1) / s1;
+    1.5 * a * x1.powf(2.0 / 3.0) + b * x1 + 0.75 * c * x1.powf(4.0 / 3.0)
 }
 
 /// Gauss–Legendre nodes and weights on [−1, 1] (Newton on P_n).
@@ -820,7 +831,7 @@ pub fn circle_march(stations: &[f64], cells: usize, dlnx: f64) -> Vec<GraetzPoin
 
     // March points: 1e-14 (one step from 0), X_LEVEQUE, then the stations.
     let x_first = 1e-14;
-    let mut targets = vec![x_first, X_LEVEQUE];
+    let mut targets = vec![x_first, X_LEVEQUE, 8.0 * X_LEVEQUE];
     for &s in stations {
         assert!(
             s >= 1e-6 && s > *targets.last().unwrap(),
@@ -848,9 +859,10 @@ pub fn circle_march(stations: &[f64], cells: usize, dlnx: f64) -> Vec<GraetzPoin
         let bulk = 2.0 * hh.iter().zip(mh).map(|(a, b)| a * b).sum::<f64>();
         hh[n] - bulk
     };
-    // ∫₀^{X_LEVEQUE} Nu_x,H dx from the Lévêque form a x^{−1/3} + b, b matched to the march at
-    // X_LEVEQUE (set below); then the trapezoidal rule in σ.
+    // ∫₀^{X_LEVEQUE} Nu_x,H dx from the Lévêque form a x^{−1/3} + b + c x^{1/3}, b and c matched
+    // to the march at X_LEVEQUE and 8·X_LEVEQUE (added below); then the trapezoidal rule in σ.
     let mut integral = 0.0;
+    let mut nu_first = 0.0;
     let mut prev_f = 0.0; // Nu_x,H · dx/dσ at the previous point
     for (ti, &xt) in targets.iter().enumerate() {
         let (steps, s0, ds) = if x == 0.0 {
@@ -898,12 +910,13 @@ pub fn circle_march(stations: &[f64], cells: usize, dlnx: f64) -> Vec<GraetzPoin
             x = xn;
         }
         if ti == 1 {
-            let nu = 1.0 / h_diff(&hh);
-            let b = nu - leveque_h() / x.cbrt();
-            integral = 1.5 * leveque_h() * x.powf(2.0 / 3.0) + b * x;
-            prev_f = dxdsigma(x) * nu;
+            nu_first = 1.0 / h_diff(&hh);
+            prev_f = dxdsigma(x) * nu_first;
         }
-        if ti >= 2 {
+        if ti == 2 {
+            integral += leveque_start(leveque_h(), X_LEVEQUE, nu_first, 1.0 / h_diff(&hh));
+        }
+        if ti >= 3 {
             let tb = 2.0 * th.iter().zip(mt).map(|(a, b)| a * b).sum::<f64>();
             out.push(GraetzPoint {
                 x_star: x,
