@@ -35,8 +35,15 @@ fn table_stations() -> Vec<f64> {
 fn eigenvalues_against_literature() {
     let s = series();
     // Brown 1960 (as tabulated in Shah & London 1978; from memory): T eigenvalues.
-    let brown = [2.7043644, 6.679032, 10.67338, 14.67108, 18.66987];
-    for (m, b) in s.t_numeric.iter().zip(brown) {
+    // Tolerance: half a unit in the last quoted digit.
+    let brown = [
+        (2.7043644, 5e-8),
+        (6.679031, 5e-7),
+        (10.67338, 5e-6),
+        (14.67108, 5e-6),
+        (18.66987, 5e-6),
+    ];
+    for (m, (b, tol)) in s.t_numeric.iter().zip(brown) {
         println!(
             "T λ_{} = {:.10}  (Brown {b})  G = {:.8}",
             m.n,
@@ -44,7 +51,7 @@ fn eigenvalues_against_literature() {
             m.coef * m.lambda * m.lambda / 8.0
         );
         assert!(
-            (m.lambda - b).abs() < 1.5e-6,
+            (m.lambda - b).abs() <= tol,
             "T eigenvalue {} {} vs {b}",
             m.n,
             m.lambda
@@ -54,8 +61,14 @@ fn eigenvalues_against_literature() {
     let g0 = s.t_numeric[0].coef * s.t_numeric[0].lambda.powi(2) / 8.0;
     assert!((g0 - 0.74877).abs() < 1e-5, "G_0 = {g0}");
     // Siegel, Sparrow & Hallman 1958 (from memory): H eigenvalues squared.
-    let ssh = [25.6796, 83.8618, 174.167, 296.536, 450.947];
-    for (m, b) in s.h_numeric.iter().zip(ssh) {
+    let ssh = [
+        (25.6796, 5e-5),
+        (83.8618, 5e-5),
+        (174.167, 5e-4),
+        (296.536, 5e-4),
+        (450.947, 5e-4),
+    ];
+    for (m, (b, tol)) in s.h_numeric.iter().zip(ssh) {
         println!(
             "H λ_{} = {:.10}  λ² = {:.6} (SSH {b})  B = {:.8}",
             m.n,
@@ -64,7 +77,7 @@ fn eigenvalues_against_literature() {
             m.coef
         );
         assert!(
-            rel(m.lambda * m.lambda, b) < 3e-6,
+            (m.lambda * m.lambda - b).abs() <= tol,
             "H eigenvalue {} {} vs {b}",
             m.n,
             m.lambda
@@ -85,6 +98,68 @@ fn eigenvalues_against_literature() {
     );
     assert!((t.lambda - 4.0 * t.n as f64 - 8.0 / 3.0).abs() < 1e-4);
     assert!((h.lambda - 4.0 * h.n as f64 - 4.0 / 3.0).abs() < 1e-2);
+}
+
+/// Kummer's function M(a, b, z) by its power series (adequate for the small z used here).
+fn kummer(a: f64, b: f64, z: f64) -> f64 {
+    let (mut t, mut s, mut big) = (1.0f64, 1.0f64, 1.0f64);
+    for k in 0..2000 {
+        let k = k as f64;
+        t *= (a + k) / (b + k) * z / (k + 1.0);
+        s += t;
+        big = big.max(t.abs());
+        if t.abs() < 1e-18 * big {
+            break;
+        }
+    }
+    s
+}
+
+/// Root of f in [lo, hi] by bisection.
+fn bisect(f: impl Fn(f64) -> f64, mut lo: f64, mut hi: f64) -> f64 {
+    let flo = f(lo);
+    assert!((flo < 0.0) != (f(hi) < 0.0), "no sign change");
+    for _ in 0..200 {
+        let mid = 0.5 * (lo + hi);
+        if (f(mid) < 0.0) == (flo < 0.0) {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+        if hi - lo < 1e-15 * hi {
+            break;
+        }
+    }
+    0.5 * (lo + hi)
+}
+
+#[test]
+fn eigenvalues_against_closed_form() {
+    // Independent closed form: R(r) = e^{−λr²/2} M(1/2 − λ/4, 1, λr²) (Kummer's function).
+    // T: M(a, 1, λ) = 0. H: R'(1) = 0 ⇔ M(a, 1, λ) = 2a M(a + 1, 2, λ) (M' = (a/b) M(a+1, b+1)).
+    // Also the expansion coefficients C_n = −2/(λ_n S_n(1)) of θ = Σ C_n R_n e^{−2λ²x*}
+    // (R_n(0) = 1): 1.47643, −0.80612, 0.58876 (Shah & London 1978, from memory).
+    let s = series();
+    let ft = |l: f64| kummer(0.5 - l / 4.0, 1.0, l);
+    let fh = |l: f64| {
+        let a = 0.5 - l / 4.0;
+        kummer(a, 1.0, l) - 2.0 * a * kummer(a + 1.0, 2.0, l)
+    };
+    for m in &s.t_numeric[..5] {
+        let k = bisect(ft, m.lambda - 1e-3, m.lambda + 1e-3);
+        println!("T λ_{}: shooting {:.15}  Kummer {:.15}", m.n, m.lambda, k);
+        assert!((k - m.lambda).abs() < 1e-11 * k);
+    }
+    for m in &s.h_numeric[..5] {
+        let k = bisect(fh, m.lambda - 1e-3, m.lambda + 1e-3);
+        println!("H λ_{}: shooting {:.15}  Kummer {:.15}", m.n, m.lambda, k);
+        assert!((k - m.lambda).abs() < 1e-11 * k);
+    }
+    for (m, c) in s.t_numeric.iter().zip([1.47643, -0.80612, 0.58876]) {
+        let cn = -2.0 / (m.lambda * shoot(m.lambda).s);
+        println!("C_{} = {cn:.8} (Shah & London {c})", m.n);
+        assert!((cn - c).abs() < 1e-5);
+    }
 }
 
 #[test]
@@ -125,7 +200,8 @@ fn asymptotic_tail() {
             "{bc:?}: fitted leading constant {:.10}, from the Lévêque limit {:.10}",
             f[0], c
         );
-        assert!(rel(f[0], c) < 1e-7);
+        // H converges slowly (corrections ∝ λ^{-2/3}), so its free constant is less sharp.
+        assert!(rel(f[0], c) < if bc == Bc::Dirichlet { 1e-8 } else { 2e-6 });
     }
     // A tail fitted on n ∈ [100, 200] predicts the numerical modes n ∈ (200, 400].
     for (bc, modes) in [(Bc::Dirichlet, &s.t_numeric), (Bc::Neumann, &s.h_numeric)] {
@@ -179,19 +255,21 @@ fn fully_developed_limits_and_decay_rates() {
     assert!(rel(p[3].nu_h_local, nu_h) < 1e-5 && rel(p[2].nu_h_local, nu_h) < 1e-5);
     assert!((p[3].nu_t_local - 3.6568).abs() < 1e-4);
     // Mean values approach the local ones like 1/x*: Nu_m − Nu_∞ → ln(1/A_0)/(4x*) (T).
-    let a0 = series().t_numeric[0].coef;
-    assert!(rel(p[3].nu_t_mean - nu_t, (1.0 / a0).ln() / 8.0) < 1e-9);
+    let (a0, l0) = (series().t_numeric[0].coef, series().t_numeric[0].lambda);
+    assert!(rel(p[3].nu_t_mean - l0 * l0 / 2.0, (1.0 / a0).ln() / 8.0) < 1e-9);
     // Decay rates of the transients.
     let (x1, x2) = (p[0].x_star, p[1].x_star);
     let exact_t = series().t_numeric[0].lambda.powi(2) / 2.0;
     let rate_t = -((p[1].nu_t_local - exact_t) / (p[0].nu_t_local - exact_t)).ln() / (x2 - x1);
-    let want_t = 2.0 * (6.679032f64.powi(2) - 2.7043644f64.powi(2)); // Brown 1960
-    let rate_h = -((p[1].nu_h_local - nu_h) / (p[0].nu_h_local - nu_h)).ln() / (x2 - x1);
+    let want_t = 2.0 * (6.679031f64.powi(2) - 2.7043644f64.powi(2)); // Brown 1960
+                                                                     // H: 11/48 − (Θ_w − Θ_b) = 11/48 − 1/Nu_x,H = Σ B_n e^{−2λ_n² x*} is a clean exponential.
+    let tr = |q: &GraetzPoint| 11.0 / 48.0 - 1.0 / q.nu_h_local;
+    let rate_h = -(tr(&p[1]) / tr(&p[0])).ln() / (x2 - x1);
     let want_h = 2.0 * 25.6796; // Siegel, Sparrow & Hallman 1958: λ_1² = 25.6796 (λ_1 = 5.0675)
     println!("decay of Nu_x,T − Nu_T: {rate_t:.6} vs 2(λ₁² − λ₀²) = {want_t:.6}");
-    println!("decay of Nu_x,H − Nu_H: {rate_h:.6} vs 2λ₁,H² = {want_h:.6}");
+    println!("decay of 11/48 − 1/Nu_x,H: {rate_h:.6} vs 2λ₁,H² = {want_h:.6}");
     assert!(rel(rate_t, want_t) < 1e-5);
-    assert!(rel(rate_h, want_h) < 1e-5);
+    assert!(rel(rate_h, want_h) < 2e-6);
 }
 
 #[test]
@@ -288,7 +366,7 @@ fn leveque_limit() {
     let lh = 1.302 * x.powf(-1.0 / 3.0) - 1.0;
     println!("x* = 1e-6: Nu_x,T = {:.5} (1.077x^-1/3 − 0.7 = {lt:.5}), Nu_x,H = {:.5} (1.302x^-1/3 − 1 = {lh:.5})", p.nu_t_local, p.nu_h_local);
     assert!(rel(p.nu_t_local, lt) < 0.01 && rel(p.nu_h_local, lh) < 0.01);
-    // Leading coefficients: fit Nu·x^{1/3} = a + b x^{1/3} + c x^{2/3} at x = 1e-9, 8e-9, 6.4e-8.
+    // Leading coefficients: fit Nu·x^{1/3} = a + b x^{1/3} + c x^{2/3} + d x at x = 1e-9 … 5.12e-7.
     for (name, f, a_exact, mean) in [
         (
             "T local",
@@ -299,10 +377,10 @@ fn leveque_limit() {
         ("H local", &|x: f64| s.nu_h_local(x), leveque_h(), false),
         ("T mean", &|x: f64| s.nu_t_mean(x), 1.5 * leveque_t(), true),
     ] {
-        let xs = [1e-9, 8e-9, 6.4e-8];
+        let xs = [1e-9, 8e-9, 6.4e-8, 5.12e-7];
         let rows: Vec<Vec<f64>> = xs
             .iter()
-            .map(|x: &f64| vec![1.0, x.cbrt(), x.cbrt().powi(2)])
+            .map(|x: &f64| vec![1.0, x.cbrt(), x.cbrt().powi(2), x.cbrt().powi(3)])
             .collect();
         let y: Vec<f64> = xs.iter().map(|&x| f(x) * x.cbrt()).collect();
         let c = lsq(&rows, &y);
@@ -343,8 +421,9 @@ fn table() {
             q.nu_t_local < q.nu_t_mean && q.nu_h_local < q.nu_h_mean && q.nu_t_local < q.nu_h_local
         );
     }
+    let le = |a: f64, b: f64| a <= b * (1.0 + 1e-13);
     for w in p.windows(2) {
-        assert!(w[1].nu_t_local <= w[0].nu_t_local && w[1].nu_h_local <= w[0].nu_h_local);
-        assert!(w[1].nu_t_mean <= w[0].nu_t_mean && w[1].nu_h_mean <= w[0].nu_h_mean);
+        assert!(le(w[1].nu_t_local, w[0].nu_t_local) && le(w[1].nu_h_local, w[0].nu_h_local));
+        assert!(le(w[1].nu_t_mean, w[0].nu_t_mean) && le(w[1].nu_h_mean, w[0].nu_h_mean));
     }
 }
