@@ -5,9 +5,9 @@
 use canalis::error::Error;
 use canalis::geometry::builtin;
 use canalis::geometry::mask::{FluidColour, MaskMode, MaskOptions, MinFeature};
-use canalis::pipeline::{
-    self, Drive, FluidSpec, Input, Method, OperatingSpec, SolveConfig, VERIFY_CELLS,
-};
+use canalis::input::Input;
+use canalis::operating::{Drive, FluidSpec, OperatingSpec};
+use canalis::pipeline::{self, Method, SolveConfig, VERIFY_CELLS};
 use canalis::{output, report, units, verify};
 use clap::{Parser, Subcommand, ValueEnum};
 use std::io::Write;

@@ -6,7 +6,8 @@ use canalis::geometry::builtin::parse_builtin;
 use canalis::geometry::shapefile::load_shape_file;
 use canalis::geometry::Shape;
 use canalis::grid::Grid;
-use canalis::pipeline::{solve_unit, HeatFigures, Method, UnitOptions, DEFAULT_CELLS};
+use canalis::heat::HeatFigures;
+use canalis::pipeline::{solve_unit, Method, UnitOptions, DEFAULT_CELLS};
 
 fn heat(spec: &str, cells: usize) -> HeatFigures {
     let s = parse_builtin(spec).expect("builtin");

@@ -9,7 +9,9 @@
 use canalis::exact::{ellipse_f_re, ellipse_perimeter};
 use canalis::geometry::mask::{Mask, MaskMode};
 use canalis::grid::Grid;
-use canalis::pipeline::{mask_domain, solve_unit, UnitOptions, UnitSolution};
+use canalis::input::mask_domain;
+use canalis::outcome::UnitSolution;
+use canalis::pipeline::{solve_unit, UnitOptions};
 use serde_json::Value;
 use std::f64::consts::PI;
 use std::path::Path;

@@ -6,7 +6,8 @@ use canalis::geometry::builtin::parse_builtin;
 use canalis::geometry::mask::Mask;
 use canalis::geometry::{Domain, Primitive, Shape};
 use canalis::grid::Grid;
-use canalis::pipeline::{solve_unit, Method, UnitOptions, UnitSolution};
+use canalis::outcome::UnitSolution;
+use canalis::pipeline::{solve_unit, Method, UnitOptions};
 
 fn solve(domain: &dyn Domain, cells: usize, method: Method, correction: bool) -> UnitSolution {
     let grid = match domain.lattice() {

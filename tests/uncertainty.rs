@@ -7,7 +7,7 @@
 //! - The cheap estimate without `--accuracy`: present, marked, and covering the true error.
 //! - Masks (binary and anti-aliased PNGs of circles 100 and 200 px across written here, in
 //!   `pixels` and `traced` mode, cheap estimate and study): the reported uncertainty, from the
-//!   image-resolution study of `pipeline::run_image_study`, covers the difference to the exact
+//!   image-resolution study of `study::runs::run_image_study`, covers the difference to the exact
 //!   value 16 and is within 30 times of it.
 //! - One CLI run: the JSON keys of the `uncertainty` object and the ± in the summary.
 //!
@@ -16,7 +16,9 @@
 
 use canalis::exact::{self, ExactCase};
 use canalis::geometry::mask::{MaskMode, MaskOptions};
-use canalis::pipeline::{self, ErrorEstimate, Input, Outcome, SolveConfig};
+use canalis::input::Input;
+use canalis::outcome::Outcome;
+use canalis::pipeline::{self, ErrorEstimate, SolveConfig};
 use canalis::study::{Behaviour, Estimate, Kind};
 use std::path::Path;
 use std::process::Command;

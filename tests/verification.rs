@@ -14,7 +14,7 @@ mod common;
 
 use canalis::exact::{self, ExactCase};
 use canalis::geometry::{Primitive, Shape};
-use canalis::pipeline::UnitSolution;
+use canalis::outcome::UnitSolution;
 use common::{rel_err, solve_case, Table};
 use std::f64::consts::PI;
 

@@ -17,7 +17,7 @@ pub mod fields;
 pub mod png;
 
 use crate::error::{Error, Result};
-use crate::pipeline::Outcome;
+use crate::outcome::Outcome;
 use crate::report;
 use std::path::{Path, PathBuf};
 

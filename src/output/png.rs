@@ -28,7 +28,7 @@ use super::{display_unit, fields, Scale};
 use crate::error::{Error, Result};
 use crate::geometry::{Point, WallSample};
 use crate::grid::{Classified, Dir};
-use crate::pipeline::Outcome;
+use crate::outcome::Outcome;
 use ab_glyph::{point, Font, FontRef, PxScale, ScaleFont};
 
 /// The viridis colour map, 256 entries of sRGB in 0..1 (mpl-colormaps, CC0; see the module doc).

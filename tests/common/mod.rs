@@ -6,7 +6,8 @@
 
 use canalis::geometry::Shape;
 use canalis::grid::Grid;
-use canalis::pipeline::{solve_unit, UnitOptions, UnitSolution};
+use canalis::outcome::UnitSolution;
+use canalis::pipeline::{solve_unit, UnitOptions};
 
 /// Solves the unit problem −∇²ũ = 1, ũ = 0 on the walls, of `shape` (true curves, so the wall
 /// points serve as data of the shear fit) on a grid of `cells` cells across the longer side of

@@ -2,9 +2,11 @@
 //! grids.
 //!
 //! Owns: Richardson extrapolation with the observed order, the Grid Convergence Index (GCI), the
-//! detection of oscillatory and non-monotone convergence, the refinement schedule (cells of the k-th
-//! grid, the placement of the grids) and the result types the report shows. Does not solve anything: the
-//! pipeline runs the grids ([`crate::pipeline::run`]) and hands the values here.
+//! detection of oscillatory and non-monotone convergence, the refinement schedule (cells of the
+//! k-th grid, the placement of the grids) and the result types the report shows.
+//!
+//! Invariant: this file solves nothing. Its submodule [`runs`] runs the grids (through
+//! `pipeline::run_once`) and hands the values here.
 //!
 //! # The procedure
 //!
@@ -46,6 +48,8 @@
 //! - Two grids only (the cheap estimate): the formal order 2 is assumed and F_s = 3 (Roache
 //!   1994, for two-grid studies).
 //! - Changes at the level of round-off give the floor [`ROUND_OFF_FLOOR`] instead of zero.
+
+pub mod runs;
 
 /// Formal order of accuracy of the cut-cell scheme for the figures of merit (Gibou et al. 2002,
 /// second order; DEVELOPERS.md, numerical notes).
