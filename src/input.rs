@@ -1,14 +1,15 @@
 //! Where a cross-section comes from, and its loading into a [`Domain`].
 //!
-//! Owns: [`Input`] (a shape file, a built-in shape, a mask image, an SVG drawing), the loading
-//! of each into a domain with its label and warnings ([`Input::load`]), and the domain of a
-//! mask in either mode ([`mask_domain`]: the traced contour or the pixel staircase).
+//! Owns: [`Input`] (a shape file, a built-in shape, a mask image, an SVG drawing), which of them
+//! a command-line argument names ([`InputKind::of`]), the loading of each into a domain with its
+//! label and warnings ([`Input::load`]), and the domain of a mask in either mode
+//! ([`mask_domain`]: the traced contour or the pixel staircase).
 //!
 //! Invariant: knows no grid and no solver; parsing of each format stays in
 //! [`crate::geometry`].
 
 use crate::error::{Error, Result};
-use crate::geometry::builtin::parse_builtin;
+use crate::geometry::builtin::{looks_like_builtin, parse_builtin};
 use crate::geometry::mask::{Mask, MaskMode, MaskOptions};
 use crate::geometry::shapefile::load_shape_file;
 use crate::geometry::svg::load_svg;
@@ -27,6 +28,53 @@ pub enum Input {
     Mask { path: PathBuf, options: MaskOptions },
     /// An SVG drawing; `scale` is metres per user unit (overrides the document's size).
     Svg { path: PathBuf, scale: Option<f64> },
+}
+
+/// Which kind of input a `SHAPE` argument names, judged by its form (the options each kind
+/// needs, such as a mask's pixel size, are the caller's to add).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum InputKind {
+    /// `name:key=value,...` with a known name ([`Input::Builtin`]).
+    Builtin,
+    /// `*.toml` ([`Input::ShapeFile`]).
+    ShapeFile,
+    /// `*.png`, `*.bmp`, `*.tif`, `*.tiff` ([`Input::Mask`]).
+    Mask,
+    /// `*.svg` ([`Input::Svg`]).
+    Svg,
+}
+
+impl InputKind {
+    /// The kind of `arg`. A built-in spec wins unless a file of that name exists; otherwise the
+    /// extension decides (any case). An argument with a colon that is no file goes to the
+    /// built-in parser even with an unknown name, so that its message lists the known names.
+    /// Anything else is an error naming `SHAPE`.
+    pub fn of(arg: &str) -> Result<InputKind> {
+        let lower = arg.to_ascii_lowercase();
+        let ext = Path::new(&lower)
+            .extension()
+            .and_then(|e| e.to_str())
+            .unwrap_or("");
+        if looks_like_builtin(arg) {
+            Ok(InputKind::Builtin)
+        } else if ext == "toml" {
+            Ok(InputKind::ShapeFile)
+        } else if matches!(ext, "png" | "bmp" | "tif" | "tiff") {
+            Ok(InputKind::Mask)
+        } else if ext == "svg" {
+            Ok(InputKind::Svg)
+        } else if arg.contains(':') && !Path::new(arg).exists() {
+            Ok(InputKind::Builtin)
+        } else {
+            Err(Error::param(
+                "SHAPE",
+                format!(
+                    "'{arg}' is neither a shape file (*.toml), a mask image (*.png, *.bmp, \
+                     *.tif), a drawing (*.svg) nor a built-in shape (see `canalis shapes`)"
+                ),
+            ))
+        }
+    }
 }
 
 /// A cross-section loaded from its [`Input`], ready to be laid on a grid.
@@ -164,3 +212,27 @@ pub fn mask_domain(mask: Mask, mode: MaskMode) -> (Box<dyn Domain>, bool, Vec<St
 
 /// Whether traced mask walls are treated as exact walls (measured; see [`mask_domain`]).
 const TRACED_EXACT_WALL: bool = true;
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn kinds_by_form() {
+        assert_eq!(InputKind::of("circle:d=8mm").unwrap(), InputKind::Builtin);
+        assert_eq!(InputKind::of("ducts/a.toml").unwrap(), InputKind::ShapeFile);
+        assert_eq!(InputKind::of("scan.PNG").unwrap(), InputKind::Mask);
+        assert_eq!(InputKind::of("scan.tiff").unwrap(), InputKind::Mask);
+        assert_eq!(InputKind::of("plate.svg").unwrap(), InputKind::Svg);
+        // An unknown built-in name still reaches the built-in parser, whose message lists the
+        // known names.
+        assert_eq!(InputKind::of("blob:d=8mm").unwrap(), InputKind::Builtin);
+        match InputKind::of("notes.txt") {
+            Err(Error::InvalidParameter { parameter, message }) => {
+                assert_eq!(parameter, "SHAPE");
+                assert!(message.contains("notes.txt"), "{message}");
+            }
+            other => panic!("{other:?}"),
+        }
+    }
+}

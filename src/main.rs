@@ -5,13 +5,13 @@
 use canalis::error::Error;
 use canalis::geometry::builtin;
 use canalis::geometry::mask::{FluidColour, MaskMode, MaskOptions, MinFeature};
-use canalis::input::Input;
+use canalis::input::{Input, InputKind};
 use canalis::operating::{Drive, FluidSpec, OperatingSpec};
 use canalis::pipeline::{self, Method, SolveConfig, VERIFY_CELLS};
 use canalis::{output, report, units, verify};
 use clap::{Parser, Subcommand, ValueEnum};
 use std::io::Write;
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 use std::process::ExitCode;
 
 #[derive(Parser)]
@@ -191,75 +191,60 @@ fn parse_bytes(text: &str) -> Result<u64, Error> {
 
 /// Raw arguments → validated configuration.
 fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
-    let lower = a.shape.to_ascii_lowercase();
-    let ext = Path::new(&lower)
-        .extension()
-        .and_then(|e| e.to_str())
-        .unwrap_or("");
-    let input = if builtin::looks_like_builtin(&a.shape) {
-        Input::Builtin(a.shape.clone())
-    } else if ext == "toml" {
-        Input::ShapeFile(PathBuf::from(&a.shape))
-    } else if matches!(ext, "png" | "bmp" | "tif" | "tiff") {
-        let pixel = a.pixel.as_deref().ok_or_else(|| {
-            Error::param(
-                "--pixel",
-                format!(
-                    "a mask image needs the physical size of one pixel, e.g. --pixel 0.02mm ({})",
-                    a.shape
-                ),
-            )
-        })?;
-        let pixel = units::parse_length(pixel, "--pixel")?;
-        if pixel <= 0.0 || pixel.is_nan() {
-            return Err(Error::param("--pixel", "must be a positive length"));
-        }
-        Input::Mask {
-            path: PathBuf::from(&a.shape),
-            options: MaskOptions {
-                fluid: match a.mask_fluid {
-                    MaskFluid::Dark => FluidColour::Dark,
-                    MaskFluid::Light => FluidColour::Light,
-                },
-                threshold: a.threshold,
-                pixel,
-                mode: match a.mask_mode {
-                    MaskModeArg::Traced => MaskMode::Traced,
-                    MaskModeArg::Pixels => MaskMode::Pixels,
-                },
-                min_feature: match a.min_feature.as_deref() {
-                    Some(text) => MinFeature::parse(text)?,
-                    None => MinFeature::default(),
-                },
-            },
-        }
-    } else if ext == "svg" {
-        let scale = match a.scale.as_deref() {
-            Some(text) => {
-                let s = units::parse_length(text, "--scale")?;
-                if !(s.is_finite() && s > 0.0) {
-                    return Err(Error::param("--scale", "must be a positive length"));
-                }
-                Some(s)
+    let input = match InputKind::of(&a.shape)? {
+        InputKind::Builtin => Input::Builtin(a.shape.clone()),
+        InputKind::ShapeFile => Input::ShapeFile(PathBuf::from(&a.shape)),
+        InputKind::Mask => {
+            let pixel = a.pixel.as_deref().ok_or_else(|| {
+                Error::param(
+                    "--pixel",
+                    format!(
+                        "a mask image needs the physical size of one pixel, e.g. --pixel 0.02mm \
+                         ({})",
+                        a.shape
+                    ),
+                )
+            })?;
+            let pixel = units::parse_length(pixel, "--pixel")?;
+            if pixel <= 0.0 || pixel.is_nan() {
+                return Err(Error::param("--pixel", "must be a positive length"));
             }
-            None => None,
-        };
-        Input::Svg {
-            path: PathBuf::from(&a.shape),
-            scale,
+            Input::Mask {
+                path: PathBuf::from(&a.shape),
+                options: MaskOptions {
+                    fluid: match a.mask_fluid {
+                        MaskFluid::Dark => FluidColour::Dark,
+                        MaskFluid::Light => FluidColour::Light,
+                    },
+                    threshold: a.threshold,
+                    pixel,
+                    mode: match a.mask_mode {
+                        MaskModeArg::Traced => MaskMode::Traced,
+                        MaskModeArg::Pixels => MaskMode::Pixels,
+                    },
+                    min_feature: match a.min_feature.as_deref() {
+                        Some(text) => MinFeature::parse(text)?,
+                        None => MinFeature::default(),
+                    },
+                },
+            }
         }
-    } else if a.shape.contains(':') && !Path::new(&a.shape).exists() {
-        // Looks like a built-in spec with an unknown name: let the parser say which names exist.
-        Input::Builtin(a.shape.clone())
-    } else {
-        return Err(Error::param(
-            "SHAPE",
-            format!(
-                "'{}' is neither a shape file (*.toml), a mask image (*.png, *.bmp, *.tif) nor a \
-                 built-in shape (see `canalis shapes`)",
-                a.shape
-            ),
-        ));
+        InputKind::Svg => {
+            let scale = match a.scale.as_deref() {
+                Some(text) => {
+                    let s = units::parse_length(text, "--scale")?;
+                    if !(s.is_finite() && s > 0.0) {
+                        return Err(Error::param("--scale", "must be a positive length"));
+                    }
+                    Some(s)
+                }
+                None => None,
+            };
+            Input::Svg {
+                path: PathBuf::from(&a.shape),
+                scale,
+            }
+        }
     };
     let mut c = SolveConfig::new(input);
     c.cells = a.cells;
