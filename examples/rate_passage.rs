@@ -22,6 +22,7 @@ use canalis::fluids::water;
 use canalis::geometry::shapefile::load_shape_file;
 use canalis::grid::Grid;
 use canalis::pipeline::solve_unit;
+use canalis::post::WallKind;
 use std::path::PathBuf;
 use std::process::ExitCode;
 
@@ -53,8 +54,8 @@ fn run() -> canalis::Result<()> {
     let shape = load_shape_file(&path)?;
     let (lo, hi) = shape.bbox();
     let grid = Grid::covering(lo, hi, CELLS);
-    // `true`: the walls are the exact curves of the shape file, not a traced bitmap.
-    let sol = solve_unit(&shape, grid, true, &Default::default())?;
+    // The walls are the exact curves of the shape file, not a mask's pixel staircase.
+    let sol = solve_unit(&shape, grid, WallKind::Exact, &Default::default())?;
     let f = &sol.figures;
 
     println!("{}", path.display());

@@ -15,6 +15,7 @@ use crate::geometry::shapefile::load_shape_file;
 use crate::geometry::svg::load_svg;
 use crate::geometry::trace::Traced;
 use crate::geometry::Domain;
+use crate::post::WallKind;
 use std::path::{Path, PathBuf};
 
 /// Where the cross-section comes from.
@@ -82,9 +83,8 @@ pub struct Loaded {
     /// A label for the cross-section: the shape's own name, else the file or the spec.
     pub name: String,
     pub domain: Box<dyn Domain>,
-    /// Whether the walls may serve as exact walls (see [`mask_domain`] and
-    /// [`crate::pipeline::solve_unit`]).
-    pub exact_wall: bool,
+    /// What the walls are to the local fits (see [`mask_domain`]).
+    pub wall_kind: WallKind,
     /// Notes on the input (an SVG's scale, a mask's dropped specks, ...).
     pub warnings: Vec<String>,
 }
@@ -104,14 +104,14 @@ impl Input {
     /// (no wetted wall, no area) is an error naming the input.
     pub fn load(&self) -> Result<Loaded> {
         let mut warnings = Vec::new();
-        let (name, domain, exact_wall): (String, Box<dyn Domain>, bool) = match self {
+        let (name, domain, wall_kind): (String, Box<dyn Domain>, WallKind) = match self {
             Input::ShapeFile(path) => {
                 let shape = load_shape_file(path)?;
                 let name = shape
                     .name
                     .clone()
                     .unwrap_or_else(|| path.display().to_string());
-                (name, Box::new(shape), true)
+                (name, Box::new(shape), WallKind::Exact)
             }
             Input::Svg { path, scale } => {
                 let (shape, w) = load_svg(path, *scale)?;
@@ -120,17 +120,17 @@ impl Input {
                     .name
                     .clone()
                     .unwrap_or_else(|| path.display().to_string());
-                (name, Box::new(shape), true)
+                (name, Box::new(shape), WallKind::Exact)
             }
             Input::Builtin(spec) => {
                 let shape = parse_builtin(spec)?;
                 let name = shape.name.clone().unwrap_or_else(|| spec.clone());
-                (name, Box::new(shape), true)
+                (name, Box::new(shape), WallKind::Exact)
             }
             Input::Mask { path, options } => {
-                let (domain, exact_wall, w) = load_mask_domain(path, options)?;
+                let (domain, wall_kind, w) = load_mask_domain(path, options)?;
                 warnings.extend(w);
-                (path.display().to_string(), domain, exact_wall)
+                (path.display().to_string(), domain, wall_kind)
             }
         };
         let (lo, hi) = domain.bbox();
@@ -145,7 +145,7 @@ impl Input {
         Ok(Loaded {
             name,
             domain,
-            exact_wall,
+            wall_kind,
             warnings,
         })
     }
@@ -162,19 +162,18 @@ pub fn load_mask(path: &Path, options: &MaskOptions) -> Result<(Mask, Vec<String
 }
 
 /// Reads a mask image and builds the domain its options ask for: [`mask_domain`] after
-/// [`load_mask`]. Returns the domain, whether its walls may serve as exact walls (see
-/// [`crate::pipeline::solve_unit`]) and the warnings.
+/// [`load_mask`]. Returns the domain, what its walls are to the local fits and the warnings.
 pub fn load_mask_domain(
     path: &Path,
     options: &MaskOptions,
-) -> Result<(Box<dyn Domain>, bool, Vec<String>)> {
+) -> Result<(Box<dyn Domain>, WallKind, Vec<String>)> {
     let (mask, mut warnings) = load_mask(path, options)?;
-    let (domain, exact_wall, w) = mask_domain(mask, options.mode);
+    let (domain, wall_kind, w) = mask_domain(mask, options.mode);
     warnings.extend(w);
-    Ok((domain, exact_wall, warnings))
+    Ok((domain, wall_kind, warnings))
 }
 
-/// The domain of a mask in the given mode, whether its walls count as exact, and a note on
+/// The domain of a mask in the given mode, what its walls are to the local fits, and a note on
 /// what the walls are.
 ///
 /// Traced walls are exact walls to the solver: the wall correction and the wall-shear fit with
@@ -182,11 +181,11 @@ pub fn load_mask_domain(
 /// polyline is to within its sub-pixel vertices) measured better on traced circles and
 /// ellipses than without them (tests/mask.rs). The staircase of `pixels` mode is not: it has a
 /// re-entrant corner at every step.
-pub fn mask_domain(mask: Mask, mode: MaskMode) -> (Box<dyn Domain>, bool, Vec<String>) {
+pub fn mask_domain(mask: Mask, mode: MaskMode) -> (Box<dyn Domain>, WallKind, Vec<String>) {
     match mode {
         MaskMode::Pixels => (
             Box::new(mask),
-            false,
+            WallKind::Staircase,
             vec![
                 "mask input: the walls are the pixel faces (a staircase); the perimeter is a \
                  sub-pixel contour estimate and the local wall shear is approximate"
@@ -205,13 +204,13 @@ pub fn mask_domain(mask: Mask, mode: MaskMode) -> (Box<dyn Domain>, bool, Vec<St
                     100.0 * st.binary_vertices as f64 / st.vertices as f64
                 ));
             }
-            (Box::new(traced), TRACED_EXACT_WALL, notes)
+            (Box::new(traced), TRACED_WALLS, notes)
         }
     }
 }
 
-/// Whether traced mask walls are treated as exact walls (measured; see [`mask_domain`]).
-const TRACED_EXACT_WALL: bool = true;
+/// Traced mask walls are treated as exact walls (measured; see [`mask_domain`]).
+const TRACED_WALLS: WallKind = WallKind::Exact;
 
 #[cfg(test)]
 mod tests {

@@ -18,7 +18,7 @@ use crate::multigrid::Multigrid;
 use crate::operating::{operating_point, OperatingSpec};
 use crate::operator::{assemble, unit_rhs, GridOperator, Numbering};
 use crate::outcome::{Outcome, Timings, UnitSolution};
-use crate::post;
+use crate::post::{self, WallKind};
 use crate::solver::{
     pcg_in, CgInfo, CgParams, CgWorkspace, Identity, Jacobi, LinearOperator, Monitor,
     Preconditioner, Silent,
@@ -87,22 +87,23 @@ impl Default for UnitOptions {
 }
 
 /// Solves −∇²ũ = 1 in the fluid of `domain`, ũ = 0 on its walls, on `grid`, and evaluates the
-/// figures of merit. `exact_wall` says the domain's walls are the true curves (not a mask's
-/// traced contour), so the wall points themselves may serve as data in the shear fit.
+/// figures of merit. `wall_kind` says what the domain's walls are to the local fits: exact
+/// curves (a shape's, or a mask's traced contour), whose wall points serve as data of the shear
+/// fit and which get the wall correction, or a mask's pixel staircase.
 pub fn solve_unit(
     domain: &dyn Domain,
     grid: Grid,
-    exact_wall: bool,
+    wall_kind: WallKind,
     options: &UnitOptions,
 ) -> Result<UnitSolution> {
-    solve_unit_monitored(domain, grid, exact_wall, options, &Silent)
+    solve_unit_monitored(domain, grid, wall_kind, options, &Silent)
 }
 
 /// [`solve_unit`] reporting the solver's iterations to `monitor` (progress display).
 pub fn solve_unit_monitored(
     domain: &dyn Domain,
     grid: Grid,
-    exact_wall: bool,
+    wall_kind: WallKind,
     options: &UnitOptions,
     monitor: &dyn Monitor,
 ) -> Result<UnitSolution> {
@@ -110,16 +111,16 @@ pub fn solve_unit_monitored(
     // between threads, and a solve starts dozens per CG iteration (a V-cycle at a million
     // unknowns on one thread: 37 ms from a worker, 46–50 ms from a caller's own thread).
     if rayon::current_thread_index().is_some() {
-        solve_unit_on_worker(domain, grid, exact_wall, options, monitor)
+        solve_unit_on_worker(domain, grid, wall_kind, options, monitor)
     } else {
-        rayon::scope(|_| solve_unit_on_worker(domain, grid, exact_wall, options, monitor))
+        rayon::scope(|_| solve_unit_on_worker(domain, grid, wall_kind, options, monitor))
     }
 }
 
 fn solve_unit_on_worker(
     domain: &dyn Domain,
     grid: Grid,
-    exact_wall: bool,
+    wall_kind: WallKind,
     options: &UnitOptions,
     monitor: &dyn Monitor,
 ) -> Result<UnitSolution> {
@@ -201,7 +202,7 @@ fn solve_unit_on_worker(
         }
     };
     let mut u = vec![0.0; numbering.len()];
-    let correct = options.wall_correction && exact_wall;
+    let correct = options.wall_correction && wall_kind == WallKind::Exact;
     // When the correction follows, the first solve only feeds the local fits of the wall
     // correction, whose second derivatives it needs to a few digits: the error left by
     // multigrid-preconditioned CG is smooth, so a relative residual of 1e-6 changes the
@@ -235,7 +236,7 @@ fn solve_unit_on_worker(
     }
     let t3 = Instant::now();
     let walls = domain.walls(0.5 * grid.h);
-    let shear = post::wall_shear(&classified, &numbering, &u, &walls, exact_wall);
+    let shear = post::wall_shear(&classified, &numbering, &u, &walls, wall_kind);
     let figures = post::figures(&classified, &numbering, &u, &walls, &shear);
     let passages = post::passages(&classified, &numbering, &u, &walls);
     let t4 = Instant::now();
@@ -390,7 +391,7 @@ pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outc
 pub(crate) fn run_once(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outcome> {
     let start = Instant::now();
     let loaded = config.input.load()?;
-    let (name, domain, exact_wall) = (loaded.name, loaded.domain, loaded.exact_wall);
+    let (name, domain, wall_kind) = (loaded.name, loaded.domain, loaded.wall_kind);
     let mut warnings = loaded.warnings;
     let (lo, hi) = domain.bbox();
     let grid = match domain.lattice() {
@@ -439,7 +440,7 @@ pub(crate) fn run_once(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Ou
             ),
         ));
     }
-    let unit = solve_unit_monitored(domain.as_ref(), grid, exact_wall, &config.unit, monitor)?;
+    let unit = solve_unit_monitored(domain.as_ref(), grid, wall_kind, &config.unit, monitor)?;
     let fluid_nodes = unit.numbering.len();
     if fluid_nodes < MIN_FLUID_NODES {
         return Err(Error::param(

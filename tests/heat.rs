@@ -8,6 +8,7 @@ use canalis::geometry::Shape;
 use canalis::grid::Grid;
 use canalis::heat::HeatFigures;
 use canalis::pipeline::{solve_unit, Method, UnitOptions, DEFAULT_CELLS};
+use canalis::post::WallKind;
 
 fn heat(spec: &str, cells: usize) -> HeatFigures {
     let s = parse_builtin(spec).expect("builtin");
@@ -15,7 +16,7 @@ fn heat(spec: &str, cells: usize) -> HeatFigures {
     let sol = solve_unit(
         &s,
         Grid::covering(lo, hi, cells),
-        true,
+        WallKind::Exact,
         &UnitOptions::default(),
     )
     .expect("solve");
@@ -109,7 +110,7 @@ fn shape_heat(s: &Shape, cells: usize, method: Method) -> HeatFigures {
         method,
         ..UnitOptions::default()
     };
-    let sol = solve_unit(s, Grid::covering(lo, hi, cells), true, &opts).expect("solve");
+    let sol = solve_unit(s, Grid::covering(lo, hi, cells), WallKind::Exact, &opts).expect("solve");
     sol.heat.expect("heat transfer is on by default")
 }
 

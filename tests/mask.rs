@@ -51,7 +51,7 @@ fn ellipse_mask(n: usize, c: [f64; 2], a: f64, b: f64, exact: bool) -> Mask {
 /// Solves the unit problem on the domain the pipeline builds for `mask` in `mode`, on `cells`
 /// cells across (the pixel grid in pixels mode), flow only.
 fn solve_mask(mask: Mask, mode: MaskMode, cells: usize) -> UnitSolution {
-    let (domain, exact_wall, _notes) = mask_domain(mask, mode);
+    let (domain, wall_kind, _notes) = mask_domain(mask, mode);
     let grid = match domain.lattice() {
         Some(l) => Grid::from_lattice(l),
         None => {
@@ -63,7 +63,7 @@ fn solve_mask(mask: Mask, mode: MaskMode, cells: usize) -> UnitSolution {
         heat: false,
         ..Default::default()
     };
-    solve_unit(domain.as_ref(), grid, exact_wall, &opts).expect("solve")
+    solve_unit(domain.as_ref(), grid, wall_kind, &opts).expect("solve")
 }
 
 fn rel(v: f64, r: f64) -> f64 {

@@ -538,6 +538,7 @@ fn mask_of_a_circle_400_pixels() {
     use canalis::geometry::Domain;
     use canalis::grid::Grid;
     use canalis::pipeline::{solve_unit, UnitOptions};
+    use canalis::post::WallKind;
     let (n, d) = (420usize, 400.0);
     let c = [210.3, 209.6];
     let (mask, _warnings) = Mask::from_fn(n, n, 1e-5, |col, row| {
@@ -550,7 +551,7 @@ fn mask_of_a_circle_400_pixels() {
         heat: false,
         ..Default::default()
     };
-    let sol = solve_unit(&mask, grid, false, &opts).expect("solve");
+    let sol = solve_unit(&mask, grid, WallKind::Staircase, &opts).expect("solve");
     let f = &sol.figures;
     let p_exact = std::f64::consts::PI * d * 1e-5;
     println!(

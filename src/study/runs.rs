@@ -367,7 +367,7 @@ fn solve_image(
 ) -> Result<(f64, usize, Values)> {
     let coarse = mask.coarsened(factor)?;
     let h = coarse.pixel();
-    let (domain, exact_wall, _) = mask_domain(coarse, mode);
+    let (domain, wall_kind, _) = mask_domain(coarse, mode);
     let grid = match domain.lattice() {
         Some(l) => Grid::from_lattice(l),
         None => {
@@ -386,7 +386,7 @@ fn solve_image(
         }
     };
     let cells = grid.cells().0.max(grid.cells().1);
-    let unit = solve_unit_monitored(domain.as_ref(), grid, exact_wall, &config.unit, monitor)?;
+    let unit = solve_unit_monitored(domain.as_ref(), grid, wall_kind, &config.unit, monitor)?;
     if unit.numbering.len() < MIN_FLUID_NODES {
         return Err(Error::param(
             "--cells",

@@ -8,6 +8,7 @@ use canalis::geometry::Shape;
 use canalis::grid::Grid;
 use canalis::outcome::UnitSolution;
 use canalis::pipeline::{solve_unit, UnitOptions};
+use canalis::post::WallKind;
 
 /// Solves the unit problem −∇²ũ = 1, ũ = 0 on the walls, of `shape` (true curves, so the wall
 /// points serve as data of the shear fit) on a grid of `cells` cells across the longer side of
@@ -20,7 +21,7 @@ pub fn solve_case(shape: &Shape, cells: usize) -> UnitSolution {
         heat: false,
         ..Default::default()
     };
-    match solve_unit(shape, grid, true, &opts) {
+    match solve_unit(shape, grid, WallKind::Exact, &opts) {
         Ok(sol) => sol,
         Err(e) => panic!("solving {:?} on {cells} cells failed: {e}", shape.name),
     }
