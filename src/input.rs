@@ -1,9 +1,9 @@
 //! Where a cross-section comes from, and its loading into a [`Domain`].
 //!
-//! Owns: [`Input`] (a shape file, a built-in shape, a mask image, an SVG drawing), which of them
-//! a command-line argument names ([`InputKind::of`]), the loading of each into a domain with its
-//! label and warnings ([`Input::load`]), and the domain of a mask in either mode
-//! ([`mask_domain`]: the traced contour or the pixel staircase).
+//! Owns: [`Input`] (a shape file, a built-in shape, a mask image, an SVG drawing, or a shape
+//! built in memory), which of them a command-line argument names ([`InputKind::of`]), the
+//! loading of each into a domain with its label and warnings ([`Input::load`]), and the domain
+//! of a mask in either mode ([`mask_domain`]: the traced contour or the pixel staircase).
 //!
 //! Invariant: knows no grid and no solver; parsing of each format stays in
 //! [`crate::geometry`].
@@ -14,7 +14,7 @@ use crate::geometry::mask::{Mask, MaskMode, MaskOptions};
 use crate::geometry::shapefile::load_shape_file;
 use crate::geometry::svg::load_svg;
 use crate::geometry::trace::Traced;
-use crate::geometry::Domain;
+use crate::geometry::{Domain, Shape};
 use crate::post::WallKind;
 use std::path::{Path, PathBuf};
 
@@ -29,6 +29,9 @@ pub enum Input {
     Mask { path: PathBuf, options: MaskOptions },
     /// An SVG drawing; `scale` is metres per user unit (overrides the document's size).
     Svg { path: PathBuf, scale: Option<f64> },
+    /// A cross-section built in memory by a library caller (checked by [`Shape::validate`]
+    /// when loaded).
+    Shape(Shape),
 }
 
 /// Which kind of input a `SHAPE` argument names, judged by its form (the options each kind
@@ -78,6 +81,9 @@ impl InputKind {
     }
 }
 
+/// Label and origin of an unnamed in-memory shape.
+const IN_MEMORY: &str = "the given shape";
+
 /// A cross-section loaded from its [`Input`], ready to be laid on a grid.
 pub struct Loaded {
     /// A label for the cross-section: the shape's own name, else the file or the spec.
@@ -97,6 +103,7 @@ impl Input {
                 p.display().to_string()
             }
             Input::Builtin(spec) => spec.clone(),
+            Input::Shape(shape) => shape.name.clone().unwrap_or_else(|| IN_MEMORY.to_string()),
         }
     }
 
@@ -126,6 +133,10 @@ impl Input {
                 let shape = parse_builtin(spec)?;
                 let name = shape.name.clone().unwrap_or_else(|| spec.clone());
                 (name, Box::new(shape), WallKind::Exact)
+            }
+            Input::Shape(shape) => {
+                shape.validate()?;
+                (self.origin(), Box::new(shape.clone()), WallKind::Exact)
             }
             Input::Mask { path, options } => {
                 let (domain, wall_kind, w) = load_mask_domain(path, options)?;

@@ -189,7 +189,7 @@ fn parse_bytes(text: &str) -> Result<u64, Error> {
     Ok((v * f) as u64)
 }
 
-/// Raw arguments → validated configuration.
+/// Raw arguments → validated configuration ([`SolveConfig::validate`]).
 fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
     let input = match InputKind::of(&a.shape)? {
         InputKind::Builtin => Input::Builtin(a.shape.clone()),
@@ -206,9 +206,6 @@ fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
                 )
             })?;
             let pixel = units::parse_length(pixel, "--pixel")?;
-            if pixel <= 0.0 || pixel.is_nan() {
-                return Err(Error::param("--pixel", "must be a positive length"));
-            }
             Input::Mask {
                 path: PathBuf::from(&a.shape),
                 options: MaskOptions {
@@ -230,16 +227,11 @@ fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
             }
         }
         InputKind::Svg => {
-            let scale = match a.scale.as_deref() {
-                Some(text) => {
-                    let s = units::parse_length(text, "--scale")?;
-                    if !(s.is_finite() && s > 0.0) {
-                        return Err(Error::param("--scale", "must be a positive length"));
-                    }
-                    Some(s)
-                }
-                None => None,
-            };
+            let scale = a
+                .scale
+                .as_deref()
+                .map(|text| units::parse_length(text, "--scale"))
+                .transpose()?;
             Input::Svg {
                 path: PathBuf::from(&a.shape),
                 scale,
@@ -254,16 +246,13 @@ fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
         MethodArg::Plain => Method::Plain,
     };
     if let Some(n) = a.max_iterations {
-        if n == 0 {
-            return Err(Error::param("--max-iterations", "must be at least 1"));
-        }
         c.unit.cg.max_iterations = n;
     }
     if let Some(m) = &a.max_memory {
         c.memory_limit = parse_bytes(m)?;
     }
     if let Some(tol) = a.accuracy {
-        // Checked by the pipeline (a fraction between 0 and 1).
+        // A fraction between 0 and 1 (SolveConfig::validate).
         c.error_estimate = pipeline::ErrorEstimate::Accuracy(tol);
     }
     let drive = match (&a.dpdx, &a.flow) {
@@ -361,6 +350,8 @@ fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
         }
         (None, None) => None,
     };
+    // Every value checked now, before the output directory or the geometry is looked at.
+    c.validate()?;
     Ok(c)
 }
 

@@ -3,8 +3,9 @@
 //! Owns: what drives the flow ([`Drive`]: a pressure gradient or a flow rate), the fluid
 //! ([`FluidSpec`]: given properties or a named property model), the passage length, and the
 //! scaling u = (G/μ)·ũ, Q = (G/μ)·I, τ = G·τ̃ with the Reynolds number, film coefficients and
-//! length results ([`operating_point`]); the warnings of an operating point (laminar limit,
-//! entrance lengths).
+//! length results ([`operating_point`]); the checks of an operating point before any solve
+//! ([`OperatingSpec::validate`]: positive properties, a known fluid in its temperature range, a
+//! positive drive and length); its warnings (laminar limit, entrance lengths).
 //!
 //! Invariant: computes from the figures of a finished unit solution only; solves nothing,
 //! loads no geometry, formats no report.
@@ -51,6 +52,104 @@ pub struct OperatingSpec {
     pub length: Option<f64>,
 }
 
+impl Drive {
+    /// Checks the drive: a finite, positive pressure gradient or flow rate. The error names the
+    /// option (`--dpdx`, `--flow`).
+    pub fn check(&self) -> Result<()> {
+        match *self {
+            Drive::PressureGradient(g) if !(g.is_finite() && g > 0.0) => Err(Error::param(
+                "--dpdx",
+                "must be a positive number (Pa/m, pressure falling along the flow)",
+            )),
+            Drive::FlowRate(q) if !(q.is_finite() && q > 0.0) => {
+                Err(Error::param("--flow", "must be a positive flow rate"))
+            }
+            _ => Ok(()),
+        }
+    }
+}
+
+impl FluidSpec {
+    /// The fluid's properties and the property model's warnings, after checking what was given:
+    /// finite, positive properties; a known fluid name; a temperature inside its model's range
+    /// (water: see [`fluids::water`]). Errors name the option at fault.
+    pub fn properties(&self) -> Result<(FluidProperties, Vec<String>)> {
+        match self {
+            FluidSpec::Given {
+                viscosity,
+                density,
+                conductivity,
+                specific_heat,
+            } => {
+                for (v, name, unit) in [
+                    (conductivity, "--conductivity", "W/(m·K)"),
+                    (specific_heat, "--specific-heat", "J/(kg·K)"),
+                ] {
+                    if let Some(v) = v {
+                        if !(v.is_finite() && *v > 0.0) {
+                            return Err(Error::param(
+                                name,
+                                format!("must be a positive number ({unit})"),
+                            ));
+                        }
+                    }
+                }
+                if !(viscosity.is_finite() && *viscosity > 0.0) {
+                    return Err(Error::param(
+                        "--viscosity",
+                        "must be a positive number (Pa·s)",
+                    ));
+                }
+                if !(density.is_finite() && *density > 0.0) {
+                    return Err(Error::param(
+                        "--density",
+                        "must be a positive number (kg/m³)",
+                    ));
+                }
+                let props = FluidProperties {
+                    name: "user-defined fluid".into(),
+                    viscosity_pa_s: *viscosity,
+                    density_kg_m3: *density,
+                    temperature_k: None,
+                    conductivity_w_mk: *conductivity,
+                    specific_heat_j_kgk: *specific_heat,
+                    source: "given on the command line".into(),
+                };
+                Ok((props, Vec::new()))
+            }
+            FluidSpec::Named {
+                name,
+                temperature_k,
+            } => fluids::by_name(name, *temperature_k).map_err(|e| match e {
+                // A known fluid fails only on its temperature (missing or out of range).
+                Error::Fluid(message) => {
+                    let known = fluids::KNOWN_FLUIDS
+                        .iter()
+                        .any(|k| k.eq_ignore_ascii_case(name.trim()));
+                    Error::param(if known { "--temperature" } else { "--fluid" }, message)
+                }
+                e => e,
+            }),
+        }
+    }
+}
+
+impl OperatingSpec {
+    /// Checks the operating point before any solve: the fluid ([`FluidSpec::properties`]), the
+    /// drive ([`Drive::check`]) and a positive length, in that order. Cheap: no geometry, no
+    /// grid.
+    pub fn validate(&self) -> Result<()> {
+        self.fluid.properties()?;
+        self.drive.check()?;
+        match self.length {
+            Some(l) if !(l.is_finite() && l > 0.0) => {
+                Err(Error::param("--length", "must be a positive length"))
+            }
+            _ => Ok(()),
+        }
+    }
+}
+
 /// Dimensional results at an operating point.
 #[derive(Debug, Clone, PartialEq)]
 pub struct OperatingResult {
@@ -87,81 +186,22 @@ pub struct LengthResult {
 /// common practice, no source; warned from 2000 to leave a margin).
 pub const LAMINAR_WARNING_RE: f64 = 2000.0;
 
-/// Scales the unit solution to an operating point: u = (G/μ)·ũ, Q = (G/μ)·I, τ = G·τ̃.
+/// Scales the unit solution to an operating point: u = (G/μ)·ũ, Q = (G/μ)·I, τ = G·τ̃. The
+/// spec is checked first ([`OperatingSpec::validate`]), so a library caller that skipped the
+/// pipeline still gets an error, not a nonsense result.
 pub fn operating_point(
     f: &Figures,
     heat: Option<&HeatFigures>,
     spec: &OperatingSpec,
     warnings: &mut Vec<String>,
 ) -> Result<OperatingResult> {
-    let fluid = match &spec.fluid {
-        FluidSpec::Given {
-            viscosity,
-            density,
-            conductivity,
-            specific_heat,
-        } => {
-            for (v, name, unit) in [
-                (conductivity, "--conductivity", "W/(m·K)"),
-                (specific_heat, "--specific-heat", "J/(kg·K)"),
-            ] {
-                if let Some(v) = v {
-                    if !(v.is_finite() && *v > 0.0) {
-                        return Err(Error::param(
-                            name,
-                            format!("must be a positive number ({unit})"),
-                        ));
-                    }
-                }
-            }
-            if !(viscosity.is_finite() && *viscosity > 0.0) {
-                return Err(Error::param(
-                    "--viscosity",
-                    "must be a positive number (Pa·s)",
-                ));
-            }
-            if !(density.is_finite() && *density > 0.0) {
-                return Err(Error::param(
-                    "--density",
-                    "must be a positive number (kg/m³)",
-                ));
-            }
-            FluidProperties {
-                name: "user-defined fluid".into(),
-                viscosity_pa_s: *viscosity,
-                density_kg_m3: *density,
-                temperature_k: None,
-                conductivity_w_mk: *conductivity,
-                specific_heat_j_kgk: *specific_heat,
-                source: "given on the command line".into(),
-            }
-        }
-        FluidSpec::Named {
-            name,
-            temperature_k,
-        } => {
-            let (props, w) = fluids::by_name(name, *temperature_k)?;
-            warnings.extend(w);
-            props
-        }
-    };
+    spec.validate()?;
+    let (fluid, w) = spec.fluid.properties()?;
+    warnings.extend(w);
     let mu = fluid.viscosity_pa_s;
     let (g, q) = match spec.drive {
-        Drive::PressureGradient(g) => {
-            if !(g.is_finite() && g > 0.0) {
-                return Err(Error::param(
-                    "--dpdx",
-                    "must be a positive number (Pa/m, pressure falling along the flow)",
-                ));
-            }
-            (g, g * f.flow_integral / mu)
-        }
-        Drive::FlowRate(q) => {
-            if !(q.is_finite() && q > 0.0) {
-                return Err(Error::param("--flow", "must be a positive flow rate"));
-            }
-            (q * mu / f.flow_integral, q)
-        }
+        Drive::PressureGradient(g) => (g, g * f.flow_integral / mu),
+        Drive::FlowRate(q) => (q * mu / f.flow_integral, q),
     };
     let mean = q / f.area;
     let re = fluid.density_kg_m3 * mean * f.hydraulic_diameter / mu;
@@ -183,9 +223,6 @@ pub fn operating_point(
     let length = match spec.length {
         None => None,
         Some(l) => {
-            if !(l.is_finite() && l > 0.0) {
-                return Err(Error::param("--length", "must be a positive length"));
-            }
             let lh = 0.05 * re * f.hydraulic_diameter;
             let lt = prandtl.map(|pr| lh * pr);
             if l < lh {

@@ -10,6 +10,7 @@
 //! their mathematics ([`crate::heat`], [`crate::operating`], [`crate::study`]).
 
 use crate::error::{Error, Result};
+use crate::geometry::mask::MaskMode;
 use crate::geometry::Domain;
 use crate::grid::{classify, Grid};
 use crate::heat::heat_transfer;
@@ -334,6 +335,8 @@ pub enum ErrorEstimate {
 }
 
 impl SolveConfig {
+    /// A configuration with the defaults for everything but the input; check it with
+    /// [`SolveConfig::validate`] after changing fields ([`run`] does).
     pub fn new(input: Input) -> SolveConfig {
         SolveConfig {
             input,
@@ -346,10 +349,90 @@ impl SolveConfig {
             error_estimate: ErrorEstimate::default(),
         }
     }
+
+    /// Checks every value that needs no geometry, so that a bad input is refused at once,
+    /// whatever the grid size: the operating point ([`OperatingSpec::validate`]: fluid,
+    /// temperature range, positive properties, drive and length), `--cells` (at least 8, unless
+    /// a mask's pixel grid ignores it), a mask's pixel size and a drawing's scale, the solver's
+    /// iteration cap and tolerance, the grid offset and placement, and the target of
+    /// `--accuracy`. Errors name the option at fault.
+    pub fn validate(&self) -> Result<()> {
+        if let Some(op) = &self.operating {
+            op.validate()?;
+        }
+        let pixel_grid = matches!(&self.input, Input::Mask { options, .. }
+            if options.mode == MaskMode::Pixels);
+        if let (Some(cells), false) = (self.cells, pixel_grid) {
+            check_cells(cells)?;
+        }
+        match &self.input {
+            Input::Mask { options, .. } if !(options.pixel.is_finite() && options.pixel > 0.0) => {
+                return Err(Error::param("--pixel", "must be a positive length"));
+            }
+            Input::Svg { scale: Some(s), .. } if !(s.is_finite() && *s > 0.0) => {
+                return Err(Error::param("--scale", "must be a positive length"));
+            }
+            _ => {}
+        }
+        let cg = &self.unit.cg;
+        if cg.max_iterations == 0 {
+            return Err(Error::param("--max-iterations", "must be at least 1"));
+        }
+        if !(cg.tolerance.is_finite() && cg.tolerance > 0.0 && cg.tolerance < 1.0) {
+            return Err(Error::param(
+                "tolerance",
+                format!(
+                    "{} is not a relative residual between 0 and 1",
+                    cg.tolerance
+                ),
+            ));
+        }
+        let fraction = |v: &[f64; 2]| v.iter().all(|x| x.is_finite());
+        if !fraction(&self.offset) {
+            return Err(Error::param(
+                "offset",
+                "the grid offset must be a finite fraction of a cell",
+            ));
+        }
+        if self.placement.is_some_and(|p| !fraction(&p)) {
+            return Err(Error::param(
+                "placement",
+                "the grid placement must be a finite fraction of a cell",
+            ));
+        }
+        if let ErrorEstimate::Accuracy(tol) = self.error_estimate {
+            if !(tol.is_finite() && tol > 0.0 && tol < 1.0) {
+                return Err(Error::param(
+                    "--accuracy",
+                    format!(
+                        "{tol} is not a relative accuracy; give a fraction between 0 and 1, \
+                         e.g. 1e-4"
+                    ),
+                ));
+            }
+        }
+        Ok(())
+    }
 }
 
-/// Runs a whole `solve`: load the cross-section, lay the grid, solve, post-process, and
-/// evaluate the operating point.
+/// Fewest cells across a grid may have.
+const MIN_CELLS: usize = 8;
+
+/// `--cells` is at least [`MIN_CELLS`].
+fn check_cells(cells: usize) -> Result<()> {
+    if cells < MIN_CELLS {
+        return Err(Error::param(
+            "--cells",
+            format!(
+                "{cells} is too small; use at least {MIN_CELLS} (the default is {DEFAULT_CELLS})"
+            ),
+        ));
+    }
+    Ok(())
+}
+
+/// Runs a whole `solve`: check the configuration ([`SolveConfig::validate`]), load the
+/// cross-section, lay the grid, solve, post-process, and evaluate the operating point.
 pub fn run(config: &SolveConfig) -> Result<Outcome> {
     run_monitored(config, &Silent)
 }
@@ -357,6 +440,7 @@ pub fn run(config: &SolveConfig) -> Result<Outcome> {
 /// [`run`] reporting the solver's iterations to `monitor`.
 pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outcome> {
     let start = Instant::now();
+    config.validate()?;
     let mut outcome = match (&config.input, config.error_estimate) {
         (_, ErrorEstimate::Off) => run_once(config, monitor)?,
         (Input::Mask { path, options }, ErrorEstimate::Cheap) => runs::run_image_study(
@@ -404,21 +488,9 @@ pub(crate) fn run_once(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Ou
             Grid::from_lattice(l)
         }
         None => {
+            // Checked again here: the grids of an uncertainty estimate get their own cells.
             let cells = config.cells.unwrap_or(DEFAULT_CELLS);
-            if cells < 8 {
-                return Err(Error::param(
-                    "--cells",
-                    format!(
-                        "{cells} is too small; use at least 8 (the default is {DEFAULT_CELLS})"
-                    ),
-                ));
-            }
-            if !(config.offset[0].is_finite() && config.offset[1].is_finite()) {
-                return Err(Error::param(
-                    "offset",
-                    "the grid offset must be a finite fraction of a cell",
-                ));
-            }
+            check_cells(cells)?;
             match config.placement {
                 Some(p) => Grid::covering_placed(lo, hi, cells, p),
                 None => Grid::covering_with_offset(lo, hi, cells, config.offset),
@@ -494,4 +566,75 @@ pub(crate) fn run_once(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Ou
         uncertainty: None,
         fixed_grid,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::geometry::builtin::parse_builtin;
+    use crate::operating::{Drive, FluidSpec};
+
+    fn flow_only(input: Input) -> SolveConfig {
+        let mut c = SolveConfig::new(input);
+        c.cells = Some(64);
+        c.unit.heat = false;
+        c.error_estimate = ErrorEstimate::Off;
+        c
+    }
+
+    #[test]
+    fn an_in_memory_shape_solves_as_its_spec_does() {
+        // The same cross-section by two routes: the same grid, the same numbers, bit for bit.
+        let spec = "annulus:do=20mm,di=10mm,offset=2mm";
+        let shape = parse_builtin(spec).expect("a built-in shape");
+        let a = run(&flow_only(Input::Shape(shape))).expect("solve");
+        let b = run(&flow_only(Input::Builtin(spec.to_string()))).expect("solve");
+        assert_eq!(a.unit.figures, b.unit.figures);
+        assert_eq!(a.unit.u, b.unit.u);
+    }
+
+    #[test]
+    fn an_invalid_in_memory_shape_is_a_geometry_error() {
+        let flat = crate::geometry::Shape::new(
+            vec![crate::geometry::Primitive::Polygon {
+                points: vec![[0.0, 0.0], [1.0, 0.0], [2.0, 0.0]],
+            }],
+            vec![],
+        );
+        let e = run(&flow_only(Input::Shape(flat))).expect_err("zero area");
+        assert!(matches!(e, Error::Geometry(_)), "{e}");
+    }
+
+    #[test]
+    fn bad_values_are_refused_before_the_input_is_read() {
+        // The shape file does not exist: an error naming the option, not the file, shows the
+        // configuration was checked first.
+        let mut c = flow_only(Input::ShapeFile("no/such/shape.toml".into()));
+        c.operating = Some(OperatingSpec {
+            drive: Drive::PressureGradient(-100.0),
+            fluid: FluidSpec::Given {
+                viscosity: 1e-3,
+                density: 1000.0,
+                conductivity: None,
+                specific_heat: None,
+            },
+            length: None,
+        });
+        match run(&c) {
+            Err(Error::InvalidParameter { parameter, .. }) => assert_eq!(parameter, "--dpdx"),
+            other => panic!("{other:?}"),
+        }
+        let mut c = flow_only(Input::ShapeFile("no/such/shape.toml".into()));
+        c.cells = Some(3);
+        match run(&c) {
+            Err(Error::InvalidParameter { parameter, .. }) => assert_eq!(parameter, "--cells"),
+            other => panic!("{other:?}"),
+        }
+        let mut c = flow_only(Input::ShapeFile("no/such/shape.toml".into()));
+        c.error_estimate = ErrorEstimate::Accuracy(0.0);
+        match run(&c) {
+            Err(Error::InvalidParameter { parameter, .. }) => assert_eq!(parameter, "--accuracy"),
+            other => panic!("{other:?}"),
+        }
+    }
 }

@@ -730,6 +730,94 @@ fn negative_pressure_gradient() {
     sb.input_error(&args, &["--dpdx"]);
 }
 
+/// `canalis solve` with `extra` appended and `--cells 1500 --max-iterations 1`: a value checked
+/// only after the solve would meet a solver that cannot converge in one iteration and exit 1
+/// ("did not converge"), so exit status 2 naming the option shows the value was refused before
+/// any grid was laid, whatever the grid size (issue 15; no timing involved).
+fn refused_before_solving(sb: &Sandbox, shape: &str, extra: &[&str], needles: &[&str]) {
+    let mut args = vec!["solve", shape];
+    args.extend_from_slice(extra);
+    args.extend(["--cells", "1500", "--max-iterations", "1"]);
+    sb.input_error(&args, needles);
+}
+
+#[test]
+fn issue_15_negative_pressure_gradient_is_refused_before_solving() {
+    let sb = Sandbox::new();
+    let slot = format!("{}/shapes/mould_slot.toml", env!("CARGO_MANIFEST_DIR"));
+    refused_before_solving(
+        &sb,
+        &slot,
+        &["--dpdx", "-100", "--viscosity", "1e-3", "--density", "1000"],
+        &["--dpdx", "positive"],
+    );
+}
+
+#[test]
+fn issue_15_every_bad_operating_value_is_refused_before_solving() {
+    let sb = Sandbox::new();
+    let given = ["--dpdx", "100", "--viscosity", "1e-3", "--density", "1000"];
+    let with_given = |more: &[&'static str]| -> Vec<&'static str> {
+        let mut v = given.to_vec();
+        v.extend_from_slice(more);
+        v
+    };
+    let cases: Vec<(Vec<&str>, Vec<&str>)> = vec![
+        (
+            vec!["--flow=-1L/min", "--fluid", "water", "--temperature", "20C"],
+            vec!["--flow", "positive"],
+        ),
+        (
+            vec!["--dpdx", "100", "--viscosity=-1e-3", "--density", "1000"],
+            vec!["--viscosity"],
+        ),
+        (
+            vec!["--dpdx", "100", "--viscosity", "1e-3", "--density", "0"],
+            vec!["--density", "positive"],
+        ),
+        (with_given(&["--conductivity=-0.6"]), vec!["--conductivity"]),
+        (
+            with_given(&["--conductivity", "0.6", "--specific-heat", "0"]),
+            vec!["--specific-heat", "positive"],
+        ),
+        (with_given(&["--length=-1m"]), vec!["--length"]),
+        (
+            vec![
+                "--flow",
+                "1L/min",
+                "--fluid",
+                "glycol",
+                "--temperature",
+                "20C",
+            ],
+            vec!["--fluid", "glycol", "water"],
+        ),
+        (
+            vec![
+                "--flow",
+                "1L/min",
+                "--fluid",
+                "water",
+                "--temperature",
+                "300C",
+            ],
+            vec!["--temperature", "300", "0–150 °C"],
+        ),
+        (
+            vec!["--flow", "1L/min", "--fluid", "water"],
+            vec!["--temperature"],
+        ),
+        (vec!["--accuracy", "2"], vec!["--accuracy"]),
+    ];
+    for (extra, needles) in &cases {
+        refused_before_solving(&sb, "circle:d=8mm", extra, needles);
+    }
+    sb.input_error(
+        &["solve", "circle:d=8mm", "--max-iterations", "0"],
+        &["--max-iterations"],
+    );
+}
+
 #[test]
 fn unknown_subcommand_and_missing_shape_are_usage_errors() {
     let sb = Sandbox::new();

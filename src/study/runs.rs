@@ -201,14 +201,9 @@ fn targeted_summary(u: &Uncertainty) -> String {
 /// placement [`study::STUDY_PLACEMENT`] (similar grids), coarse to fine, until the GCI of every
 /// targeted quantity (f·Re, and the Nusselt numbers when computed) is below `tol` on the finest
 /// three, or the next grid would exceed the memory limit or [`STUDY_MAX_CELLS`] (a warning says
-/// which). The outcome is the finest grid's, with the uncertainty of the study.
+/// which). The outcome is the finest grid's, with the uncertainty of the study. `tol` was
+/// checked by [`SolveConfig::validate`].
 pub(crate) fn run_study(config: &SolveConfig, tol: f64, monitor: &dyn Monitor) -> Result<Outcome> {
-    if !(tol.is_finite() && tol > 0.0 && tol < 1.0) {
-        return Err(Error::param(
-            "--accuracy",
-            format!("{tol} is not a relative accuracy; give a fraction between 0 and 1, e.g. 1e-4"),
-        ));
-    }
     let first = config.cells.unwrap_or(STUDY_FIRST_CELLS);
     let mut runs: Vec<(f64, Values)> = Vec::new();
     let mut grids = Vec::new();
@@ -412,16 +407,6 @@ pub(crate) fn run_image_study(
     target: Option<f64>,
     monitor: &dyn Monitor,
 ) -> Result<Outcome> {
-    if let Some(tol) = target {
-        if !(tol.is_finite() && tol > 0.0 && tol < 1.0) {
-            return Err(Error::param(
-                "--accuracy",
-                format!(
-                    "{tol} is not a relative accuracy; give a fraction between 0 and 1, e.g. 1e-4"
-                ),
-            ));
-        }
-    }
     let mut fine_config = config.clone();
     fine_config.error_estimate = ErrorEstimate::Off;
     if target.is_some() {
