@@ -7,7 +7,7 @@
 //! Invariant: builds no operator and no preconditioner of its own (it is handed the flow
 //! problem's, [`crate::pipeline::solve_unit`] calls it), knows no fluid and writes nothing.
 
-use crate::error::Result;
+use crate::error::{Result, Solve};
 use crate::grid::Classified;
 use crate::operator::Numbering;
 use crate::post::{quadrature_weights, Figures};
@@ -88,7 +88,7 @@ pub(crate) fn heat_transfer(
         tolerance: H1_TOLERANCE,
         ..CgParams::default()
     };
-    let info = solve(&rhs, &mut psi, &h1)?;
+    let info = solve(&rhs, &mut psi, &h1).map_err(|e| e.in_solve(Solve::HeatH1))?;
     let dh = f.hydraulic_diameter;
     let nusselt_h1 = nusselt_h1(c, num, &w, &psi, dh);
     let psi_bulk = dh * dh / (4.0 * nusselt_h1);
@@ -102,8 +102,9 @@ pub(crate) fn heat_transfer(
         &mut mode,
         &[],
         &EigenParams::default(),
-        &format!("{method} for Nu_T"),
-    )?;
+        &format!("LOBPCG on the {method} path"),
+    )
+    .map_err(|e| e.in_solve(Solve::HeatT))?;
     Ok(HeatFigures {
         psi,
         psi_bulk,

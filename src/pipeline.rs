@@ -9,7 +9,7 @@
 //! Invariant: parses no arguments, prints nothing, formats no report; the stages it calls own
 //! their mathematics ([`crate::heat`], [`crate::operating`], [`crate::study`]).
 
-use crate::error::{Error, Result};
+use crate::error::{Error, Result, Solve};
 use crate::geometry::mask::MaskMode;
 use crate::geometry::Domain;
 use crate::grid::{classify, Grid};
@@ -217,7 +217,7 @@ fn solve_unit_on_worker(
     } else {
         *params
     };
-    let mut info = solve(&b, &mut u, &first)?;
+    let mut info = solve(&b, &mut u, &first).map_err(|e| e.in_solve(Solve::Flow))?;
     let mut passes = vec![info];
     // Deferred correction of the wall truncation error (post::add_wall_correction): the matrix is
     // kept, the right-hand side gains the curvature term of each cut link, and the solve
@@ -227,7 +227,7 @@ fn solve_unit_on_worker(
     if correct {
         // b + correction, formed in b's own vector (one vector fewer to fault in).
         post::add_wall_correction(&classified, &numbering, &u, &mut b);
-        let more = solve(&b, &mut u, params)?;
+        let more = solve(&b, &mut u, params).map_err(|e| e.in_solve(Solve::CorrectedFlow))?;
         passes.push(more);
         info = CgInfo {
             iterations: info.iterations + more.iterations,
