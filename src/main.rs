@@ -80,8 +80,8 @@ struct SolveArgs {
     #[arg(long)]
     json: bool,
     /// Write pictures and field files into this directory (created if missing):
-    /// velocity.png, wall_shear.png, velocity.csv, wall_shear.csv, velocity.vti (VTK) and
-    /// report.json.
+    /// velocity.png, wall_shear.png, temperature_h1.png (the H1 temperature field),
+    /// velocity.csv, wall_shear.csv, velocity.vti (VTK) and report.json.
     #[arg(long, value_name = "DIR")]
     out: Option<PathBuf>,
     /// Width of the pictures written by --out, pixels (400 to 8000).
@@ -430,13 +430,24 @@ fn solve(a: &SolveArgs) -> Result<(), Error> {
 
 fn shapes() {
     println!("Built-in shapes, written name:key=value,... (lengths take m, mm, um, in):");
-    for s in builtin::catalogue() {
+    let shapes = builtin::catalogue();
+    // Columns wider than the longest name (key) by two (three) spaces, so that none runs into
+    // its text (square_annulus did into a fixed column of 10).
+    let name_width = shapes.iter().map(|s| s.name.len()).max().unwrap_or(0) + 2;
+    let key_width = shapes
+        .iter()
+        .flat_map(|s| s.params.iter().map(|(k, _)| k.len()))
+        .chain(["example".len()])
+        .max()
+        .unwrap_or(0)
+        + 3;
+    for s in shapes {
         println!();
-        println!("  {:<10}{}", s.name, s.description);
+        println!("  {:<name_width$}{}", s.name, s.description);
         for (k, meaning) in s.params {
-            println!("      {k:<12}{meaning}");
+            println!("      {k:<key_width$}{meaning}");
         }
-        println!("      example     {}", s.example);
+        println!("      {:<key_width$}{}", "example", s.example);
     }
 }
 

@@ -205,10 +205,9 @@ fn solve_unit_on_worker(
     let mut u = vec![0.0; numbering.len()];
     let correct = options.wall_correction && wall_kind == WallKind::Exact;
     // When the correction follows, the first solve only feeds the local fits of the wall
-    // correction, whose second derivatives it needs to a few digits: the error left by
-    // multigrid-preconditioned CG is smooth, so a relative residual of 1e-6 changes the
-    // correction by about a millionth of itself, far below what matters (measured: f·Re of the
-    // exact cases unchanged to 1e-12 at 400 cells). The final solve goes to the full tolerance.
+    // correction, which need its second derivatives to a few digits: it stops at
+    // FIRST_PASS_TOLERANCE = 1e-3 (or at the final tolerance, if that is looser; the constant's
+    // doc has the measurements). The final solve goes to the full tolerance.
     let first = if correct {
         CgParams {
             tolerance: params.tolerance.max(FIRST_PASS_TOLERANCE),

@@ -2,7 +2,7 @@
 //!
 //! Owns: the flow integral, the velocity ratio, hydraulic diameter and Poiseuille number, the
 //! local wall shear along every wall and the force balance. All results are plain structs in
-//! the units of the unit problem; the pipeline scales them to an operating point
+//! the units of the unit problem; [`crate::operating`] scales them to an operating point
 //! (u = (G/μ)·ũ, τ = G·τ̃ with G = −dp/dz).
 //!
 //! Invariant: writes no files and formats no text.
@@ -141,11 +141,6 @@ pub fn passage_labels(c: &Classified) -> (Vec<u32>, usize) {
         count += 1;
     }
     (label, count as usize)
-}
-
-/// Number of separate passages.
-pub fn passage_count(c: &Classified) -> usize {
-    passage_labels(c).1
 }
 
 /// Figures of one passage of a cross-section made of disconnected fluid regions, all under the

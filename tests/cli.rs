@@ -352,7 +352,15 @@ fn shapes_lists_the_builtin_shapes() {
     let sb = Sandbox::new();
     let run = sb.run(&["shapes"]);
     run.assert_success();
-    for name in ["circle", "rect", "ellipse", "triangle", "annulus"] {
+    // Issue 15: a long name (square_annulus) must not run into its description.
+    for name in [
+        "circle",
+        "rect",
+        "ellipse",
+        "triangle",
+        "annulus",
+        "square_annulus",
+    ] {
         assert!(
             run.stdout
                 .lines()

@@ -1,4 +1,4 @@
-//! The pictures of `--out`: `velocity.png` and `wall_shear.png`.
+//! The pictures of `--out`: `velocity.png`, `wall_shear.png` and `temperature_h1.png`.
 //!
 //! Owns: rasterising them. Everything is drawn here on an RGB canvas: the field pixel by pixel,
 //! walls and curves as antialiased lines (coverage = distance from the pixel centre to the

@@ -229,15 +229,11 @@ pub fn two_grids_of_order(fine: Sample, coarse: Sample, formal: f64) -> Option<E
     })
 }
 
-/// The three-grid estimate (module notes). `fine.h < medium.h < coarse.h`. None when a value is
-/// not finite or the spacings are not ordered.
-pub fn three_grids(fine: Sample, medium: Sample, coarse: Sample) -> Option<Estimate> {
-    three_grids_of_order(fine, medium, coarse, FORMAL_ORDER)
-}
-
-/// [`three_grids`] for a discretisation of formal order `formal`: the sensible band is
-/// ±25 % around it and the order used is clamped to [0.5, `formal`] (as [`SENSIBLE_ORDER`] and
-/// [`ORDER_CLAMP`] are for order 2).
+/// The three-grid estimate (module notes) for a discretisation of formal order `formal`
+/// (2 for the grids of a study, [`IMAGE_ORDER`] for the images of a mask). `fine.h < medium.h <
+/// coarse.h`. None when a value is not finite or the spacings are not ordered. The sensible
+/// band is ±25 % around `formal` and the order used is clamped to [0.5, `formal`] (as
+/// [`SENSIBLE_ORDER`] and [`ORDER_CLAMP`] are for order 2).
 pub fn three_grids_of_order(
     fine: Sample,
     medium: Sample,
