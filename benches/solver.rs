@@ -19,6 +19,7 @@ use canalis::geometry::mask::Mask;
 use canalis::geometry::Domain;
 use canalis::grid::Grid;
 use canalis::pipeline::{solve_unit, Method, UnitOptions};
+use canalis::post::WallKind;
 use std::process::Command;
 
 const SHAPES: [&str; 4] = ["circle", "annulus", "finned", "lmask"];
@@ -46,8 +47,8 @@ fn child(shape: &str, cells: usize, method: Method) {
         heat: std::env::var("CANALIS_BENCH_HEAT").is_ok(),
         ..Default::default()
     };
-    let (domain, grid, exact) = domain_of(shape, cells);
-    let sol = solve_unit(domain.as_ref(), grid, exact, &opts).expect("solve");
+    let (domain, grid, walls) = domain_of(shape, cells);
+    let sol = solve_unit(domain.as_ref(), grid, walls, &opts).expect("solve");
     let t = sol.seconds;
     let per_pass: Vec<String> = sol
         .passes
@@ -71,7 +72,7 @@ fn child(shape: &str, cells: usize, method: Method) {
 }
 
 /// The domain and grid of a benchmark shape (see [`child`]).
-fn domain_of(shape: &str, cells: usize) -> (Box<dyn Domain>, Grid, bool) {
+fn domain_of(shape: &str, cells: usize) -> (Box<dyn Domain>, Grid, WallKind) {
     match shape {
         "lmask" => {
             let n = cells;
@@ -82,7 +83,7 @@ fn domain_of(shape: &str, cells: usize) -> (Box<dyn Domain>, Grid, bool) {
             })
             .expect("mask");
             let g = Grid::from_lattice(mask.lattice().expect("lattice"));
-            (Box::new(mask), g, false)
+            (Box::new(mask), g, WallKind::Staircase)
         }
         name => {
             let spec = match name {
@@ -92,7 +93,7 @@ fn domain_of(shape: &str, cells: usize) -> (Box<dyn Domain>, Grid, bool) {
             };
             let s = parse_builtin(spec).expect("shape");
             let (lo, hi) = s.bbox();
-            (Box::new(s), Grid::covering(lo, hi, cells), true)
+            (Box::new(s), Grid::covering(lo, hi, cells), WallKind::Exact)
         }
     }
 }

@@ -804,7 +804,12 @@ mod tests {
             assert!(mid[0].abs() > 1e-3 && mid[1].abs() > 1e-3, "{}", c.key);
             assert!(c.shape.validate().is_ok(), "{}", c.key);
             assert!(Field::from_shape(&c.shape).is_some(), "{}", c.key);
-            assert!((c.hydraulic_diameter() - 4.0 * c.area / c.perimeter).abs() < 1e-15);
+        }
+        // D_h of a circle is its diameter, of a square its side, of a concentric annulus the
+        // gap doubled, d_o − d_i (exact geometry, common practice, no source).
+        for (key, d_h) in [("circle", 1.0), ("square", 1.0), ("annulus", 1.0 - 0.5)] {
+            let c = case(key);
+            assert!(rel(c.hydraulic_diameter(), d_h) < 1e-15, "{key}");
         }
     }
 
@@ -900,7 +905,10 @@ mod tests {
                 }
             }
         }
-        assert!(rel(umax, c.max_to_mean_velocity * c.flow_integral / c.area) < 1e-12);
+        // ũ_max = H²/27 at the centroid, H = √3/2 the height of the unit triangle (the exact
+        // cubic solution; derivation in the module notes).
+        let height = 0.5 * 3f64.sqrt();
+        assert!(rel(umax, height * height / 27.0) < 1e-12, "{umax}");
     }
 
     #[test]

@@ -1,13 +1,24 @@
 //! canalis: fully developed laminar flow in ducts of any cross-section.
 //!
-//! The pipeline, in one paragraph: a cross-section ([`geometry`]) from a shape file, a built-in
-//! shape or a mask image is laid on a uniform Cartesian grid ([`grid`]), which classifies nodes as
-//! fluid or solid and finds where each grid line crosses a wall. The [`operator`] numbers the
-//! fluid nodes and assembles the symmetric cut-cell Laplacian of the unit problem −∇²ũ = 1,
-//! ũ = 0 on every wall. The [`solver`] runs a preconditioned conjugate gradient. [`post`] turns ũ
-//! into the figures of merit (flow integral, f·Re, velocity ratio, wall shear, force balance);
-//! [`fluids`] supplies viscosity and density for an operating point; [`report`] formats results;
-//! [`pipeline`] runs the stages in order from a validated configuration.
+//! The pipeline, in one paragraph: an [`input`] (a shape file, a built-in shape, a mask image or
+//! a drawing) is loaded into a cross-section ([`geometry`]) and laid on a uniform Cartesian grid
+//! ([`grid`]), which classifies nodes as fluid or solid and finds where each grid line crosses a
+//! wall. The [`operator`] numbers the fluid nodes and assembles the symmetric cut-cell Laplacian
+//! of the unit problem −∇²ũ = 1, ũ = 0 on every wall. The [`solver`] runs a conjugate gradient
+//! preconditioned by [`multigrid`]. [`post`] turns ũ into the figures of merit (flow integral,
+//! f·Re, velocity ratio, wall shear, force balance); [`heat`] solves the two heat-transfer
+//! problems on the same operator (Nu_H1, Nu_T); [`operating`] scales the unit solution to a
+//! fluid ([`fluids`]) and a drive; [`study`] estimates the numerical uncertainty from the grids
+//! that [`study::runs`] solves around the run. [`pipeline`] runs the stages in order from a
+//! validated configuration and returns an [`outcome::Outcome`], which [`report`] (JSON and text)
+//! and [`output`] (the files of `--out`) consume.
+//!
+//! Dependencies point one way, each module using only those before it in this list (and the
+//! leaves [`error`] and [`units`]): geometry → grid → operator → solver → multigrid → post →
+//! heat → fluids → operating → study → outcome → report → output → input → pipeline → exact →
+//! verify.
+//! The one exception is [`study::runs`], which [`pipeline::run`] calls and which calls back
+//! `pipeline::run_once` for each grid of an estimate. DEVELOPERS.md has the module map.
 
 pub mod entrance;
 pub mod error;
@@ -15,8 +26,12 @@ pub mod exact;
 pub mod fluids;
 pub mod geometry;
 pub mod grid;
+pub mod heat;
+pub mod input;
 pub mod multigrid;
+pub mod operating;
 pub mod operator;
+pub mod outcome;
 pub mod output;
 pub mod pipeline;
 pub mod post;

@@ -5,13 +5,13 @@
 use canalis::error::Error;
 use canalis::geometry::builtin;
 use canalis::geometry::mask::{FluidColour, MaskMode, MaskOptions, MinFeature};
-use canalis::pipeline::{
-    self, Drive, FluidSpec, Input, Method, OperatingSpec, SolveConfig, VERIFY_CELLS,
-};
+use canalis::input::{Input, InputKind};
+use canalis::operating::{Drive, FluidSpec, OperatingSpec};
+use canalis::pipeline::{self, Method, SolveConfig, VERIFY_CELLS};
 use canalis::{output, report, units, verify};
 use clap::{Parser, Subcommand, ValueEnum};
 use std::io::Write;
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 use std::process::ExitCode;
 
 #[derive(Parser)]
@@ -80,8 +80,8 @@ struct SolveArgs {
     #[arg(long)]
     json: bool,
     /// Write pictures and field files into this directory (created if missing):
-    /// velocity.png, wall_shear.png, velocity.csv, wall_shear.csv, velocity.vti (VTK) and
-    /// report.json.
+    /// velocity.png, wall_shear.png, temperature_h1.png (the H1 temperature field),
+    /// velocity.csv, wall_shear.csv, velocity.vti (VTK) and report.json.
     #[arg(long, value_name = "DIR")]
     out: Option<PathBuf>,
     /// Width of the pictures written by --out, pixels (400 to 8000).
@@ -189,77 +189,54 @@ fn parse_bytes(text: &str) -> Result<u64, Error> {
     Ok((v * f) as u64)
 }
 
-/// Raw arguments → validated configuration.
+/// Raw arguments → validated configuration ([`SolveConfig::validate`]).
 fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
-    let lower = a.shape.to_ascii_lowercase();
-    let ext = Path::new(&lower)
-        .extension()
-        .and_then(|e| e.to_str())
-        .unwrap_or("");
-    let input = if builtin::looks_like_builtin(&a.shape) {
-        Input::Builtin(a.shape.clone())
-    } else if ext == "toml" {
-        Input::ShapeFile(PathBuf::from(&a.shape))
-    } else if matches!(ext, "png" | "bmp" | "tif" | "tiff") {
-        let pixel = a.pixel.as_deref().ok_or_else(|| {
-            Error::param(
-                "--pixel",
-                format!(
-                    "a mask image needs the physical size of one pixel, e.g. --pixel 0.02mm ({})",
-                    a.shape
-                ),
-            )
-        })?;
-        let pixel = units::parse_length(pixel, "--pixel")?;
-        if pixel <= 0.0 || pixel.is_nan() {
-            return Err(Error::param("--pixel", "must be a positive length"));
-        }
-        Input::Mask {
-            path: PathBuf::from(&a.shape),
-            options: MaskOptions {
-                fluid: match a.mask_fluid {
-                    MaskFluid::Dark => FluidColour::Dark,
-                    MaskFluid::Light => FluidColour::Light,
+    let input = match InputKind::of(&a.shape)? {
+        InputKind::Builtin => Input::Builtin(a.shape.clone()),
+        InputKind::ShapeFile => Input::ShapeFile(PathBuf::from(&a.shape)),
+        InputKind::Mask => {
+            let pixel = a.pixel.as_deref().ok_or_else(|| {
+                Error::param(
+                    "--pixel",
+                    format!(
+                        "a mask image needs the physical size of one pixel, e.g. --pixel 0.02mm \
+                         ({})",
+                        a.shape
+                    ),
+                )
+            })?;
+            let pixel = units::parse_length(pixel, "--pixel")?;
+            Input::Mask {
+                path: PathBuf::from(&a.shape),
+                options: MaskOptions {
+                    fluid: match a.mask_fluid {
+                        MaskFluid::Dark => FluidColour::Dark,
+                        MaskFluid::Light => FluidColour::Light,
+                    },
+                    threshold: a.threshold,
+                    pixel,
+                    mode: match a.mask_mode {
+                        MaskModeArg::Traced => MaskMode::Traced,
+                        MaskModeArg::Pixels => MaskMode::Pixels,
+                    },
+                    min_feature: match a.min_feature.as_deref() {
+                        Some(text) => MinFeature::parse(text)?,
+                        None => MinFeature::default(),
+                    },
                 },
-                threshold: a.threshold,
-                pixel,
-                mode: match a.mask_mode {
-                    MaskModeArg::Traced => MaskMode::Traced,
-                    MaskModeArg::Pixels => MaskMode::Pixels,
-                },
-                min_feature: match a.min_feature.as_deref() {
-                    Some(text) => MinFeature::parse(text)?,
-                    None => MinFeature::default(),
-                },
-            },
-        }
-    } else if ext == "svg" {
-        let scale = match a.scale.as_deref() {
-            Some(text) => {
-                let s = units::parse_length(text, "--scale")?;
-                if !(s.is_finite() && s > 0.0) {
-                    return Err(Error::param("--scale", "must be a positive length"));
-                }
-                Some(s)
             }
-            None => None,
-        };
-        Input::Svg {
-            path: PathBuf::from(&a.shape),
-            scale,
         }
-    } else if a.shape.contains(':') && !Path::new(&a.shape).exists() {
-        // Looks like a built-in spec with an unknown name: let the parser say which names exist.
-        Input::Builtin(a.shape.clone())
-    } else {
-        return Err(Error::param(
-            "SHAPE",
-            format!(
-                "'{}' is neither a shape file (*.toml), a mask image (*.png, *.bmp, *.tif) nor a \
-                 built-in shape (see `canalis shapes`)",
-                a.shape
-            ),
-        ));
+        InputKind::Svg => {
+            let scale = a
+                .scale
+                .as_deref()
+                .map(|text| units::parse_length(text, "--scale"))
+                .transpose()?;
+            Input::Svg {
+                path: PathBuf::from(&a.shape),
+                scale,
+            }
+        }
     };
     let mut c = SolveConfig::new(input);
     c.cells = a.cells;
@@ -269,16 +246,13 @@ fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
         MethodArg::Plain => Method::Plain,
     };
     if let Some(n) = a.max_iterations {
-        if n == 0 {
-            return Err(Error::param("--max-iterations", "must be at least 1"));
-        }
         c.unit.cg.max_iterations = n;
     }
     if let Some(m) = &a.max_memory {
         c.memory_limit = parse_bytes(m)?;
     }
     if let Some(tol) = a.accuracy {
-        // Checked by the pipeline (a fraction between 0 and 1).
+        // A fraction between 0 and 1 (SolveConfig::validate).
         c.error_estimate = pipeline::ErrorEstimate::Accuracy(tol);
     }
     let drive = match (&a.dpdx, &a.flow) {
@@ -376,6 +350,8 @@ fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
         }
         (None, None) => None,
     };
+    // Every value checked now, before the output directory or the geometry is looked at.
+    c.validate()?;
     Ok(c)
 }
 
@@ -454,13 +430,24 @@ fn solve(a: &SolveArgs) -> Result<(), Error> {
 
 fn shapes() {
     println!("Built-in shapes, written name:key=value,... (lengths take m, mm, um, in):");
-    for s in builtin::catalogue() {
+    let shapes = builtin::catalogue();
+    // Columns wider than the longest name (key) by two (three) spaces, so that none runs into
+    // its text (square_annulus did into a fixed column of 10).
+    let name_width = shapes.iter().map(|s| s.name.len()).max().unwrap_or(0) + 2;
+    let key_width = shapes
+        .iter()
+        .flat_map(|s| s.params.iter().map(|(k, _)| k.len()))
+        .chain(["example".len()])
+        .max()
+        .unwrap_or(0)
+        + 3;
+    for s in shapes {
         println!();
-        println!("  {:<10}{}", s.name, s.description);
+        println!("  {:<name_width$}{}", s.name, s.description);
         for (k, meaning) in s.params {
-            println!("      {k:<12}{meaning}");
+            println!("      {k:<key_width$}{meaning}");
         }
-        println!("      example     {}", s.example);
+        println!("      {:<key_width$}{}", "example", s.example);
     }
 }
 

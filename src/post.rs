@@ -2,7 +2,7 @@
 //!
 //! Owns: the flow integral, the velocity ratio, hydraulic diameter and Poiseuille number, the
 //! local wall shear along every wall and the force balance. All results are plain structs in
-//! the units of the unit problem; the pipeline scales them to an operating point
+//! the units of the unit problem; [`crate::operating`] scales them to an operating point
 //! (u = (G/μ)·ũ, τ = G·τ̃ with G = −dp/dz).
 //!
 //! Invariant: writes no files and formats no text.
@@ -12,6 +12,19 @@ use crate::grid::{Classified, Dir};
 use crate::operator::{Numbering, NO_UNKNOWN};
 use crate::problem::Problem;
 use nalgebra::{DMatrix, DVector};
+
+/// What the walls of a domain are to the local fits near them ([`wall_shear`], and whether the
+/// pipeline applies [`add_wall_correction`]).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum WallKind {
+    /// Smooth curves through the cut points: a shape's true curves, or a mask's traced contour
+    /// (smooth to within its sub-pixel vertices). The wall points serve as data of the shear fit
+    /// and the wall correction applies.
+    Exact,
+    /// The pixel faces of a mask (`--mask-mode pixels`): a re-entrant corner at every step,
+    /// where the smooth local fit behind both does not hold; neither is used.
+    Staircase,
+}
 
 /// Dimensionless results of the unit problem.
 #[derive(Debug, Clone, PartialEq)]
@@ -129,11 +142,6 @@ pub fn passage_labels(c: &Classified) -> (Vec<u32>, usize) {
         count += 1;
     }
     (label, count as usize)
-}
-
-/// Number of separate passages.
-pub fn passage_count(c: &Classified) -> usize {
-    passage_labels(c).1
 }
 
 /// The passage label ([`passage_labels`]) of each wall sample: that of the nearest fluid node
@@ -321,7 +329,7 @@ type FitRow = ([f64; 2], f64, f64, bool);
 /// the first term a particular solution of −∇²ũ = 1, the H_k the harmonic polynomials of
 /// degree ≤ 3 (1, X, Y, X² − Y², 2XY, X³ − 3XY², 3X²Y − Y³). The data are the fluid node values
 /// reachable from p without crossing a wall, and the wall points of the cut links (and p itself
-/// when the wall is exact), by least squares with Gaussian weights exp(−d²/(3.5h)²). The
+/// when the walls are [`WallKind::Exact`]), by least squares with Gaussian weights exp(−d²/(3.5h)²). The
 /// fitted gradient at p, projected on the inward normal, is τ̃.
 ///
 /// The wall points do not say ũ = 0 but ũ = d with one extra free constant d. The reason: the
@@ -338,8 +346,9 @@ pub fn wall_shear(
     num: &Numbering,
     u: &[f64],
     walls: &Walls,
-    exact_wall: bool,
+    kind: WallKind,
 ) -> Vec<ShearSample> {
+    let exact_wall = kind == WallKind::Exact;
     use rayon::prelude::*;
     // Samples in parallel, one fit workspace per task; collected in sample order.
     walls

@@ -3,7 +3,7 @@
 //! Owns: the report keys of ../shared/INTERFACE.md and the layout of the text summary. Both are
 //! consumers of the same [`Outcome`]; nothing here computes physics.
 
-use crate::pipeline::Outcome;
+use crate::outcome::Outcome;
 use crate::study::{Kind, Uncertainty};
 use serde_json::{json, Map, Value};
 

@@ -7,7 +7,7 @@
 //!
 //! Invariant: knows nothing of geometry, grids or physics, only vectors and the two traits.
 
-use crate::error::{Error, Result};
+use crate::error::{Error, Result, Stall};
 use sprs::CsMat;
 
 /// y = A·x for a square operator.
@@ -230,7 +230,9 @@ fn true_residual(op: &dyn LinearOperator, b: &[f64], x: &[f64], r: &mut [f64]) -
 /// Stops on the true relative residual: when the recursively updated residual says the
 /// tolerance is met, b − A·x is recomputed, and the iteration continues from the true residual
 /// if that is still too large (the two drift apart in floating point). Not converging within
-/// `max_iterations` is an error carrying how far it got.
+/// `max_iterations` is an error carrying how far it got, why it stopped ([`Stall`]) and
+/// `method`, the name of the method; which solve of a run it was is the caller's to add
+/// ([`Error::in_solve`]).
 pub fn pcg(
     op: &dyn LinearOperator,
     pre: &dyn Preconditioner,
@@ -314,7 +316,9 @@ pub fn pcg_in(
             if it >= params.max_iterations {
                 let rel = true_residual(op, b, x, r) / b_norm;
                 return Err(Error::NotConverged {
+                    solve: None,
                     method: method.to_string(),
+                    stall: Stall::IterationLimit,
                     iterations: it,
                     relative_residual: rel,
                     tolerance: params.tolerance,
@@ -324,7 +328,9 @@ pub fn pcg_in(
             if pq <= 0.0 || !pq.is_finite() {
                 let rel = true_residual(op, b, x, r) / b_norm;
                 return Err(Error::NotConverged {
-                    method: format!("{method} (breakdown: the operator is not positive definite)"),
+                    solve: None,
+                    method: method.to_string(),
+                    stall: Stall::Breakdown,
                     iterations: it,
                     relative_residual: rel,
                     tolerance: params.tolerance,
@@ -365,7 +371,9 @@ pub fn pcg_in(
             restarts += 1;
             if restarts > 5 {
                 return Err(Error::NotConverged {
-                    method: format!("{method} (the residual stagnates)"),
+                    solve: None,
+                    method: method.to_string(),
+                    stall: Stall::Stagnation,
                     iterations: it,
                     relative_residual: r_norm / b_norm,
                     tolerance: params.tolerance,
@@ -505,7 +513,7 @@ const GRAM_DROP: f64 = 1e-10;
 /// eigenvector. By Temple's inequality for A⁻¹·W, self-adjoint in the A inner product, the
 /// relative error of λ is then at most about ρ²·λ₂/(λ₂ − λ): quadratic in the residual
 /// (Parlett, *The Symmetric Eigenvalue Problem*, 1998, ch. 10, from memory). Reaching
-/// `max_iterations` is an error carrying ρ.
+/// `max_iterations` is an error carrying ρ, named by `method` as [`pcg`]'s are.
 ///
 /// `x` holds the starting vector and returns the eigenvector (unit A-norm); `guesses` may give
 /// the other starting vectors of the block; missing ones are `x` modulated by seeded
@@ -529,19 +537,18 @@ pub fn smallest_eigenpair(
         "eigen block of {} vectors",
         params.block
     );
-    let fail = |why: &str, it: usize, residual: f64| Error::NotConverged {
-        method: format!("{method} ({why})"),
+    let fail = |stall: Stall, it: usize, residual: f64| Error::NotConverged {
+        solve: None,
+        method: method.to_string(),
+        stall,
         iterations: it,
         relative_residual: residual,
         tolerance: params.tolerance,
     };
     let start = rayleigh_parts(x, x, weights).1;
     if !(start > 0.0 && start.is_finite()) {
-        return Err(fail(
-            "the starting vector has no weight or is not finite",
-            0,
-            f64::INFINITY,
-        ));
+        // The starting vector has no weight, or is not finite.
+        return Err(fail(Stall::LostWeight, 0, f64::INFINITY));
     }
     let mut nb = params.block;
     // basis = [X | T | P] and images = [A·X | A·T | A·P], nb vectors each; np of P in use.
@@ -573,7 +580,7 @@ pub fn smallest_eigenpair(
     // Rayleigh–Ritz on the starting block alone gives its Ritz vectors (unit A-norm).
     {
         let y = ritz_step(&basis, &images, weights, nb, nb)
-            .ok_or_else(|| fail("the starting block has no weight", 0, f64::INFINITY))?;
+            .ok_or_else(|| fail(Stall::LostWeight, 0, f64::INFINITY))?;
         let plan: Vec<Vec<(usize, f64)>> = (0..y.ncols())
             .map(|c| (0..nb).map(|j| (j, y[(j, c)])).collect())
             .collect();
@@ -598,8 +605,9 @@ pub fn smallest_eigenpair(
         for k in 0..nb {
             let (xax, xwx) = rayleigh_parts(&basis[k], &images[k], weights);
             if !(xax > 0.0 && xwx > 0.0 && xax.is_finite() && xwx.is_finite()) {
+                // A block vector lost its weight.
                 return Err(fail(
-                    "breakdown: a block vector lost its weight",
+                    Stall::LostWeight,
                     it,
                     residuals.last().copied().unwrap_or(f64::INFINITY),
                 ));
@@ -628,8 +636,11 @@ pub fn smallest_eigenpair(
                 residuals,
             });
         }
-        if it >= params.max_iterations || !rho.is_finite() {
-            return Err(fail("LOBPCG", it, rho));
+        if !rho.is_finite() {
+            return Err(fail(Stall::Breakdown, it, rho));
+        }
+        if it >= params.max_iterations {
+            return Err(fail(Stall::IterationLimit, it, rho));
         }
         it += 1;
         for k in nb..2 * nb {
@@ -639,7 +650,7 @@ pub fn smallest_eigenpair(
         // Rayleigh–Ritz on S = [X, T, P].
         let m = 2 * nb + np;
         let y = ritz_step(&basis, &images, weights, m, nb)
-            .ok_or_else(|| fail("the search space lost its weight", it, rho))?;
+            .ok_or_else(|| fail(Stall::LostWeight, it, rho))?;
         let nb_new = y.ncols();
         // P_new = T·Y_T + P·Y_P and X_new = X·Y_X + P_new in one pass (old values in), then
         // A·P_new = A·T·Y_T + A·P·Y_P.
@@ -1071,13 +1082,31 @@ mod tests {
         };
         let e = smallest_eigenpair(&a, &Identity, &w, &mut f, &[], &params, "test").unwrap_err();
         assert!(
-            matches!(e, Error::NotConverged { iterations: 1, .. }),
+            matches!(
+                e,
+                Error::NotConverged {
+                    iterations: 1,
+                    stall: Stall::IterationLimit,
+                    ..
+                }
+            ),
             "{e}"
         );
         assert!(e.to_string().contains("relative residual"));
         // A start without weight is refused, not iterated.
         let mut f = vec![0.0; n];
         let e = smallest_eigenpair(&a, &Identity, &w, &mut f, &[], &params, "test").unwrap_err();
+        assert!(
+            matches!(
+                e,
+                Error::NotConverged {
+                    iterations: 0,
+                    stall: Stall::LostWeight,
+                    ..
+                }
+            ),
+            "{e}"
+        );
         assert!(e.to_string().contains("no weight"), "{e}");
     }
 
@@ -1091,7 +1120,14 @@ mod tests {
             max_iterations: 5,
         };
         let e = pcg(&a, &Identity, &b, &mut x, &p, "cg").unwrap_err();
-        assert!(matches!(e, Error::NotConverged { iterations: 5, .. }));
+        assert!(matches!(
+            e,
+            Error::NotConverged {
+                iterations: 5,
+                stall: Stall::IterationLimit,
+                ..
+            }
+        ));
         assert!(e.to_string().contains("did not converge"));
     }
 }

@@ -8,6 +8,7 @@ use crate::error::Result;
 use crate::exact;
 use crate::grid::Grid;
 use crate::pipeline::{solve_unit, UnitOptions};
+use crate::post::WallKind;
 
 /// One comparison of a computed value with its reference.
 #[derive(Debug, Clone, PartialEq)]
@@ -47,7 +48,7 @@ pub fn run(cells: usize) -> Result<Vec<Check>> {
         let sol = solve_unit(
             &case.shape,
             Grid::covering(lo, hi, cells),
-            true,
+            WallKind::Exact,
             &UnitOptions::default(),
         )?;
         let f = &sol.figures;

@@ -26,7 +26,7 @@ fn circle_table() {
     let sol = solve_unit(
         &shape,
         Grid::covering(lo, hi, cells),
-        true,
+        canalis::post::WallKind::Exact,
         &UnitOptions::default(),
     )
     .unwrap();

@@ -2,23 +2,23 @@
 //! the default grid, the observed order of Nu_H1, the iteration counts of the two solves on the
 //! shipped shapes, and agreement between the solver paths.
 
+mod common;
+
 use canalis::geometry::builtin::parse_builtin;
 use canalis::geometry::shapefile::load_shape_file;
 use canalis::geometry::Shape;
-use canalis::grid::Grid;
-use canalis::pipeline::{solve_unit, HeatFigures, Method, UnitOptions, DEFAULT_CELLS};
+use canalis::heat::HeatFigures;
+use canalis::pipeline::{Method, UnitOptions, DEFAULT_CELLS};
+use canalis::post::WallKind;
+use common::{shipped_path, solve_domain};
 
+/// The Nusselt numbers of the built-in shape `spec` on `cells` cells, default options.
 fn heat(spec: &str, cells: usize) -> HeatFigures {
-    let s = parse_builtin(spec).expect("builtin");
-    let (lo, hi) = s.bbox();
-    let sol = solve_unit(
-        &s,
-        Grid::covering(lo, hi, cells),
-        true,
-        &UnitOptions::default(),
+    shape_heat(
+        &parse_builtin(spec).expect("builtin"),
+        cells,
+        Method::default(),
     )
-    .expect("solve");
-    sol.heat.expect("heat transfer is on by default")
 }
 
 #[test]
@@ -102,18 +102,19 @@ fn nusselt_h1_converges_at_second_order() {
     assert!(p >= 1.8, "{p}");
 }
 
+/// The Nusselt numbers of `s` on `cells` cells with `method`.
 fn shape_heat(s: &Shape, cells: usize, method: Method) -> HeatFigures {
-    let (lo, hi) = s.bbox();
     let opts = UnitOptions {
         method,
         ..UnitOptions::default()
     };
-    let sol = solve_unit(s, Grid::covering(lo, hi, cells), true, &opts).expect("solve");
+    let sol = solve_domain(s, WallKind::Exact, cells, &opts);
     sol.heat.expect("heat transfer is on by default")
 }
 
+/// A shipped shape file, by name without `.toml`.
 fn shipped(name: &str) -> Shape {
-    let path = format!("{}/shapes/{name}.toml", env!("CARGO_MANIFEST_DIR"));
+    let path = shipped_path(&format!("{name}.toml"));
     load_shape_file(std::path::Path::new(&path)).expect("shipped shape")
 }
 

@@ -2,25 +2,24 @@
 //! solutions, the staircase mode (`--mask-mode pixels`), `--min-feature` and the bad inputs of
 //! masks that tests/cli.rs does not already cover.
 //!
-//! Library-level checks go through one helper, [`solve_mask`] (the pipeline's own
-//! `mask_domain`, a grid of `cells` cells, `solve_unit`); the CLI checks run the real binary in
-//! a temporary directory through [`canalis`].
+//! Library-level checks go through one helper, [`solve_mask`] (the input module's own
+//! `mask_domain`, then `common::solve_domain`); the CLI checks run the real binary in a
+//! temporary directory through `common::Sandbox`.
+
+mod common;
 
 use canalis::exact::{ellipse_f_re, ellipse_perimeter};
 use canalis::geometry::mask::{Mask, MaskMode};
-use canalis::grid::Grid;
-use canalis::pipeline::{mask_domain, solve_unit, UnitOptions, UnitSolution};
-use serde_json::Value;
+use canalis::input::mask_domain;
+use canalis::outcome::UnitSolution;
+use canalis::pipeline::UnitOptions;
+use common::coverage::disc_rect;
+use common::{rel_err, solve_domain, Sandbox};
 use std::f64::consts::PI;
 use std::path::Path;
-use std::process::Command;
 
 /// Pixel size of the generated masks, metres.
 const PIXEL: f64 = 1e-5;
-
-#[path = "common/coverage.rs"]
-mod coverage;
-use coverage::disc_rect;
 
 /// A mask of the ellipse x²/a² + y²/b² < 1 (pixels; a = b for a circle) centred at `c`
 /// (pixel units from the top-left corner, y down), `n` × `n` pixels. `exact`: each pixel's
@@ -49,23 +48,12 @@ fn ellipse_mask(n: usize, c: [f64; 2], a: f64, b: f64, exact: bool) -> Mask {
 /// Solves the unit problem on the domain the pipeline builds for `mask` in `mode`, on `cells`
 /// cells across (the pixel grid in pixels mode), flow only.
 fn solve_mask(mask: Mask, mode: MaskMode, cells: usize) -> UnitSolution {
-    let (domain, exact_wall, _notes) = mask_domain(mask, mode);
-    let grid = match domain.lattice() {
-        Some(l) => Grid::from_lattice(l),
-        None => {
-            let (lo, hi) = domain.bbox();
-            Grid::covering(lo, hi, cells)
-        }
-    };
+    let (domain, wall_kind, _notes) = mask_domain(mask, mode);
     let opts = UnitOptions {
         heat: false,
         ..Default::default()
     };
-    solve_unit(domain.as_ref(), grid, exact_wall, &opts).expect("solve")
-}
-
-fn rel(v: f64, r: f64) -> f64 {
-    ((v - r) / r).abs()
+    solve_domain(domain.as_ref(), wall_kind, cells, &opts)
 }
 
 /// (perimeter, area, f·Re) relative errors, printed with a label.
@@ -202,27 +190,6 @@ fn min_feature_drops_specks_and_says_so() {
 // ---------------------------------------------------------------------------------------------
 // The binary.
 
-/// Runs the binary in `dir`; (exit code, stdout, stderr).
-fn canalis(dir: &Path, args: &[&str]) -> (Option<i32>, String, String) {
-    let out = Command::new(env!("CARGO_BIN_EXE_canalis"))
-        .args(args)
-        .current_dir(dir)
-        .output()
-        .expect("run canalis");
-    let (so, se) = (
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    );
-    assert!(!se.contains("panicked"), "canalis {args:?} panicked:\n{se}");
-    (out.status.code(), so, se)
-}
-
-fn json(dir: &Path, args: &[&str]) -> Value {
-    let (code, so, se) = canalis(dir, args);
-    assert_eq!(code, Some(0), "canalis {args:?}\n{se}");
-    serde_json::from_str(&so).expect("one JSON object")
-}
-
 /// Writes a grey PNG: a dark disc of `d` pixels across with a grey anti-aliased rim
 /// (coverage by 4 × 4 supersampling), plus one dark speck of `speck` pixels in a corner.
 fn write_disc(path: &Path, n: u32, d: f64, speck: u32) {
@@ -246,17 +213,16 @@ fn write_disc(path: &Path, n: u32, d: f64, speck: u32) {
 
 #[test]
 fn cli_modes_min_feature_and_warnings() {
-    let dir = tempfile::tempdir().expect("temporary directory");
-    let d = dir.path();
-    write_disc(&d.join("disc.png"), 96, 80.0, 3);
+    let sb = Sandbox::new();
+    write_disc(&sb.path("disc.png"), 96, 80.0, 3);
     // Traced (the default) at --cells 160: f·Re = 16 (Hagen–Poiseuille, exact) within 0.5 %
     // for a 4 × 4-supersampled rim; the speck (3 pixels) is dropped with a warning.
     let base = [
         "solve", "disc.png", "--pixel", "0.05mm", "--json", "--cells", "160",
     ];
-    let r = json(d, &base);
+    let r = sb.report(&base);
     let fre = r["fanning_f_re"].as_f64().unwrap();
-    assert!(rel(fre, 16.0) < 5e-3, "{r:#}");
+    assert!(rel_err(fre, 16.0) < 5e-3, "{r:#}");
     let warnings = r["warnings"].to_string();
     assert!(warnings.contains("dropped 1 fluid speck"), "{warnings}");
     assert_eq!(r["grid"]["cells_x"].as_u64(), Some(160), "{r:#}");
@@ -266,18 +232,18 @@ fn cli_modes_min_feature_and_warnings() {
     // --min-feature 0 keeps the speck: a second passage.
     let mut keep = base.to_vec();
     keep.extend(["--min-feature", "0"]);
-    let r = json(d, &keep);
+    let r = sb.report(&keep);
     assert_eq!(r["passages"].as_array().map(Vec::len), Some(2), "{r:#}");
     // The same as an area: 3 pixels of 0.05 mm are 0.0075 mm²; 0.01mm2 drops it.
     let mut area = base.to_vec();
     area.extend(["--min-feature", "0.01mm2"]);
-    let r = json(d, &area);
+    let r = sb.report(&area);
     assert!(r["warnings"].to_string().contains("dropped 1 fluid speck"));
     // Pixels mode: the staircase on the pixel grid, --cells ignored with a warning; f·Re of
     // a 80 px staircase circle within 3 % (as tests/cli.rs allows a 120 px one).
     let mut pixels = base.to_vec();
     pixels.extend(["--mask-mode", "pixels"]);
-    let r = json(d, &pixels);
+    let r = sb.report(&pixels);
     let w = r["warnings"].to_string();
     assert!(
         w.contains("--cells is ignored") && w.contains("staircase"),
@@ -285,7 +251,7 @@ fn cli_modes_min_feature_and_warnings() {
     );
     assert_eq!(r["grid"]["cells_x"].as_u64(), Some(96));
     assert!(
-        rel(r["fanning_f_re"].as_f64().unwrap(), 16.0) < 3e-2,
+        rel_err(r["fanning_f_re"].as_f64().unwrap(), 16.0) < 3e-2,
         "{r:#}"
     );
 }
@@ -294,9 +260,8 @@ fn cli_modes_min_feature_and_warnings() {
 fn cli_bad_mask_inputs() {
     // Each exits with status 2 and names what is wrong (tests/cli.rs already covers a file that
     // is no image, an image without fluid at the default threshold and a missing --pixel).
-    let dir = tempfile::tempdir().expect("temporary directory");
-    let d = dir.path();
-    write_disc(&d.join("disc.png"), 40, 30.0, 0);
+    let sb = Sandbox::new();
+    write_disc(&sb.path("disc.png"), 40, 30.0, 0);
     let cases: [(&[&str], &[&str]); 6] = [
         // An image that cannot be read at all.
         (
@@ -355,18 +320,11 @@ fn cli_bad_mask_inputs() {
         ),
     ];
     for (args, needles) in cases {
-        let (code, so, se) = canalis(d, args);
-        assert_eq!(code, Some(2), "canalis {args:?}\n{se}");
-        assert!(so.trim().is_empty(), "{so}");
-        for n in needles {
-            assert!(se.contains(n), "canalis {args:?}: stderr lacks {n:?}\n{se}");
-        }
+        sb.input_error(args, needles);
     }
     // An unknown mode is a usage error (clap), also status 2.
-    let (code, _, se) = canalis(
-        d,
+    sb.input_error(
         &["solve", "disc.png", "--pixel", "0.1mm", "--mask-mode", "x"],
+        &["--mask-mode"],
     );
-    assert_eq!(code, Some(2), "{se}");
-    assert!(se.contains("--mask-mode"), "{se}");
 }

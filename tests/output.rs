@@ -3,39 +3,21 @@
 //! independent readers (the `png`/`image` decoders, a hand-written CSV split, `roxmltree` for
 //! the VTK XML).
 
+mod common;
+
+use common::{shipped_path, Sandbox};
 use serde_json::Value;
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
-use std::process::Command;
 
-/// Runs canalis in `dir` and returns (exit code, stdout, stderr).
-fn canalis(dir: &Path, args: &[&str]) -> (Option<i32>, String, String) {
-    let out = Command::new(env!("CARGO_BIN_EXE_canalis"))
-        .args(args)
-        .current_dir(dir)
-        .env("RUST_BACKTRACE", "0")
-        .output()
-        .expect("start the canalis binary");
-    (
-        out.status.code(),
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    )
-}
-
-/// Solves into `out` (relative to `dir`) and returns the report.json written there.
-fn solve_into(dir: &Path, out: &str, args: &[&str]) -> Value {
+/// Solves into `out` (relative to the sandbox) and returns the report.json written there.
+fn solve_into(sb: &Sandbox, out: &str, args: &[&str]) -> Value {
     let mut all = vec!["solve"];
     all.extend_from_slice(args);
     all.extend_from_slice(&["--out", out, "--quiet"]);
-    let (code, stdout, stderr) = canalis(dir, &all);
-    assert_eq!(code, Some(0), "{all:?}\n{stdout}\n{stderr}");
-    let text = std::fs::read_to_string(dir.join(out).join("report.json")).expect("report.json");
+    sb.run(&all).assert_success();
+    let text = std::fs::read_to_string(sb.path(out).join("report.json")).expect("report.json");
     serde_json::from_str(&text).expect("report.json is JSON")
-}
-
-fn shape(name: &str) -> String {
-    format!("{}/shapes/{name}", env!("CARGO_MANIFEST_DIR"))
 }
 
 /// A CSV file as (header, rows); no field of ours needs quotes except wall names, which hold
@@ -127,20 +109,19 @@ fn files(dir: &Path) -> Vec<PathBuf> {
 
 #[test]
 fn finned_tube_pictures_and_wall_shear_file() {
-    let tmp = tempfile::tempdir().expect("temporary directory");
-    let dir = tmp.path();
+    let sb = Sandbox::new();
     let report = solve_into(
-        dir,
+        &sb,
         "res",
         &[
-            &shape("finned_tube.toml"),
+            &shipped_path("finned_tube.toml"),
             "--cells",
             "120",
             "--image-width",
             "900",
         ],
     );
-    let out = dir.join("res");
+    let out = sb.path("res");
     for f in files(&out) {
         assert!(f.exists(), "{} was not written", f.display());
     }
@@ -226,10 +207,9 @@ fn finned_tube_pictures_and_wall_shear_file() {
 /// its velocity integrates to the flow.
 #[test]
 fn vti_reproduces_the_flow_at_an_operating_point() {
-    let tmp = tempfile::tempdir().expect("temporary directory");
-    let dir = tmp.path();
+    let sb = Sandbox::new();
     let report = solve_into(
-        dir,
+        &sb,
         "o",
         &[
             "rect:w=20mm,h=5mm",
@@ -243,7 +223,7 @@ fn vti_reproduces_the_flow_at_an_operating_point() {
             "1000",
         ],
     );
-    let out = dir.join("o");
+    let out = sb.path("o");
     let text = std::fs::read_to_string(out.join("velocity.vti")).expect("velocity.vti");
     let doc = roxmltree::Document::parse(&text).expect("velocity.vti is XML");
     let root = doc.root_element();
@@ -357,9 +337,8 @@ fn vti_reproduces_the_flow_at_an_operating_point() {
 
 #[test]
 fn existing_files_are_never_overwritten_without_force() {
-    let tmp = tempfile::tempdir().expect("temporary directory");
-    let dir = tmp.path();
-    let out = dir.join("o");
+    let sb = Sandbox::new();
+    let out = sb.path("o");
     std::fs::create_dir_all(&out).unwrap();
     // One file in the way: refused before anything is written, naming the file.
     std::fs::write(out.join("wall_shear.png"), "keep me").unwrap();
@@ -372,13 +351,10 @@ fn existing_files_are_never_overwritten_without_force() {
         "o",
         "--quiet",
     ];
-    let (code, stdout, stderr) = canalis(dir, &args);
-    assert_eq!(code, Some(2), "{stdout}\n{stderr}");
-    assert!(
-        stderr.contains("wall_shear.png already exists; not overwritten"),
-        "{stderr}"
+    sb.input_error(
+        &args,
+        &["wall_shear.png already exists; not overwritten", "--force"],
     );
-    assert!(stderr.contains("--force"), "{stderr}");
     assert_eq!(
         std::fs::read_dir(&out).unwrap().count(),
         1,
@@ -391,18 +367,15 @@ fn existing_files_are_never_overwritten_without_force() {
     // --force replaces it.
     let mut forced = args.to_vec();
     forced.push("--force");
-    let (code, _, stderr) = canalis(dir, &forced);
-    assert_eq!(code, Some(0), "{stderr}");
+    sb.run(&forced).assert_success();
     assert!(Picture::load(&out.join("wall_shear.png")).img.width() > 0);
     // A second run without --force names the first file in the way.
-    let (code, _, stderr) = canalis(dir, &args);
-    assert_eq!(code, Some(2));
-    assert!(stderr.contains("report.json already exists"), "{stderr}");
+    sb.input_error(&args, &["report.json already exists"]);
 }
 
 #[test]
 fn image_width_out_of_range_is_refused() {
-    let tmp = tempfile::tempdir().expect("temporary directory");
+    let sb = Sandbox::new();
     let args = [
         "solve",
         "circle:d=8mm",
@@ -413,11 +386,6 @@ fn image_width_out_of_range_is_refused() {
         "--image-width",
         "50",
     ];
-    let (code, stdout, stderr) = canalis(tmp.path(), &args);
-    assert_eq!(code, Some(2), "{stdout}\n{stderr}");
-    assert!(stderr.contains("--image-width"), "{stderr}");
-    assert!(
-        !tmp.path().join("o").exists(),
-        "nothing is written after a refusal"
-    );
+    sb.input_error(&args, &["--image-width"]);
+    assert!(!sb.path("o").exists(), "nothing is written after a refusal");
 }

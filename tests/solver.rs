@@ -2,20 +2,17 @@
 //! robustness: iteration counts (deterministic, so assertable) on shapes that trouble multigrid
 //! (thin gaps, tiny cut fractions, re-entrant corners, disconnected passages, holes, masks).
 
+mod common;
+
 use canalis::geometry::builtin::parse_builtin;
 use canalis::geometry::mask::Mask;
 use canalis::geometry::{Domain, Primitive, Shape};
-use canalis::grid::Grid;
-use canalis::pipeline::{solve_unit, Method, UnitOptions, UnitSolution};
+use canalis::outcome::UnitSolution;
+use canalis::pipeline::{Method, UnitOptions};
+use canalis::post::WallKind;
+use common::solve_domain;
 
 fn solve(domain: &dyn Domain, cells: usize, method: Method, correction: bool) -> UnitSolution {
-    let grid = match domain.lattice() {
-        Some(l) => Grid::from_lattice(l),
-        None => {
-            let (lo, hi) = domain.bbox();
-            Grid::covering(lo, hi, cells)
-        }
-    };
     // The flow problem only: these tests are about the linear solver.
     let opts = UnitOptions {
         method,
@@ -23,7 +20,12 @@ fn solve(domain: &dyn Domain, cells: usize, method: Method, correction: bool) ->
         wall_correction: correction,
         ..Default::default()
     };
-    solve_unit(domain, grid, domain.lattice().is_none(), &opts).expect("solve")
+    // A mask's pixel staircase; every other domain here has exact walls.
+    let walls = match domain.lattice() {
+        Some(_) => WallKind::Staircase,
+        None => WallKind::Exact,
+    };
+    solve_domain(domain, walls, cells, &opts)
 }
 
 /// Two separate round passages, each given as (centre, radius) in metres.
@@ -122,8 +124,7 @@ fn multigrid_iterations_do_not_grow_with_the_grid() {
     let counts: Vec<usize> = [128, 256, 512, 1024]
         .iter()
         .map(|&n| {
-            let (lo, hi) = circle.bbox();
-            let sol = solve_unit(&circle, Grid::covering(lo, hi, n), true, &opts).expect("solve");
+            let sol = solve_domain(&circle, WallKind::Exact, n, &opts);
             assert!(sol.info.relative_residual <= 1e-10);
             sol.info.iterations
         })

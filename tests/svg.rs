@@ -4,39 +4,18 @@
 //! shape file describe the same curves, so f·Re, area and perimeter agree to well within
 //! 0.05 %). Bad input: exit status 2 with a message naming the file or the option.
 
+mod common;
+
+use common::Sandbox;
 use serde_json::Value;
-use std::path::Path;
-use std::process::{Command, Output};
 
 const SVG_NS: &str = "xmlns=\"http://www.w3.org/2000/svg\"";
 
-fn run(dir: &Path, args: &[&str]) -> Output {
-    let out = Command::new(env!("CARGO_BIN_EXE_canalis"))
-        .current_dir(dir)
-        .args(args)
-        .output()
-        .expect("the binary runs");
-    let stderr = String::from_utf8_lossy(&out.stderr);
-    assert!(!stderr.contains("panicked"), "panic: {stderr}");
-    out
-}
-
-fn solve(dir: &Path, shape: &str, extra: &[&str]) -> Value {
+/// The report of `shape` solved on 200 cells.
+fn solve(sb: &Sandbox, shape: &str, extra: &[&str]) -> Value {
     let mut args = vec!["solve", shape, "--cells", "200", "--json", "--quiet"];
     args.extend_from_slice(extra);
-    let out = run(dir, &args);
-    assert_eq!(
-        out.status.code(),
-        Some(0),
-        "canalis {args:?}\n{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    serde_json::from_slice(&out.stdout).expect("one JSON object")
-}
-
-fn write(dir: &Path, name: &str, text: &str) -> String {
-    std::fs::write(dir.join(name), text).expect("write");
-    name.to_string()
+    sb.report(&args)
 }
 
 /// Relative differences of f·Re, area and perimeter; asserts each is below 0.05 %.
@@ -60,24 +39,19 @@ fn compare(what: &str, svg: &Value, reference: &Value) -> [f64; 3] {
     d
 }
 
-fn stderr_of(out: &Output) -> String {
-    String::from_utf8_lossy(&out.stderr).to_string()
-}
-
 #[test]
 fn circle_matches_the_builtin_circle() {
-    let dir = tempfile::tempdir().unwrap();
+    let sb = Sandbox::new();
     // 40 mm wide over 40 user units: 1 unit = 1 mm; r = 4 mm, d = 8 mm (exact geometry).
-    let svg = write(
-        dir.path(),
+    let svg = sb.write(
         "circle.svg",
         &format!(
             "<svg {SVG_NS} width=\"40mm\" height=\"40mm\" viewBox=\"0 0 40 40\">\
              <circle cx=\"20\" cy=\"15\" r=\"4\" fill=\"black\"/></svg>"
         ),
     );
-    let a = solve(dir.path(), &svg, &[]);
-    let b = solve(dir.path(), "circle:d=8mm", &[]);
+    let a = solve(&sb, &svg, &[]);
+    let b = solve(&sb, "circle:d=8mm", &[]);
     compare("circle", &a, &b);
     // f·Re = 16 for a circle (Hagen–Poiseuille, exact).
     assert!((a["fanning_f_re"].as_f64().unwrap() / 16.0 - 1.0).abs() < 5e-4);
@@ -87,10 +61,9 @@ fn circle_matches_the_builtin_circle() {
 
 #[test]
 fn rotated_ellipse_matches_the_shape_file() {
-    let dir = tempfile::tempdir().unwrap();
+    let sb = Sandbox::new();
     // rotate(30) in SVG's y-down frame is −30° in the y-up cross-section.
-    let svg = write(
-        dir.path(),
+    let svg = sb.write(
         "ellipse.svg",
         &format!(
             "<svg {SVG_NS} width=\"10cm\" height=\"10cm\" viewBox=\"0 0 100 100\">\
@@ -98,14 +71,13 @@ fn rotated_ellipse_matches_the_shape_file() {
              fill=\"#204080\"/></svg>"
         ),
     );
-    let toml = write(
-        dir.path(),
+    let toml = sb.write(
         "ellipse.toml",
         "units = \"mm\"\n[[region]]\nkind = \"ellipse\"\ncenter = [50, -50]\n\
          semi_axes = [6, 3]\nangle_deg = -30\n",
     );
-    let a = solve(dir.path(), &svg, &[]);
-    let b = solve(dir.path(), &toml, &[]);
+    let a = solve(&sb, &svg, &[]);
+    let b = solve(&sb, &toml, &[]);
     compare("rotated ellipse", &a, &b);
 }
 
@@ -116,9 +88,8 @@ const SQUARE_HOLE_TOML: &str = "units = \"mm\"\n[[region]]\nkind = \"polygon\"\n
 
 #[test]
 fn evenodd_hole_and_white_circle_match_the_shape_file() {
-    let dir = tempfile::tempdir().unwrap();
-    let evenodd = write(
-        dir.path(),
+    let sb = Sandbox::new();
+    let evenodd = sb.write(
         "evenodd.svg",
         &format!(
             "<svg {SVG_NS} viewBox=\"0 0 20 20\"><path fill-rule=\"evenodd\" \
@@ -126,26 +97,25 @@ fn evenodd_hole_and_white_circle_match_the_shape_file() {
              A5 5 0 0 1 10 5 Z\"/></svg>"
         ),
     );
-    let white = write(
-        dir.path(),
+    let white = sb.write(
         "white.svg",
         &format!(
             "<svg {SVG_NS} viewBox=\"0 0 20 20\"><rect width=\"20\" height=\"20\"/>\
              <circle cx=\"10\" cy=\"10\" r=\"5\" fill=\"white\"/></svg>"
         ),
     );
-    let toml = write(dir.path(), "square_hole.toml", SQUARE_HOLE_TOML);
-    let reference = solve(dir.path(), &toml, &[]);
-    let a = solve(dir.path(), &evenodd, &["--scale", "1mm"]);
+    let toml = sb.write("square_hole.toml", SQUARE_HOLE_TOML);
+    let reference = solve(&sb, &toml, &[]);
+    let a = solve(&sb, &evenodd, &["--scale", "1mm"]);
     compare("square with evenodd hole", &a, &reference);
-    let b = solve(dir.path(), &white, &["--scale", "1mm"]);
+    let b = solve(&sb, &white, &["--scale", "1mm"]);
     compare("square with white circle", &b, &reference);
     compare("white circle against evenodd hole", &b, &a);
 }
 
 #[test]
 fn bad_drawings_exit_2_with_a_message() {
-    let dir = tempfile::tempdir().unwrap();
+    let sb = Sandbox::new();
     let cases = [
         (
             "nofill.svg",
@@ -178,39 +148,27 @@ fn bad_drawings_exit_2_with_a_message() {
         ),
     ];
     for (name, text, needle) in &cases {
-        let file = write(dir.path(), name, text);
-        let out = run(dir.path(), &["solve", &file, "--json"]);
-        let err = stderr_of(&out);
-        assert_eq!(out.status.code(), Some(2), "{name}: {err}");
-        assert!(err.contains(name) && err.contains(needle), "{name}: {err}");
-        assert!(out.stdout.is_empty(), "{name}: stdout not empty");
+        let file = sb.write(name, text);
+        sb.input_error(&["solve", &file, "--json"], &[name, needle]);
     }
     // An outline drawn back to its start without Z is closed, not open: it solves.
-    let file = write(
-        dir.path(),
+    let file = sb.write(
         "backtostart.svg",
         &format!(
             "<svg {SVG_NS} width=\"10mm\" height=\"10mm\" viewBox=\"0 0 10 10\">\
              <path d=\"M 1 1 L 9 1 L 9 9 L 1 9 L 1 1\"/></svg>"
         ),
     );
-    let out = run(dir.path(), &["solve", &file, "--json", "--cells", "64"]);
-    assert_eq!(out.status.code(), Some(0), "{}", stderr_of(&out));
+    sb.run(&["solve", &file, "--json", "--cells", "64"])
+        .assert_success();
     // A file that is not there.
-    let out = run(dir.path(), &["solve", "missing.svg"]);
-    let err = stderr_of(&out);
-    assert_eq!(out.status.code(), Some(2), "{err}");
-    assert!(err.contains("missing.svg"), "{err}");
+    sb.input_error(&["solve", "missing.svg"], &["missing.svg"]);
     // A bad --scale.
-    let file = write(
-        dir.path(),
+    let file = sb.write(
         "ok.svg",
         &format!("<svg {SVG_NS} viewBox=\"0 0 10 10\"><circle cx=\"5\" cy=\"5\" r=\"2\"/></svg>"),
     );
     for bad in ["-1mm", "0", "abc", "3furlong"] {
-        let out = run(dir.path(), &["solve", &file, "--scale", bad]);
-        let err = stderr_of(&out);
-        assert_eq!(out.status.code(), Some(2), "--scale {bad}: {err}");
-        assert!(err.contains("--scale"), "--scale {bad}: {err}");
+        sb.input_error(&["solve", &file, "--scale", bad], &["--scale"]);
     }
 }

@@ -7,30 +7,27 @@
 //! - The cheap estimate without `--accuracy`: present, marked, and covering the true error.
 //! - Masks (binary and anti-aliased PNGs of circles 100 and 200 px across written here, in
 //!   `pixels` and `traced` mode, cheap estimate and study): the reported uncertainty, from the
-//!   image-resolution study of `pipeline::run_image_study`, covers the difference to the exact
+//!   image-resolution study of `study::runs::run_image_study`, covers the difference to the exact
 //!   value 16 and is within 30 times of it.
 //! - One CLI run: the JSON keys of the `uncertainty` object and the ± in the summary.
 //!
 //! Heat transfer is off except in the CLI run (the Nusselt numbers have their own tests in
 //! tests/heat.rs). `cargo test --release --test uncertainty -- --nocapture` prints the table.
 
-use canalis::exact::{self, ExactCase};
+mod common;
+
 use canalis::geometry::mask::{MaskMode, MaskOptions};
-use canalis::pipeline::{self, ErrorEstimate, Input, Outcome, SolveConfig};
+use canalis::input::Input;
+use canalis::outcome::Outcome;
+use canalis::pipeline::{self, ErrorEstimate, SolveConfig};
 use canalis::study::{Behaviour, Estimate, Kind};
+use common::coverage::disc_rect;
+use common::{exact_case, Sandbox};
 use std::path::Path;
-use std::process::Command;
 use std::time::Instant;
 
 /// The relative accuracy asked for (issue 6).
 const TOL: f64 = 1e-4;
-
-fn case(key: &str) -> ExactCase {
-    match exact::cases().into_iter().find(|c| c.key == key) {
-        Some(c) => c,
-        None => panic!("no exact case {key}"),
-    }
-}
 
 /// Runs `spec` (a built-in shape) through the pipeline with the flow problem only.
 fn run(spec: &str, estimate: ErrorEstimate, cells: Option<usize>) -> Outcome {
@@ -53,7 +50,7 @@ fn f_re_estimate(o: &Outcome) -> Estimate {
 /// The `--accuracy 1e-4` checks of issue 6 on one exact case: true error < 1e-4, true error <
 /// reported uncertainty, observed order in [1.7, 2.3].
 fn accuracy_case(key: &str, spec: &str, order: Order) {
-    let c = case(key);
+    let c = exact_case(key);
     let o = run(spec, ErrorEstimate::Accuracy(TOL), None);
     let u = o.uncertainty.as_ref().expect("an uncertainty object");
     let e = f_re_estimate(&o);
@@ -150,7 +147,7 @@ fn cheap_estimate_is_marked_and_covers_the_error() {
     // Without --accuracy: one coarser grid (200 / 1.75 ≈ 114 cells), order 2 assumed, F_s = 3.
     // Exact values from src/exact.rs (circle 16, Hagen–Poiseuille; square, Shah & London 1978).
     for (key, spec) in [("circle", "circle:d=1"), ("square", "square:side=1")] {
-        let c = case(key);
+        let c = exact_case(key);
         let o = run(spec, ErrorEstimate::Cheap, Some(200));
         let u = o.uncertainty.as_ref().expect("a cheap estimate");
         assert_eq!(u.kind, Kind::Cheap);
@@ -170,10 +167,6 @@ fn cheap_estimate_is_marked_and_covers_the_error() {
         .uncertainty
         .is_none());
 }
-
-#[path = "common/coverage.rs"]
-mod coverage;
-use coverage::disc_rect;
 
 /// Writes a PNG of a dark disc `d` pixels across, centred off the pixel lattice at
 /// (0.37, 0.29) pixel from the image centre, in an image 12 pixels wider than the disc.
@@ -317,23 +310,14 @@ fn mask_uncertainty_traced() {
 
 #[test]
 fn cli_reports_uncertainty_keys_and_plus_minus() {
-    let bin = env!("CARGO_BIN_EXE_canalis");
-    let out = Command::new(bin)
-        .args([
-            "solve",
-            "ellipse:a=6mm,b=3mm",
-            "--accuracy",
-            "1e-3",
-            "--json",
-        ])
-        .output()
-        .expect("run canalis");
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    let v: serde_json::Value = serde_json::from_slice(&out.stdout).expect("one JSON object");
+    let sb = Sandbox::new();
+    let v = sb.report(&[
+        "solve",
+        "ellipse:a=6mm,b=3mm",
+        "--accuracy",
+        "1e-3",
+        "--json",
+    ]);
     let u = &v["uncertainty"];
     // Keys of ../shared/INTERFACE.md (error bars), for every quantity with heat transfer on.
     for q in [
@@ -359,12 +343,8 @@ fn cli_reports_uncertainty_keys_and_plus_minus() {
     assert_eq!(u["fanning_f_re"]["fine"], v["fanning_f_re"]);
     assert!(u["fanning_f_re"]["relative_uncertainty"].as_f64().unwrap() < 1e-3);
     // The summary: each figure as value ± uncertainty.
-    let out = Command::new(bin)
-        .args(["solve", "ellipse:a=6mm,b=3mm", "--cells", "120", "--quiet"])
-        .output()
-        .expect("run canalis");
-    assert!(out.status.success());
-    let text = String::from_utf8_lossy(&out.stdout);
+    let run = sb.run(&["solve", "ellipse:a=6mm,b=3mm", "--cells", "120", "--quiet"]);
+    let text = &run.assert_success().stdout;
     for label in [
         "f·Re, Fanning",
         "u_max / u_mean",
@@ -380,10 +360,8 @@ fn cli_reports_uncertainty_keys_and_plus_minus() {
     }
     assert!(text.contains("cheap estimate"), "{text}");
     // A bad tolerance is a usage error (exit 2) naming the option.
-    let out = Command::new(bin)
-        .args(["solve", "circle:d=1mm", "--accuracy", "2"])
-        .output()
-        .expect("run canalis");
-    assert_eq!(out.status.code(), Some(2));
-    assert!(String::from_utf8_lossy(&out.stderr).contains("--accuracy"));
+    sb.input_error(
+        &["solve", "circle:d=1mm", "--accuracy", "2"],
+        &["--accuracy"],
+    );
 }

@@ -14,8 +14,8 @@ mod common;
 
 use canalis::exact::{self, ExactCase};
 use canalis::geometry::{Primitive, Shape};
-use canalis::pipeline::UnitSolution;
-use common::{rel_err, solve_case, Table};
+use canalis::outcome::UnitSolution;
+use common::{exact_case, rel_err, solve_case, solve_domain, Table};
 use std::f64::consts::PI;
 
 /// Grids of every convergence study, coarse to fine (spacing ratio 2).
@@ -26,13 +26,6 @@ const VALUE_TOL: f64 = 5e-4;
 const MIN_ORDER: f64 = 1.8;
 /// Largest force balance error |∮τ̃ ds − A|/A at 400 cells (issue 2).
 const FORCE_TOL: f64 = 1e-3;
-
-fn case(key: &str) -> ExactCase {
-    match exact::cases().into_iter().find(|c| c.key == key) {
-        Some(c) => c,
-        None => panic!("no exact case {key}"),
-    }
-}
 
 /// Solves `case` on every grid, prints the tables and asserts the accuracy of issue 2: f·Re
 /// and u_max/ū within 0.05% at 400 cells, observed f·Re order ≥ 1.8 between 200 and 400 cells,
@@ -96,7 +89,7 @@ fn assert_quoted(what: &str, value: f64, quoted: f64, decimals: i32) {
 
 #[test]
 fn circle_hagen_poiseuille() {
-    let c = case("circle");
+    let c = exact_case("circle");
     // Hagen–Poiseuille, exact: f·Re = 16, u_max/ū = 2.
     assert_quoted("circle f·Re", c.fanning_f_re, 16.0, 12);
     assert_quoted("circle u_max/ū", c.max_to_mean_velocity, 2.0, 12);
@@ -105,7 +98,7 @@ fn circle_hagen_poiseuille() {
 
 #[test]
 fn ellipse_half_and_its_wall_shear() {
-    let c = case("ellipse");
+    let c = exact_case("ellipse");
     // Exact closed form f·Re = 32π²(a² + b²)/P² (classical; Shah & London 1978, elliptical
     // ducts); 16.8233 at b/a = 0.5 as quoted in issue 2.
     assert_quoted("ellipse f·Re", c.fanning_f_re, 16.8233, 4);
@@ -119,7 +112,7 @@ fn ellipse_half_and_its_wall_shear() {
 
 #[test]
 fn ellipse_half_rotated_30_degrees_wall_shear() {
-    let c = case("ellipse");
+    let c = exact_case("ellipse");
     let rotated = Shape {
         name: Some("ellipse b/a = 0.5 rotated 30°".to_string()),
         regions: vec![c.shape.regions[0].transformed(1.0, 30f64.to_radians(), [0.0, 0.0])],
@@ -246,7 +239,7 @@ fn check_ellipse_wall_shear(c: &ExactCase, solutions: &[UnitSolution]) {
 
 #[test]
 fn equilateral_triangle() {
-    let c = case("triangle");
+    let c = exact_case("triangle");
     // Exact cubic field ũ = d₁d₂d₃/H (classical; Shah & London 1978, triangular ducts):
     // f·Re = 40/3, u_max/ū = 20/9.
     assert_quoted("triangle f·Re", c.fanning_f_re, 40.0 / 3.0, 12);
@@ -256,7 +249,7 @@ fn equilateral_triangle() {
 
 #[test]
 fn square() {
-    let c = case("square");
+    let c = exact_case("square");
     // Exact Fourier series (classical; Shah & London 1978, rectangular ducts): f·Re = 14.2271
     // as quoted in issue 2; u_max/ū = 2.096 (Shah & London 1978, from memory).
     assert_quoted("square f·Re", c.fanning_f_re, 14.2271, 4);
@@ -267,7 +260,7 @@ fn square() {
 
 #[test]
 fn rectangle_quarter() {
-    let c = case("rectangle");
+    let c = exact_case("rectangle");
     // Exact Fourier series: f·Re = 18.2328 at b/a = 0.25 as quoted in issue 2; Shah & London
     // 1978, table for rectangular ducts: 18.233.
     assert_quoted("rectangle f·Re", c.fanning_f_re, 18.2328, 4);
@@ -278,7 +271,7 @@ fn rectangle_quarter() {
 
 #[test]
 fn concentric_annulus_half() {
-    let c = case("annulus");
+    let c = exact_case("annulus");
     // Exact logarithmic field (classical; Shah & London 1978, concentric annular ducts):
     // f·Re = 23.8125 at r_i/r_o = 0.5 as quoted in issue 2.
     assert_quoted("annulus f·Re", c.fanning_f_re, 23.8125, 4);
@@ -535,9 +528,8 @@ fn mask_of_a_circle_400_pixels() {
     // (Hagen–Poiseuille, exact) and the sub-pixel contour perimeter within 1 % of π·d (exact
     // geometry, common practice, no source).
     use canalis::geometry::mask::Mask;
-    use canalis::geometry::Domain;
-    use canalis::grid::Grid;
-    use canalis::pipeline::{solve_unit, UnitOptions};
+    use canalis::pipeline::UnitOptions;
+    use canalis::post::WallKind;
     let (n, d) = (420usize, 400.0);
     let c = [210.3, 209.6];
     let (mask, _warnings) = Mask::from_fn(n, n, 1e-5, |col, row| {
@@ -545,12 +537,12 @@ fn mask_of_a_circle_400_pixels() {
         x * x + y * y < 0.25 * d * d
     })
     .expect("mask");
-    let grid = Grid::from_lattice(mask.lattice().expect("a mask has a lattice"));
     let opts = UnitOptions {
         heat: false,
         ..Default::default()
     };
-    let sol = solve_unit(&mask, grid, false, &opts).expect("solve");
+    // The pixel grid (cells ignored), the staircase walls.
+    let sol = solve_domain(&mask, WallKind::Staircase, 0, &opts);
     let f = &sol.figures;
     let p_exact = std::f64::consts::PI * d * 1e-5;
     println!(

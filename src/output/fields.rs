@@ -17,7 +17,7 @@
 //! Invariant: computes no physics.
 
 use super::Scale;
-use crate::pipeline::Outcome;
+use crate::outcome::Outcome;
 use std::fmt::Write;
 
 /// Velocity of every grid node in displayed units, 0 at solid nodes.

@@ -6,7 +6,8 @@
 //! point u = (G/μ)·ũ in m/s and τ = G·τ̃ in Pa; without one u/ū and τ/τ̄ (ū = I/A from the flow
 //! integral I = ∫ũ dA, τ̄ the perimeter mean of τ̃).
 //!
-//! * [`png`]: `velocity.png` and `wall_shear.png` (rasterised here, embedded font, no system
+//! * [`png`]: `velocity.png`, `wall_shear.png` and `temperature_h1.png` (the H1 temperature
+//!   θ = φ/φ_b, when heat transfer was solved; rasterised here, embedded font, no system
 //!   fonts needed);
 //! * [`fields`]: `velocity.csv`, `wall_shear.csv` and `velocity.vti` (VTK XML ImageData).
 //!
@@ -17,7 +18,7 @@ pub mod fields;
 pub mod png;
 
 use crate::error::{Error, Result};
-use crate::pipeline::Outcome;
+use crate::outcome::Outcome;
 use crate::report;
 use std::path::{Path, PathBuf};
 
@@ -42,7 +43,7 @@ pub const MAX_IMAGE_WIDTH: u32 = 8000;
 /// How to write the files of `--out`.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub struct OutputOptions {
-    /// Width of `velocity.png` and `wall_shear.png`, pixels (the height follows the shape).
+    /// Width of the pictures, pixels (the height follows the shape).
     pub image_width: u32,
     /// Replace files that already exist.
     pub force: bool,

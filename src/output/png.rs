@@ -1,4 +1,4 @@
-//! The pictures of `--out`: `velocity.png` and `wall_shear.png`.
+//! The pictures of `--out`: `velocity.png`, `wall_shear.png` and `temperature_h1.png`.
 //!
 //! Owns: rasterising them. Everything is drawn here on an RGB canvas: the field pixel by pixel,
 //! walls and curves as antialiased lines (coverage = distance from the pixel centre to the
@@ -28,7 +28,7 @@ use super::{display_unit, fields, Scale};
 use crate::error::{Error, Result};
 use crate::geometry::{Point, WallSample};
 use crate::grid::{Classified, Dir};
-use crate::pipeline::Outcome;
+use crate::outcome::Outcome;
 use ab_glyph::{point, Font, FontRef, PxScale, ScaleFont};
 
 /// The viridis colour map, 256 entries of sRGB in 0..1 (mpl-colormaps, CC0; see the module doc).

@@ -1,5 +1,5 @@
-//! Exact pixel coverage of a disc, for anti-aliased test masks (shared by tests/mask.rs and
-//! tests/uncertainty.rs; included with `#[path]`, so each test binary compiles its own copy).
+//! Exact pixel coverage of a disc, for anti-aliased test masks (used by tests/mask.rs and
+//! tests/uncertainty.rs, through `common::coverage`).
 
 use std::f64::consts::PI;
 

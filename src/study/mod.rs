@@ -2,9 +2,11 @@
 //! grids.
 //!
 //! Owns: Richardson extrapolation with the observed order, the Grid Convergence Index (GCI), the
-//! detection of oscillatory and non-monotone convergence, the refinement schedule (cells of the k-th
-//! grid, the placement of the grids) and the result types the report shows. Does not solve anything: the
-//! pipeline runs the grids ([`crate::pipeline::run`]) and hands the values here.
+//! detection of oscillatory and non-monotone convergence, the refinement schedule (cells of the
+//! k-th grid, the placement of the grids) and the result types the report shows.
+//!
+//! Invariant: this file solves nothing. Its submodule [`runs`] runs the grids (through
+//! `pipeline::run_once`) and hands the values here.
 //!
 //! # The procedure
 //!
@@ -46,6 +48,8 @@
 //! - Two grids only (the cheap estimate): the formal order 2 is assumed and F_s = 3 (Roache
 //!   1994, for two-grid studies).
 //! - Changes at the level of round-off give the floor [`ROUND_OFF_FLOOR`] instead of zero.
+
+pub mod runs;
 
 /// Formal order of accuracy of the cut-cell scheme for the figures of merit (Gibou et al. 2002,
 /// second order; DEVELOPERS.md, numerical notes).
@@ -225,15 +229,11 @@ pub fn two_grids_of_order(fine: Sample, coarse: Sample, formal: f64) -> Option<E
     })
 }
 
-/// The three-grid estimate (module notes). `fine.h < medium.h < coarse.h`. None when a value is
-/// not finite or the spacings are not ordered.
-pub fn three_grids(fine: Sample, medium: Sample, coarse: Sample) -> Option<Estimate> {
-    three_grids_of_order(fine, medium, coarse, FORMAL_ORDER)
-}
-
-/// [`three_grids`] for a discretisation of formal order `formal`: the sensible band is
-/// ±25 % around it and the order used is clamped to [0.5, `formal`] (as [`SENSIBLE_ORDER`] and
-/// [`ORDER_CLAMP`] are for order 2).
+/// The three-grid estimate (module notes) for a discretisation of formal order `formal`
+/// (2 for the grids of a study, [`IMAGE_ORDER`] for the images of a mask). `fine.h < medium.h <
+/// coarse.h`. None when a value is not finite or the spacings are not ordered. The sensible
+/// band is ±25 % around `formal` and the order used is clamped to [0.5, `formal`] (as
+/// [`SENSIBLE_ORDER`] and [`ORDER_CLAMP`] are for order 2).
 pub fn three_grids_of_order(
     fine: Sample,
     medium: Sample,

@@ -1,0 +1,68 @@
+//! What a run produced: the unit solution and the outcome of a whole `solve`.
+//!
+//! Owns: [`UnitSolution`] (the fields and figures of the unit problem on one grid, with the
+//! solver's counts and the stage timings) and [`Outcome`] (a unit solution with its label,
+//! operating point, warnings and numerical uncertainty). [`crate::pipeline`] produces them;
+//! [`crate::report`] and [`crate::output`] consume them.
+//!
+//! Invariant: plain data; computes, solves, formats and writes nothing.
+
+use crate::geometry::Walls;
+use crate::grid::Classified;
+use crate::heat::HeatFigures;
+use crate::operating::OperatingResult;
+use crate::operator::Numbering;
+use crate::post::{self, Figures, ShearSample};
+use crate::solver::CgInfo;
+use crate::study::Uncertainty;
+
+/// Everything the unit problem produced.
+#[derive(Debug, Clone)]
+pub struct UnitSolution {
+    pub classified: Classified,
+    pub numbering: Numbering,
+    /// ũ at every unknown, m².
+    pub u: Vec<f64>,
+    pub walls: Walls,
+    pub shear: Vec<ShearSample>,
+    pub figures: Figures,
+    /// Per passage (one entry when the fluid is connected), top-left first.
+    pub passages: Vec<post::PassageFigures>,
+    /// Fully developed heat transfer, when asked for.
+    pub heat: Option<HeatFigures>,
+    pub info: CgInfo,
+    /// Each CG solve on its own: the first solve, then the one with the wall correction.
+    pub passes: Vec<CgInfo>,
+    /// Name of the solver method used.
+    pub method_name: &'static str,
+    pub seconds: Timings,
+}
+
+/// Wall-clock seconds per stage.
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct Timings {
+    pub grid: f64,
+    pub assembly: f64,
+    /// Preconditioner setup (the multigrid hierarchy).
+    pub setup: f64,
+    /// The two heat-transfer problems (Nu_H1, Nu_T).
+    pub heat: f64,
+    pub solve: f64,
+    pub post: f64,
+}
+
+/// Everything a `solve` run produced.
+#[derive(Debug, Clone)]
+pub struct Outcome {
+    /// A label for the cross-section.
+    pub name: String,
+    pub unit: UnitSolution,
+    pub operating: Option<OperatingResult>,
+    pub warnings: Vec<String>,
+    /// Wall-clock seconds of the whole run (every grid of an uncertainty estimate included).
+    pub seconds: f64,
+    /// The numerical uncertainty of the figures, unless switched off.
+    pub uncertainty: Option<Uncertainty>,
+    /// The grid was fixed by the input (a mask's pixel grid), not chosen from `cells`.
+    pub fixed_grid: bool,
+}
