@@ -1,20 +1,19 @@
 //! Fully developed laminar heat transfer on the flow problem's operator: Nu_H1 and Nu_T.
 //!
-//! Owns: [`HeatFigures`], the H1 solve −∇²ψ = ũ/ū and its bulk quadrature ([`nusselt_h1`]), the
-//! Nu_T eigen-solve (LOBPCG through [`smallest_eigenpair`]) and the view of a whole-grid
-//! operator on vectors of unknowns (`OnUnknowns`) that the eigen-solver needs.
+//! Owns: [`HeatFigures`], the H1 solve −∇²ψ = ũ/ū and its bulk quadrature ([`nusselt_h1`]) and
+//! the Nu_T eigen-solve (LOBPCG through [`System::smallest_eigenpair`]).
 //!
 //! Invariant: builds no operator and no preconditioner of its own (it is handed the flow
-//! problem's, [`crate::pipeline::solve_unit`] calls it), knows no fluid and writes nothing.
+//! problem's [`System`]; [`crate::pipeline::solve_unit`] calls it), knows no fluid and writes
+//! nothing.
 
 use crate::error::{Result, Solve};
 use crate::grid::Classified;
 use crate::operator::Numbering;
 use crate::post::{quadrature_weights, Figures};
-use crate::solver::{
-    smallest_eigenpair, CgParams, EigenInfo, EigenParams, InnerCg, LinearOperator, Preconditioner,
-    SolveFn,
-};
+use crate::problem::Field;
+use crate::solver::{CgParams, EigenInfo, EigenParams};
+use crate::system::System;
 
 /// Nusselt numbers of fully developed laminar heat transfer.
 #[derive(Debug, Clone, PartialEq)]
@@ -35,50 +34,20 @@ pub struct HeatFigures {
 /// Relative residual of the Nu_H1 solve (see [`heat_transfer`]).
 const H1_TOLERANCE: f64 = 1e-8;
 
-/// The flow problem's operator and preconditioner as [`crate::pipeline::solve_unit`] built
-/// them, and whether they act on whole-grid vectors (the multigrid path) rather than on
-/// unknowns.
-pub(crate) type FlowOperators<'a> = (&'a dyn LinearOperator, &'a dyn Preconditioner, bool);
-
-/// The two heat-transfer problems on the flow problem's operator, with w = ũ/ū:
+/// The two heat-transfer problems on the flow problem's system (its operator and
+/// preconditioner), with w = ũ/ū:
 /// - H1: −∇²ψ = w, ψ = 0 on the walls (ψ = −φ of ∇²φ = w); φ_b the w-weighted mean of ψ by the
 ///   same cut-cell quadrature as the flow integral; Nu_H1 = D_h²/(4·ψ_b) (Shah & London 1978,
 ///   ch. 2, from memory; circle 48/11).
 /// - T: the smallest λ of −∇²f = λ·w·f, f = 0 on the walls (the Graetz problem for uniform wall
 ///   temperature); Nu_T = λ·D_h²/4 (circle 3.6568). Discretised row by row like the flow
 ///   problem: A·f = λ·h²·diag(w)·f, solved by LOBPCG preconditioned by the flow problem's
-///   multigrid V-cycle ([`smallest_eigenpair`]; on the checking paths by an inner CG of the
-///   chosen method to a relative residual of 1e-2).
-pub(crate) fn heat_transfer(
-    c: &Classified,
-    num: &Numbering,
-    u: &[f64],
-    f: &Figures,
-    solve: &mut SolveFn<'_>,
-    (op, pre, on_grid): FlowOperators<'_>,
-    method: &str,
-) -> Result<HeatFigures> {
-    let h2 = c.grid.h * c.grid.h;
+///   multigrid V-cycle ([`System::smallest_eigenpair`]; on the checking paths by an inner CG of
+///   the chosen method to a relative residual of 1e-2).
+pub(crate) fn heat_transfer(system: &mut System, u: &[f64], f: &Figures) -> Result<HeatFigures> {
     let mean = f.flow_integral / f.area;
     let w: Vec<f64> = u.iter().map(|v| (v / mean).max(0.0)).collect();
-    let rhs: Vec<f64> = w.iter().map(|x| h2 * x).collect();
-    // The operator on unknown vectors, and the eigen-solver's preconditioner.
-    let on_unknowns;
-    let inner;
-    let (eop, epre): (&dyn LinearOperator, &dyn Preconditioner) = if on_grid {
-        on_unknowns = OnUnknowns::new(op, pre, num, c.grid.len());
-        (&on_unknowns, &on_unknowns)
-    } else {
-        inner = InnerCg::new(
-            op,
-            pre,
-            CgParams {
-                tolerance: 1e-2,
-                ..CgParams::default()
-            },
-        );
-        (op, &inner)
-    };
+    let rhs = system.rhs(&Field::Unknowns(w.clone()));
     // From zero, CG's iterate satisfies ψ_kᵀ·b = ψ_kᵀ·A·ψ_k (Galerkin), so bᵀψ, and with it
     // the bulk value (the same quadrature as b away from the walls), is off by ‖ψ − ψ_k‖²_A:
     // quadratic in the residual. Measured on the shipped shapes at 600 cells: Nu_H1 from a
@@ -88,23 +57,20 @@ pub(crate) fn heat_transfer(
         tolerance: H1_TOLERANCE,
         ..CgParams::default()
     };
-    let info = solve(&rhs, &mut psi, &h1).map_err(|e| e.in_solve(Solve::HeatH1))?;
+    let info = system
+        .solve(&rhs, &mut psi, &h1)
+        .map_err(|e| e.in_solve(Solve::HeatH1))?;
     let dh = f.hydraulic_diameter;
-    let nusselt_h1 = nusselt_h1(c, num, &w, &psi, dh);
+    let c = system.problem().classified;
+    let nusselt_h1 = nusselt_h1(c, system.numbering(), &w, &psi, dh);
     let psi_bulk = dh * dh / (4.0 * nusselt_h1);
     // Start from ψ = A⁻¹·W·1, one inverse-iteration step of the pencil from the constant
     // (measured: its relative eigen-residual is 0.13–0.27 on the shipped shapes).
     let mut mode = psi.clone();
-    let eigen = smallest_eigenpair(
-        eop,
-        epre,
-        &rhs,
-        &mut mode,
-        &[],
-        &EigenParams::default(),
-        &format!("LOBPCG on the {method} path"),
-    )
-    .map_err(|e| e.in_solve(Solve::HeatT))?;
+    let name = format!("LOBPCG on the {} path", system.method().name());
+    let eigen = system
+        .smallest_eigenpair(&rhs, &mut mode, &EigenParams::default(), &name)
+        .map_err(|e| e.in_solve(Solve::HeatT))?;
     Ok(HeatFigures {
         psi,
         psi_bulk,
@@ -125,73 +91,4 @@ pub fn nusselt_h1(c: &Classified, num: &Numbering, w: &[f64], psi: &[f64], dh: f
         bottom += q[i] * w[i];
     }
     dh * dh / (4.0 * (top / bottom))
-}
-
-/// A whole-grid operator and preconditioner (the multigrid path's, zero at solid nodes) seen
-/// on vectors of unknowns: scatter to the grid, apply, gather back. The eigen-solver's vector
-/// work then runs on the unknowns only, a third to a half of the grid nodes.
-struct OnUnknowns<'a> {
-    op: &'a dyn LinearOperator,
-    pre: &'a dyn Preconditioner,
-    num: &'a Numbering,
-    /// Grid vectors in and out; entries at solid nodes stay zero.
-    scratch: std::cell::RefCell<(Vec<f64>, Vec<f64>)>,
-}
-
-impl<'a> OnUnknowns<'a> {
-    fn new(
-        op: &'a dyn LinearOperator,
-        pre: &'a dyn Preconditioner,
-        num: &'a Numbering,
-        grid_len: usize,
-    ) -> Self {
-        OnUnknowns {
-            op,
-            pre,
-            num,
-            scratch: std::cell::RefCell::new((vec![0.0; grid_len], vec![0.0; grid_len])),
-        }
-    }
-
-    fn through(&self, x: &[f64], y: &mut [f64], f: impl Fn(&[f64], &mut [f64])) {
-        let mut s = self.scratch.borrow_mut();
-        let (gx, gy) = &mut *s;
-        for (q, k) in self.num.nodes().enumerate() {
-            gx[k] = x[q];
-        }
-        f(gx, gy);
-        for (q, k) in self.num.nodes().enumerate() {
-            y[q] = gy[k];
-        }
-    }
-}
-
-impl LinearOperator for OnUnknowns<'_> {
-    fn dim(&self) -> usize {
-        self.num.len()
-    }
-
-    fn apply(&self, x: &[f64], y: &mut [f64]) {
-        self.through(x, y, |gx, gy| self.op.apply(gx, gy));
-    }
-
-    fn diagonal(&self) -> Vec<f64> {
-        let d = self.op.diagonal();
-        self.num.nodes().map(|k| d[k]).collect()
-    }
-
-    fn abs_product_norm(&self, x: &[f64]) -> f64 {
-        let mut s = self.scratch.borrow_mut();
-        let gx = &mut s.0;
-        for (q, k) in self.num.nodes().enumerate() {
-            gx[k] = x[q];
-        }
-        self.op.abs_product_norm(gx)
-    }
-}
-
-impl Preconditioner for OnUnknowns<'_> {
-    fn apply(&self, r: &[f64], z: &mut [f64]) {
-        self.through(r, z, |gr, gz| self.pre.apply(gr, gz));
-    }
 }

@@ -12,8 +12,8 @@
 //! Invariant: knows nothing of files, of the iteration or of physical units beyond h. From
 //! `solver` it takes only the `LinearOperator` trait and `dot4`.
 
-use crate::grid::{Classified, Dir};
-use crate::problem::{Field, Problem};
+use crate::grid::Dir;
+use crate::problem::Problem;
 pub use crate::problem::{Numbering, NO_UNKNOWN};
 use crate::solver::{dot4, LinearOperator};
 use sprs::CsMat;
@@ -421,11 +421,6 @@ pub(crate) const LINK_WEIGHTS: [[f64; 4]; 16] = {
     }
     t
 };
-
-/// Right-hand side h²·f for the unit flow problem f = 1, u = 0 on the walls.
-pub fn unit_rhs(c: &Classified, num: &Numbering) -> Vec<f64> {
-    Problem::laplace(c).rhs(num, &Field::Uniform(1.0))
-}
 
 /// Test cases shared by the unit tests of `operator` and `multigrid` (one place, so a change
 /// of the geometry API touches one helper).

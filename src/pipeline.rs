@@ -15,40 +15,15 @@ use crate::geometry::Domain;
 use crate::grid::{classify, Grid};
 use crate::heat::heat_transfer;
 use crate::input::Input;
-use crate::multigrid::Multigrid;
 use crate::operating::{operating_point, OperatingSpec};
-use crate::operator::{assemble, unit_rhs, GridOperator, Numbering};
 use crate::outcome::{Outcome, Timings, UnitSolution};
 use crate::post::{self, WallKind};
-use crate::problem::Problem;
-use crate::solver::{
-    pcg_in, CgInfo, CgParams, CgWorkspace, Identity, Jacobi, LinearOperator, Monitor,
-    Preconditioner, Silent,
-};
+use crate::problem::{Field, Problem};
+use crate::solver::{CgInfo, CgParams, Monitor, Silent};
 use crate::study::{self, runs};
+pub use crate::system::Method;
+use crate::system::System;
 use std::time::Instant;
-
-/// Which preconditioner the conjugate gradient uses.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
-pub enum Method {
-    /// Plain CG.
-    Plain,
-    /// Jacobi-preconditioned CG.
-    Jacobi,
-    /// CG preconditioned by a geometric multigrid V-cycle with Galerkin coarse levels.
-    #[default]
-    Multigrid,
-}
-
-impl Method {
-    pub fn name(self) -> &'static str {
-        match self {
-            Method::Plain => "conjugate gradient",
-            Method::Jacobi => "Jacobi-preconditioned conjugate gradient",
-            Method::Multigrid => "multigrid-preconditioned conjugate gradient",
-        }
-    }
-}
 
 /// Relative residual of the first solve when the wall correction follows it.
 ///
@@ -130,81 +105,15 @@ fn solve_unit_on_worker(
     let t0 = Instant::now();
     let classified = classify(domain, grid)?;
     let t1 = Instant::now();
-    let numbering = Numbering::new(&classified);
-    let mut b = unit_rhs(&classified, &numbering);
-    // Assembly and setup per method; `solve(b, x)` then solves A·x = b in unknown order,
-    // starting from x.
-    let csr;
-    let multigrid;
-    let pre: Box<dyn Preconditioner + '_>;
-    let op: &dyn LinearOperator;
-    let on_grid = method == Method::Multigrid;
-    let t2;
-    match method {
-        Method::Plain | Method::Jacobi => {
-            csr = assemble(&Problem::laplace(&classified), &numbering);
-            t2 = Instant::now();
-            op = &csr;
-            pre = if method == Method::Plain {
-                Box::new(Identity)
-            } else {
-                Box::new(Jacobi::new(op))
-            };
-        }
-        Method::Multigrid => {
-            let grid_op = GridOperator::new(&Problem::laplace(&classified), &numbering);
-            t2 = Instant::now();
-            multigrid = Multigrid::new(grid_op)?;
-            op = multigrid.operator();
-            pre = Box::new(&multigrid);
-        }
-    }
+    // The flow problem −∇²ũ = 1, ũ = 0 on the walls: numbering, operator and preconditioner.
+    let mut system = System::new(Problem::laplace(&classified), method)?;
+    let setup = system.timings();
     let t_setup = Instant::now();
-    // The multigrid path works on whole-grid vectors (zero at solid nodes).
-    let (mut gb, mut gx) = if on_grid {
-        (
-            vec![0.0; classified.grid.len()],
-            vec![0.0; classified.grid.len()],
-        )
-    } else {
-        (Vec::new(), Vec::new())
+    let mut b = system.rhs(&Field::Uniform(1.0));
+    let solve = |system: &mut System, rhs: &[f64], x: &mut [f64], params: &CgParams| {
+        system.solve_monitored(rhs, x, params, monitor)
     };
-    // One set of CG work vectors for every solve of this unit problem.
-    let mut work = CgWorkspace::default();
-    let mut solve = |rhs: &[f64], x: &mut [f64], params: &CgParams| -> Result<CgInfo> {
-        if on_grid {
-            for (q, k) in numbering.nodes().enumerate() {
-                gb[k] = rhs[q];
-                gx[k] = x[q];
-            }
-            let info = pcg_in(
-                &mut work,
-                op,
-                pre.as_ref(),
-                &gb,
-                &mut gx,
-                params,
-                method.name(),
-                monitor,
-            )?;
-            for (q, k) in numbering.nodes().enumerate() {
-                x[q] = gx[k];
-            }
-            Ok(info)
-        } else {
-            pcg_in(
-                &mut work,
-                op,
-                pre.as_ref(),
-                rhs,
-                x,
-                params,
-                method.name(),
-                monitor,
-            )
-        }
-    };
-    let mut u = vec![0.0; numbering.len()];
+    let mut u = vec![0.0; b.len()];
     let correct = options.wall_correction && wall_kind == WallKind::Exact;
     // When the correction follows, the first solve only feeds the local fits of the wall
     // correction, which need its second derivatives to a few digits: it stops at
@@ -218,7 +127,7 @@ fn solve_unit_on_worker(
     } else {
         *params
     };
-    let mut info = solve(&b, &mut u, &first).map_err(|e| e.in_solve(Solve::Flow))?;
+    let mut info = solve(&mut system, &b, &mut u, &first).map_err(|e| e.in_solve(Solve::Flow))?;
     let mut passes = vec![info];
     // Deferred correction of the wall truncation error (post::add_wall_correction): the matrix is
     // kept, the right-hand side gains the curvature term of each cut link, and the solve
@@ -227,8 +136,9 @@ fn solve_unit_on_worker(
     // smooth local fit behind the correction does not hold.
     if correct {
         // b + correction, formed in b's own vector (one vector fewer to fault in).
-        post::add_wall_correction(&Problem::laplace(&classified), &numbering, &u, &mut b);
-        let more = solve(&b, &mut u, params).map_err(|e| e.in_solve(Solve::CorrectedFlow))?;
+        post::add_wall_correction(system.problem(), system.numbering(), &u, &mut b);
+        let more =
+            solve(&mut system, &b, &mut u, params).map_err(|e| e.in_solve(Solve::CorrectedFlow))?;
         passes.push(more);
         info = CgInfo {
             iterations: info.iterations + more.iterations,
@@ -238,23 +148,17 @@ fn solve_unit_on_worker(
     }
     let t3 = Instant::now();
     let walls = domain.walls(0.5 * grid.h);
-    let shear = post::wall_shear(&classified, &numbering, &u, &walls, wall_kind);
-    let figures = post::figures(&classified, &numbering, &u, &walls, &shear);
-    let passages = post::passages(&classified, &numbering, &u, &walls);
+    let numbering = system.numbering();
+    let shear = post::wall_shear(&classified, numbering, &u, &walls, wall_kind);
+    let figures = post::figures(&classified, numbering, &u, &walls, &shear);
+    let passages = post::passages(&classified, numbering, &u, &walls);
     let t4 = Instant::now();
     let heat = if options.heat {
-        Some(heat_transfer(
-            &classified,
-            &numbering,
-            &u,
-            &figures,
-            &mut solve,
-            (op, pre.as_ref(), on_grid),
-            method.name(),
-        )?)
+        Some(heat_transfer(&mut system, &u, &figures)?)
     } else {
         None
     };
+    let numbering = system.into_numbering();
     let t5 = Instant::now();
     Ok(UnitSolution {
         classified,
@@ -270,8 +174,8 @@ fn solve_unit_on_worker(
         method_name: method.name(),
         seconds: Timings {
             grid: (t1 - t0).as_secs_f64(),
-            assembly: (t2 - t1).as_secs_f64(),
-            setup: (t_setup - t2).as_secs_f64(),
+            assembly: setup.assembly,
+            setup: setup.setup,
             solve: (t3 - t_setup).as_secs_f64(),
             post: (t4 - t3).as_secs_f64(),
             heat: (t5 - t4).as_secs_f64(),

@@ -241,21 +241,16 @@ pub fn pcg(
     params: &CgParams,
     method: &str,
 ) -> Result<CgInfo> {
-    pcg_monitored(op, pre, b, x, params, method, &Silent)
-}
-
-/// [`pcg`] reporting every iteration to `monitor`.
-pub fn pcg_monitored(
-    op: &dyn LinearOperator,
-    pre: &dyn Preconditioner,
-    b: &[f64],
-    x: &mut [f64],
-    params: &CgParams,
-    method: &str,
-    monitor: &dyn Monitor,
-) -> Result<CgInfo> {
-    let mut work = CgWorkspace::default();
-    pcg_in(&mut work, op, pre, b, x, params, method, monitor)
+    pcg_in(
+        &mut CgWorkspace::default(),
+        op,
+        pre,
+        b,
+        x,
+        params,
+        method,
+        &Silent,
+    )
 }
 
 /// The three work vectors of CG (r, p, q), kept between solves of the same size: a solve at
@@ -271,7 +266,8 @@ pub struct CgWorkspace {
     q: Vec<f64>,
 }
 
-/// [`pcg_monitored`] with its work vectors in `work` (resized as needed).
+/// [`pcg`] with its work vectors in `work` (resized as needed), reporting every iteration to
+/// `monitor`.
 #[allow(clippy::too_many_arguments)]
 pub fn pcg_in(
     work: &mut CgWorkspace,
@@ -387,10 +383,6 @@ pub fn pcg_in(
         round_off_limited: false,
     })
 }
-
-/// A linear solve A·x = b from the starting guess in x, to the given control (the H1 solve of
-/// the heat-transfer problems goes through one).
-pub type SolveFn<'a> = dyn FnMut(&[f64], &mut [f64], &CgParams) -> Result<CgInfo> + 'a;
 
 /// An inner conjugate-gradient solve used as a preconditioner: z ≈ A⁻¹·r by [`pcg`] from
 /// z = 0 with the given control. It lets [`smallest_eigenpair`] run on the checking paths

@@ -144,6 +144,11 @@ impl<'a> System<'a> {
         &self.numbering
     }
 
+    /// The numbering, the system given up (its operators borrow nothing the caller needs).
+    pub fn into_numbering(self) -> Numbering {
+        self.numbering
+    }
+
     pub fn method(&self) -> Method {
         self.method
     }
@@ -215,15 +220,15 @@ impl<'a> System<'a> {
     /// The smallest eigenpair of A·f = λ·W·f, W = diag(`weights`) (unknown order, scaled
     /// like the rows of A), by LOBPCG ([`smallest_eigenpair`]) preconditioned by the
     /// multigrid V-cycle, or on the reference paths by an inner CG of the method to a relative
-    /// residual of 1e-2. `x` holds the start and returns the eigenvector.
+    /// residual of 1e-2. `x` holds the start and returns the eigenvector; `name` names the
+    /// solve in a non-convergence error.
     pub fn smallest_eigenpair(
         &self,
         weights: &[f64],
         x: &mut [f64],
         params: &EigenParams,
-        label: &str,
+        name: &str,
     ) -> Result<EigenInfo> {
-        let name = format!("{} {label}", self.method.name());
         match &self.operators {
             Operators::Matrix { a, jacobi } => {
                 let pre: &dyn Preconditioner = match jacobi {
@@ -238,11 +243,11 @@ impl<'a> System<'a> {
                         ..CgParams::default()
                     },
                 );
-                smallest_eigenpair(a, &inner, weights, x, &[], params, &name)
+                smallest_eigenpair(a, &inner, weights, x, &[], params, name)
             }
             Operators::Grid(mg) => {
                 let on = OnUnknowns::new(mg.operator(), mg.as_ref(), &self.numbering);
-                smallest_eigenpair(&on, &on, weights, x, &[], params, &name)
+                smallest_eigenpair(&on, &on, weights, x, &[], params, name)
             }
         }
     }

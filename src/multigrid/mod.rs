@@ -161,16 +161,6 @@ impl Multigrid {
     pub fn operator(&self) -> &GridOperator {
         &self.fine
     }
-
-    /// Number of levels including the fine one.
-    pub fn depth(&self) -> usize {
-        self.levels.len() + 1
-    }
-
-    /// Grid nodes held by the coarse levels (for memory accounting).
-    pub fn coarse_nodes(&self) -> usize {
-        self.levels.iter().map(|l| l.len()).sum()
-    }
 }
 
 impl Multigrid {
