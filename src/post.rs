@@ -101,18 +101,6 @@ pub fn quadrature_weights(c: &Classified, num: &Numbering) -> Vec<f64> {
         .collect()
 }
 
-/// Nu_H1 = D_h²/(4·ψ_b) with ψ_b = ∫w·ψ dA / ∫w dA by the cut-cell quadrature, ψ the solution
-/// of −∇²ψ = w (w = ũ/ū), ψ = 0 on the walls.
-pub fn nusselt_h1(c: &Classified, num: &Numbering, w: &[f64], psi: &[f64], dh: f64) -> f64 {
-    let q = quadrature_weights(c, num);
-    let (mut top, mut bottom) = (0.0, 0.0);
-    for i in 0..q.len() {
-        top += q[i] * w[i] * psi[i];
-        bottom += q[i] * w[i];
-    }
-    dh * dh / (4.0 * (top / bottom))
-}
-
 /// Passage label of every grid node (connected groups of fluid nodes joined by regular links,
 /// numbered in the order found; `u32::MAX` for solid nodes) and the number of passages.
 pub fn passage_labels(c: &Classified) -> (Vec<u32>, usize) {
