@@ -146,9 +146,10 @@ impl GridOperator {
                         let a = st.off[d as usize];
                         if a != 0.0 {
                             mask |= 1 << d as u8;
+                            odd |= a != 1.0;
+                        } else {
+                            odd |= c.fluid[c.grid.inner_neighbour(k, d)];
                         }
-                        let fluid_beyond = c.fluid[c.grid.inner_neighbour(k, d)];
-                        odd |= (a != 0.0 && a != 1.0) || (a == 0.0 && fluid_beyond);
                     }
                     drow[i] = st.diag;
                     lrow[i] = mask;
@@ -221,7 +222,12 @@ impl GridOperator {
 
     /// The off-diagonals of node k ([`Dir::ALL`] order, as positive numbers).
     pub fn off_diagonals(&self, k: usize) -> [f64; 4] {
-        match self.irregular.binary_search(&(k as u32)) {
+        let found = if self.irregular.is_empty() {
+            Err(0)
+        } else {
+            self.irregular.binary_search(&(k as u32))
+        };
+        match found {
             Ok(at) => self.irregular_off[at],
             Err(_) => {
                 let l = self.links[k];
@@ -235,7 +241,7 @@ impl GridOperator {
     pub fn is_interior(&self, k: usize) -> bool {
         self.links[k] == 15
             && Some(self.diag[k]) == self.interior_diag
-            && self.irregular.binary_search(&(k as u32)).is_err()
+            && (self.irregular.is_empty() || self.irregular.binary_search(&(k as u32)).is_err())
     }
 
     /// The diagonal node k would have with no cut links (4 for the plain Laplacian).

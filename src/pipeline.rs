@@ -158,8 +158,8 @@ fn solve_unit_on_worker(
     } else {
         None
     };
-    let numbering = system.into_numbering();
     let t5 = Instant::now();
+    let numbering = system.into_numbering();
     Ok(UnitSolution {
         classified,
         numbering,

@@ -272,9 +272,10 @@ impl<'a> Problem<'a> {
         let mut diag = 0.0;
         let mut off = [0.0; 4];
         let mut wall_rhs = 0.0;
+        let cuts = c.cuts_of(n);
         for (slot, d) in Dir::ALL.into_iter().enumerate() {
             let k = self.face(n, d);
-            match c.cuts_of(n).iter().find(|cut| cut.dir == d) {
+            match cuts.iter().find(|cut| cut.dir == d) {
                 None => {
                     diag += k;
                     off[slot] = k;

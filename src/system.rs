@@ -117,11 +117,6 @@ impl<'a> System<'a> {
             }
         };
         self.operators = operators;
-        if self.method == Method::Multigrid {
-            let n = self.problem.classified.grid.len();
-            self.grid_b.resize(n, 0.0);
-            self.grid_x.resize(n, 0.0);
-        }
         self.timings = SetupTimings {
             assembly: (t1 - t0).as_secs_f64(),
             setup: t1.elapsed().as_secs_f64(),
@@ -194,6 +189,11 @@ impl<'a> System<'a> {
                 pcg_in(&mut self.work, a, pre, b, x, params, name, monitor)
             }
             Operators::Grid(mg) => {
+                // The whole-grid vectors, taken on the first solve (fresh pages are slow to
+                // fault in; a system that is never solved never pays for them).
+                let n = mg.operator().diag.len();
+                self.grid_b.resize(n, 0.0);
+                self.grid_x.resize(n, 0.0);
                 let (gb, gx) = (&mut self.grid_b, &mut self.grid_x);
                 for (q, k) in self.numbering.nodes().enumerate() {
                     gb[k] = b[q];
