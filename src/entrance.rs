@@ -296,7 +296,7 @@ const RESOLVED_CELLS: f64 = 4.0;
 pub struct Leveque {
     /// M·x*^(1/3).
     pub m: f64,
-    /// x* below which the layer is thinner than [`RESOLVED_CELLS`] cells (with the passage's
+    /// x* below which the layer is thinner than `RESOLVED_CELLS` cells (with the passage's
     /// mean (s^(1/3))³ for s).
     pub resolved_from: f64,
 }

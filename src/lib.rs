@@ -3,21 +3,26 @@
 //! The pipeline, in one paragraph: an [`input`] (a shape file, a built-in shape, a mask image or
 //! a drawing) is loaded into a cross-section ([`geometry`]) and laid on a uniform Cartesian grid
 //! ([`grid`]), which classifies nodes as fluid or solid and finds where each grid line crosses a
-//! wall. The [`operator`] numbers the fluid nodes and assembles the symmetric cut-cell Laplacian
-//! of the unit problem −∇²ũ = 1, ũ = 0 on every wall. The [`solver`] runs a conjugate gradient
-//! preconditioned by [`multigrid`]. [`post`] turns ũ into the figures of merit (flow integral,
-//! f·Re, velocity ratio, wall shear, force balance); [`heat`] solves the two heat-transfer
-//! problems on the same operator (Nu_H1, Nu_T); [`operating`] scales the unit solution to a
-//! fluid ([`fluids`]) and a drive; [`study`] estimates the numerical uncertainty from the grids
-//! that [`study::runs`] solves around the run. [`pipeline`] runs the stages in order from a
-//! validated configuration and returns an [`outcome::Outcome`], which [`report`] (JSON and text)
-//! and [`output`] (the files of `--out`) consume.
+//! wall, and which wall. A [`problem`] says what is solved on the fluid nodes,
+//! c·u − ∇·(k∇u) = f with a condition per wall, and writes the cut-cell row of each unknown;
+//! the [`operator`] stores those rows (CSR or matrix-free on the grid). A [`system`] owns a
+//! problem's numbering, operator and preconditioner ([`multigrid`]) and solves it by the
+//! conjugate gradient of [`solver`]. The flow problem −∇²ũ = 1, ũ = 0 on every wall, is one
+//! system: [`post`] turns ũ into the figures of merit (flow integral, f·Re, velocity ratio,
+//! wall shear, force balance); [`heat`] solves the two heat-transfer problems on the same system
+//! (Nu_H1, Nu_T); [`entrance`] marches the thermal entrance along the passage. [`operating`]
+//! scales the unit solution to a fluid ([`fluids`]) and a drive; [`study`] estimates the
+//! numerical uncertainty from the grids that [`study::runs`] solves around the run.
+//! [`pipeline`] runs the stages in order from a validated configuration and returns an
+//! [`outcome::Outcome`], which [`report`] (JSON and text) and [`output`] (the files of `--out`)
+//! consume.
 //!
 //! Dependencies point one way, each module using only those before it in this list (and the
-//! leaves [`error`] and [`units`]): geometry → grid → operator → solver → multigrid → post →
-//! heat → fluids → operating → study → outcome → report → output → input → pipeline → exact →
-//! verify.
-//! The one exception is [`study::runs`], which [`pipeline::run`] calls and which calls back
+//! leaves [`error`] and [`units`]): geometry → grid → problem → operator → solver → multigrid →
+//! system → post → heat → entrance → fluids → operating → study → outcome → report → output →
+//! input → pipeline → exact → verify.
+//! Two exceptions: [`operator`] implements the solver's `LinearOperator` trait for its grid
+//! operator, and [`study::runs`], which [`pipeline::run`] calls, calls back
 //! `pipeline::run_once` for each grid of an estimate. DEVELOPERS.md has the module map.
 
 pub mod entrance;

@@ -6,7 +6,7 @@
 //! and [`GridOperator`] over the whole grid. Every entry of either comes from
 //! [`Problem::stencil`]; nothing here writes the scheme itself.
 //! The grid operator has its own product A·x (the solver's [`LinearOperator`]) and the row
-//! helpers [`span_neighbours`], [`zero_outside`] and [`off_sum`] that the multigrid kernels
+//! helpers `span_neighbours`, `zero_outside` and [`off_sum`] that the multigrid kernels
 //! reuse.
 //!
 //! Invariant: knows nothing of files, of the iteration or of physical units beyond h. From

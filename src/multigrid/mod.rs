@@ -7,25 +7,25 @@
 //! The parts (Trottenberg, Oosterlee & Schüller, *Multigrid*, 2001, ch. 2 and 7; the Galerkin
 //! product as in algebraic multigrid, Ruge & Stüben 1987), with the file that holds each:
 //! - **Coarsening** (`setup`): vertex-centred; with the solid ring at index 0 on both grids,
-//!   coarse node (I, J) sits on fine node (2I − 1, 2J − 1) ([`setup::parents`]).
+//!   coarse node (I, J) sits on fine node (2I − 1, 2J − 1) (`setup::parents`).
 //! - **Prolongation P** (`transfer`): bilinear interpolation from the (up to four) coarse
 //!   parents of a fine node, restricted to the fluid, with the rows of wall nodes scaled by 4/d
-//!   ([`setup::pscale_of`]); a coarse node exists where at least one fine fluid node
+//!   (`setup::pscale_of`); a coarse node exists where at least one fine fluid node
 //!   interpolates from it. **Restriction R = Pᵀ.**
 //! - **Level operators** (`setup`): A_c = Pᵀ·A·P (Galerkin), a 9-point stencil on every coarse
 //!   level. Nothing of the geometry is re-discretised, so a gap thinner than the coarse
 //!   spacing, a fin or a tiny passage stays exactly as the fine operator has it.
 //! - **Smoother**: on the fine level (`fine`) one red–black Gauss–Seidel sweep before the
 //!   coarse correction and one in the reverse colour order after it, done in two streaming
-//!   passes over the grid with the residual, the transfers and r·z ([`fine::fine_pre`],
-//!   [`fine::fine_post`]); on the coarse levels (`smooth`) a banded lexicographic sweep (bands
+//!   passes over the grid with the residual, the transfers and r·z (`fine::fine_pre`,
+//!   `fine::fine_post`); on the coarse levels (`smooth`) a banded lexicographic sweep (bands
 //!   in parallel, then the separator rows between them) forward before and backward after.
 //!   Post-smoothing is the adjoint of pre-smoothing and the restricted residual uses the
 //!   smoother's own diagonal, so the V-cycle is a symmetric positive definite operator, as CG
 //!   requires (symmetric to round-off; tested).
 //! - **Storage**: the fine level is the matrix-free [`GridOperator`] (diagonal and a link
 //!   bitmask per node); each coarse level stores every distinct stencil once with a 4-byte index
-//!   per node (see [`setup::Level`]), and nearly all of its rows are the interior stencil,
+//!   per node (see `setup::Level`), and nearly all of its rows are the interior stencil,
 //!   which the sweeps apply from registers.
 //! - **Coarsest level** (`setup`): dense Cholesky (nalgebra) once the level is small; a level
 //!   it cannot factor is an [`Error::Numerical`](crate::Error::Numerical) from
@@ -94,7 +94,7 @@ pub struct Multigrid {
 }
 
 impl Multigrid {
-    /// Builds the hierarchy: coarsen until a level has at most [`DIRECT_LIMIT`] active nodes or
+    /// Builds the hierarchy: coarsen until a level has at most `DIRECT_LIMIT` active nodes or
     /// cannot shrink, then factor that level.
     ///
     /// # Errors
