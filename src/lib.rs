@@ -9,6 +9,7 @@
 //! [`fluids`] supplies viscosity and density for an operating point; [`report`] formats results;
 //! [`pipeline`] runs the stages in order from a validated configuration.
 
+pub mod correlations;
 pub mod error;
 pub mod exact;
 pub mod fluids;
