@@ -311,7 +311,7 @@ mod tests {
     fn pressure_units() {
         // psi = 0.45359237 kg · 9.80665 m/s² / (0.0254 m)² = 6894.757293168361… Pa (exact
         // definitions; the reference is the quotient worked out by hand to 13 digits).
-        assert!((PSI_PA / 6894.757_293_168 - 1.0).abs() < 1e-12);
+        assert!((PSI_PA / 6_894.757_293_168 - 1.0).abs() < 1e-12);
         assert!(close(
             parse_pressure_gradient("1 psi/ft", "g").unwrap(),
             PSI_PA / 0.3048
@@ -336,8 +336,8 @@ mod tests {
         assert_eq!(format_significant(1.5e-7, 0.01), "1.50e-7");
         assert_eq!(format_significant(9.9996, 0.01), "10.0");
         assert_eq!(format_significant(-0.5, 0.0), "-0.500000");
-        assert_eq!(format_significant(3.14159265, 1e-12), "3.14159");
-        assert_eq!(format_significant(3.14159265, f64::NAN), "3.14");
+        assert_eq!(format_significant(1.234_567_89, 1e-12), "1.23457");
+        assert_eq!(format_significant(1.234_567_89, f64::NAN), "1.23");
         assert_eq!(format_significant(0.0, 0.1), "0");
         assert_eq!(format_significant(f64::NAN, 0.1), "NaN");
         assert_eq!(format_significant(f64::INFINITY, 0.1), "inf");

@@ -385,8 +385,9 @@ impl Model {
             ),
             Model::Churchill => (
                 Some(0.15),
-                "as Colebrook–White in the turbulent range, which it follows within 3 % \
-                 (tests/correlations.rs measures it); no stated accuracy in the transition",
+                "as Colebrook–White in the turbulent range, which it follows within 2.5 % for \
+                 10⁴ ≤ Re ≤ 10⁸ and 3.5 % at Re = 4000 (tests/correlations.rs measures it); no \
+                 stated accuracy in the transition",
             ),
             Model::Konakov => (
                 None,
