@@ -339,7 +339,7 @@ impl Duct {
             }
         }
         for _ in 0..200 {
-            let mid = (lo * hi).sqrt();
+            let mid = lo.sqrt() * hi.sqrt(); // geometric mean, without overflow
             if excess(mid)? < 0.0 {
                 lo = mid;
             } else {

@@ -173,8 +173,8 @@ impl Duct {
         let turbulent_end = self.turbulent_nusselt(hi, pr, length_ratio)?;
         let value = interpolate(re, lo, hi, nu_lam, turbulent_end.value);
         let mut e = Estimate::new(value, Model::GnielinskiTransition, None);
+        // The turbulent end carries the Pr and Re* warnings already.
         e.absorb(&turbulent_end.warnings);
-        Model::GnielinskiTransition.check(&[("Pr", pr)], &mut e.warnings);
         push_unique(
             &mut e.warnings,
             format!(
