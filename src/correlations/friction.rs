@@ -79,7 +79,8 @@ pub struct ColebrookInfo {
 ///
 /// Solved for any finite Re > 0 and 0 ≤ ε/D < 1 (beyond that an error: the equation keeps a
 /// root up to ε/D = 3.7, but a roughness as tall as the diameter is none); [`colebrook`] warns
-/// outside the equation's range. Non-convergence within `max_iterations` is [`Error::NotConverged`] with the residual.
+/// outside the equation's range. Non-convergence within `max_iterations` is
+/// [`Error::NotConverged`] with the residual.
 pub fn colebrook_solve(
     re: f64,
     relative_roughness: f64,
@@ -265,8 +266,8 @@ impl Duct {
     ///
     /// - laminar: f_D = 4·(f·Re)/Re, canalis's exact laminar value;
     /// - turbulent: the friction model at Re* ([`Duct::turbulent_friction`]);
-    /// - transitional: f = (1 − γ)·f_lam(Re_lo) + γ·f_turb(Re_hi), γ = (Re − Re_lo)/(Re_hi − Re_lo),
-    ///   with Re_lo, Re_hi the thresholds. canalis's choice (no source), after the manner of
+    /// - transitional: f = (1 − γ)·f_lam(Re_lo) + γ·f_turb(Re_hi),
+    ///   γ = (Re − Re_lo)/(Re_hi − Re_lo), with Re_lo, Re_hi the thresholds. canalis's choice (no source), after the manner of
     ///   Gnielinski's interpolation of Nu: continuous at both thresholds, and f_D·Re² increasing
     ///   in Re, so a pressure drop has exactly one flow rate. A warning gives the fully turbulent
     ///   value at the same Re, which intermittent flow may reach.

@@ -95,8 +95,8 @@ impl Duct {
     /// laminar-equivalent Re* = Re·D_le/D_h (Jones 1976; module docs) with the friction factor
     /// at Re*: Konakov's for a smooth wall (ε = 0, as Gnielinski), Colebrook–White's with
     /// ε/D_h for a rough one (the switch is not continuous in ε: as ε → 0 the two differ by up
-    /// to 1.5 %, measured in tests/correlations.rs). With `length_ratio` = Some(L/D_h), the mean over the length: times
-    /// [`gnielinski_entrance_factor`].
+    /// to 1.5 %, measured in tests/correlations.rs). With `length_ratio` = Some(L/D_h), the
+    /// mean over the length: times [`gnielinski_entrance_factor`].
     pub fn turbulent_nusselt(
         &self,
         re: f64,

@@ -5,8 +5,9 @@
 //! Colebrook–White and by Churchill ([`friction`]); Gnielinski's Nusselt number, its
 //! transitional interpolation, its entrance correction and the turbulent entrance lengths
 //! ([`heat`]); hydraulic resistance, pressure gradient and mean wall shear from a friction factor
-//! ([`resistance`]); and, in [`Duct`], the rule that carries all of them over to a non-circular
-//! cross-section through canalis's own laminar solution (Jones's laminar-equivalent diameter).
+//! ([`resistance`](mod@resistance)); and, in [`Duct`], the rule that carries all of them over to
+//! a non-circular cross-section through canalis's own laminar solution (Jones's
+//! laminar-equivalent diameter).
 //! Every value comes as an [`Estimate`]: the number, the [`Model`] that gave it (with its source,
 //! stated accuracy and validity range) and the warnings for inputs outside that range.
 //!
