@@ -267,10 +267,11 @@ impl Duct {
     /// - laminar: f_D = 4·(f·Re)/Re, canalis's exact laminar value;
     /// - turbulent: the friction model at Re* ([`Duct::turbulent_friction`]);
     /// - transitional: f = (1 − γ)·f_lam(Re_lo) + γ·f_turb(Re_hi),
-    ///   γ = (Re − Re_lo)/(Re_hi − Re_lo), with Re_lo, Re_hi the thresholds. canalis's choice (no source), after the manner of
-    ///   Gnielinski's interpolation of Nu: continuous at both thresholds, and f_D·Re² increasing
-    ///   in Re, so a pressure drop has exactly one flow rate. A warning gives the fully turbulent
-    ///   value at the same Re, which intermittent flow may reach.
+    ///   γ = (Re − Re_lo)/(Re_hi − Re_lo), with Re_lo, Re_hi the thresholds. canalis's choice
+    ///   (no source), after the manner of Gnielinski's interpolation of Nu: continuous at both
+    ///   thresholds, and f_D·Re² increasing in Re, so a pressure drop has exactly one flow rate.
+    ///   A warning gives the fully turbulent value at the same Re, which intermittent flow may
+    ///   reach.
     ///
     /// Churchill's equation has a transition of its own, but it rises from the laminar line
     /// between Re ≈ 2000 and 2300 (+36 % at 2300 against 64/Re) whatever the thresholds say, so

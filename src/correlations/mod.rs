@@ -27,9 +27,10 @@
 //!
 //! # Non-circular ducts: the laminar-equivalent diameter (Jones 1976)
 //!
-//! Jones (1976, J. Fluids Eng. 98:173–181, on smooth rectangular ducts) observed that turbulent
-//! friction in a duct follows the circular-tube law when the Reynolds number is formed not on D_h
-//! but on the laminar-equivalent diameter
+//! Jones (O. C. Jones Jr., An improvement in the calculation of turbulent friction in
+//! rectangular ducts, J. Fluids Eng. 98 (1976) 173–180; pages from memory) observed that
+//! turbulent friction in smooth rectangular ducts follows the circular-tube law when the Reynolds
+//! number is formed not on D_h but on the laminar-equivalent diameter
 //!
 //! ```text
 //! D_le = (64 / (f_D·Re)_laminar) · D_h = (16 / (f·Re)_laminar) · D_h,
@@ -43,12 +44,13 @@
 //! Re* = Re · D_le/D_h = Re · 16/(f·Re)_laminar,
 //! ```
 //!
-//! and the result is the Darcy factor on D_h (Δp/L = f_D·ρ·ū²/(2·D_h)). Relative roughness is
-//! taken as ε/D_h, not ε/D_le: the fully rough limit of Colebrook's equation does not depend on
-//! Re at all, it is a wall-layer law whose only length is the one the wall shear is averaged over,
-//! A/P = D_h/4 (the force balance τ̄_w·P = A·Δp/L), so the hydraulic diameter is the scale that
-//! makes a rough duct's wall stress match a rough tube's; the laminar-equivalent diameter only
-//! corrects the viscous (smooth) part. The same Re* is used for the Nusselt number (Gnielinski's
+//! and the result is the Darcy factor on D_h (Δp/L = f_D·ρ·ū²/(2·D_h)). Jones's ducts were
+//! smooth; for rough walls the convention is canalis's (common practice, no source): relative
+//! roughness ε/D_h, not ε/D_le. Why: the fully rough limit of Colebrook's equation does not
+//! depend on Re at all; it is a wall-layer law whose only length is the one the wall shear is
+//! averaged over, A/P = D_h/4 (the force balance τ̄_w·P = A·Δp/L), so the hydraulic diameter is
+//! the scale that makes a rough duct's wall stress match a rough tube's; the laminar-equivalent
+//! diameter only corrects the viscous (smooth) part. The same Re* is used for the Nusselt number (Gnielinski's
 //! equation evaluated at Re*, with the friction factor at Re*): the analogy behind Gnielinski's
 //! equation ties Nu to the friction factor, so the correction that makes friction match carries
 //! over; Nu stays on D_h. For a circle Re* = Re to the accuracy of the computed f·Re.
@@ -336,7 +338,7 @@ impl Model {
             Model::ColebrookWhite => {
                 "C. F. Colebrook, Turbulent flow in pipes, with particular reference to the \
                  transition region between the smooth and rough pipe laws, J. Inst. Civ. Eng. 11 \
-                 (1939) 133–156"
+                 (1939) 133–156 (pages from memory)"
             }
             Model::Churchill => {
                 "S. W. Churchill, Friction-factor equation spans all fluid-flow regimes, Chem. \
