@@ -25,6 +25,7 @@
 //! operator, and [`study::runs`], which [`pipeline::run`] calls, calls back
 //! `pipeline::run_once` for each grid of an estimate. DEVELOPERS.md has the module map.
 
+pub mod correlations;
 pub mod entrance;
 pub mod error;
 pub mod exact;
