@@ -163,6 +163,15 @@ struct SolveArgs {
     /// one coarser grid.
     #[arg(long, value_name = "TOL")]
     accuracy: Option<f64>,
+    /// Add the thermal entrance of the passage to the report: local and mean Nusselt numbers
+    /// (uniform wall temperature T, uniform heat input H1) against x* = x/(D_h·Re·Pr) from 1e-5
+    /// to 1, with fully developed velocity, and the thermal entrance lengths.
+    #[arg(long)]
+    entrance: bool,
+    /// Cells across the grid of the entrance march at most [default: 300]; a finer --cells grid
+    /// is solved again at this resolution for the march.
+    #[arg(long, value_name = "N")]
+    entrance_cells: Option<usize>,
 }
 
 fn parse_bytes(text: &str) -> Result<u64, Error> {
@@ -250,6 +259,11 @@ fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
     }
     if let Some(m) = &a.max_memory {
         c.memory_limit = parse_bytes(m)?;
+    }
+    if a.entrance || a.entrance_cells.is_some() {
+        c.entrance = Some(pipeline::EntranceOptions {
+            cells: a.entrance_cells.unwrap_or(pipeline::ENTRANCE_CELLS),
+        });
     }
     if let Some(tol) = a.accuracy {
         // A fraction between 0 and 1 (SolveConfig::validate).

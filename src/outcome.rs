@@ -7,6 +7,7 @@
 //!
 //! Invariant: plain data; computes, solves, formats and writes nothing.
 
+use crate::entrance::ThermalEntrance;
 use crate::geometry::Walls;
 use crate::grid::Classified;
 use crate::heat::HeatFigures;
@@ -65,4 +66,15 @@ pub struct Outcome {
     pub uncertainty: Option<Uncertainty>,
     /// The grid was fixed by the input (a mask's pixel grid), not chosen from `cells`.
     pub fixed_grid: bool,
+    /// Developing flow along the passage (`--entrance`).
+    pub entrance: Option<EntranceOutcome>,
+}
+
+/// The entrance results of a run, with the grid they were marched on.
+#[derive(Debug, Clone)]
+pub struct EntranceOutcome {
+    pub thermal: ThermalEntrance,
+    /// Cells across and down of the march's grid, and its unknowns.
+    pub cells: (usize, usize),
+    pub unknowns: usize,
 }

@@ -3,7 +3,8 @@
 //! Owns: the report keys of ../shared/INTERFACE.md and the layout of the text summary. Both are
 //! consumers of the same [`Outcome`]; nothing here computes physics.
 
-use crate::outcome::Outcome;
+use crate::entrance::PassageEntrance;
+use crate::outcome::{EntranceOutcome, Outcome};
 use crate::study::{Kind, Uncertainty};
 use serde_json::{json, Map, Value};
 
@@ -12,6 +13,13 @@ pub const CAUTION: &str = "Fully developed laminar flow of a Newtonian fluid wit
 properties; entrance effects, transition to turbulence, roughness and heating are not modelled. \
 Not a substitute for local codes and licensed engineering practice: pressure containment and \
 coolant temperatures must be checked by a qualified engineer.";
+
+/// The caution printed with a thermal entrance table.
+pub const ENTRANCE_CAUTION: &str = "The thermal entrance table assumes a fully developed \
+velocity profile from the inlet (a hydrodynamically developed inlet, or a fluid whose velocity \
+develops much faster than its temperature, Pr ≫ 1), constant properties and no axial \
+conduction (Re·Pr well above 100). With a uniform inlet velocity at low Pr the heat transfer \
+near the inlet is higher than shown.";
 
 /// The report object (`--json`), all values in SI units.
 pub fn json_report(o: &Outcome) -> Value {
@@ -132,9 +140,81 @@ pub fn json_report(o: &Outcome) -> Value {
     if let Some(u) = &o.uncertainty {
         m.insert("uncertainty".into(), uncertainty_json(u));
     }
+    if let Some(e) = &o.entrance {
+        m.insert("entrance".into(), entrance_json(e));
+    }
     m.insert("warnings".into(), json!(o.warnings));
     Value::Object(m)
 }
+
+/// The keys of one passage's thermal entrance (../shared/INTERFACE.md, "Developing flow").
+fn thermal_passage_json(x_star: &[f64], p: &PassageEntrance) -> Map<String, Value> {
+    let arr = |v: &[f64]| Value::Array(v.iter().map(|&x| finite(x)).collect());
+    let opt = |v: Option<f64>| v.map_or(Value::Null, finite);
+    let mut t = Map::new();
+    t.insert("x_star".into(), arr(x_star));
+    t.insert("nusselt_t_local".into(), arr(&p.nusselt_t_local));
+    t.insert("nusselt_t_mean".into(), arr(&p.nusselt_t_mean));
+    t.insert("nusselt_h1_local".into(), arr(&p.nusselt_h1_local));
+    t.insert("nusselt_h1_mean".into(), arr(&p.nusselt_h1_mean));
+    t.insert("length_star_t".into(), opt(p.length_star_t));
+    t.insert("length_star_h1".into(), opt(p.length_star_h1));
+    t.insert(
+        "nusselt_t_fully_developed".into(),
+        finite(p.nusselt_t_fully_developed),
+    );
+    t.insert(
+        "nusselt_h1_fully_developed".into(),
+        finite(p.nusselt_h1_fully_developed),
+    );
+    t
+}
+
+/// The `entrance` object: `thermal` with the contract's keys for the first passage (the only
+/// one of a connected cross-section), each passage's own under `thermal.passages` when there
+/// are several, and as extensions the model, the march's grid and its cost.
+fn entrance_json(e: &EntranceOutcome) -> Value {
+    let th = &e.thermal;
+    let mut t = match th.passages.first() {
+        Some(p) => thermal_passage_json(&th.x_star, p),
+        None => Map::new(),
+    };
+    if th.passages.len() > 1 {
+        t.insert(
+            "passages".into(),
+            Value::Array(
+                th.passages
+                    .iter()
+                    .map(|p| Value::Object(thermal_passage_json(&th.x_star, p)))
+                    .collect(),
+            ),
+        );
+    }
+    t.insert("model".into(), json!(ENTRANCE_MODEL));
+    t.insert(
+        "grid".into(),
+        json!({
+            "cells_x": e.cells.0,
+            "cells_y": e.cells.1,
+            "unknowns": e.unknowns,
+        }),
+    );
+    t.insert(
+        "march".into(),
+        json!({
+            "steps": th.steps,
+            "solves": th.solves,
+            "iterations": th.iterations,
+            "seconds": th.seconds,
+        }),
+    );
+    json!({ "thermal": Value::Object(t) })
+}
+
+/// Which model gave the entrance figures.
+const ENTRANCE_MODEL: &str = "thermal entrance (Graetz–Nusselt) of this cross-section: fully \
+    developed laminar velocity, uniform inlet temperature, constant properties, no axial \
+    conduction; marched on the cut-cell grid, Lévêque limit from the wall shear near the inlet";
 
 /// The `uncertainty` object: keyed by quantity, each with the keys of ../shared/INTERFACE.md
 /// (`fine`, `extrapolated`, `observed_order`, `relative_uncertainty`, `grids`) and, as
@@ -384,6 +464,9 @@ pub fn summary(o: &Outcome) -> String {
             with_error(o, "nusselt_t", h.nusselt_t, 5),
         );
     }
+    if let Some(e) = &o.entrance {
+        entrance_summary(&mut s, e);
+    }
     if let Some(op) = &o.operating {
         let fl = &op.fluid;
         let t = fl
@@ -483,6 +566,9 @@ pub fn summary(o: &Outcome) -> String {
         }
     }
     let _ = writeln!(s, "Note: {CAUTION}");
+    if o.entrance.is_some() {
+        let _ = writeln!(s, "Note: {ENTRANCE_CAUTION}");
+    }
     s
 }
 
@@ -492,4 +578,51 @@ fn join(v: &[usize]) -> String {
         .map(|c| c.to_string())
         .collect::<Vec<_>>()
         .join(", ")
+}
+
+/// The summary's table of the thermal entrance: a few stations of the 1–2–5 series.
+fn entrance_summary(s: &mut String, e: &EntranceOutcome) {
+    use std::fmt::Write;
+    let th = &e.thermal;
+    let several = th.passages.len() > 1;
+    for (k, p) in th.passages.iter().enumerate() {
+        let which = if several {
+            format!(", passage {}", k + 1)
+        } else {
+            String::new()
+        };
+        let _ = writeln!(
+            s,
+            "Thermal entrance (laminar, fully developed velocity{which}; {} × {} cells)",
+            e.cells.0, e.cells.1
+        );
+        let _ = writeln!(
+            s,
+            "  {:>8}  {:>9}  {:>9}  {:>9}  {:>9}",
+            "x*", "Nu_x,T", "Nu_m,T", "Nu_x,H1", "Nu_m,H1"
+        );
+        for (i, &x) in th.x_star.iter().enumerate() {
+            // Every other decade's 1 and the last station keep the table short.
+            let m = x / 10f64.powf(x.log10().floor());
+            if !((m - 1.0).abs() < 1e-9 || i + 1 == th.x_star.len()) {
+                continue;
+            }
+            let _ = writeln!(
+                s,
+                "  {:>8}  {:>9}  {:>9}  {:>9}  {:>9}",
+                format!("{x:.0e}"),
+                sig(p.nusselt_t_local[i], 4),
+                sig(p.nusselt_t_mean[i], 4),
+                sig(p.nusselt_h1_local[i], 4),
+                sig(p.nusselt_h1_mean[i], 4)
+            );
+        }
+        let len = |v: Option<f64>| v.map_or("beyond x* = 1".to_string(), |x| sig(x, 3));
+        let _ = writeln!(
+            s,
+            "  entrance length x* (T, H1): {}, {} (local Nu within 5 % of fully developed)",
+            len(p.length_star_t),
+            len(p.length_star_h1)
+        );
+    }
 }

@@ -76,6 +76,11 @@ pub struct System<'a> {
     /// Whole-grid right-hand side and solution of the multigrid path (empty otherwise).
     grid_b: Vec<f64>,
     grid_x: Vec<f64>,
+    /// On the multigrid path after [`System::update_shift`] without a refresh: the exact
+    /// operator of the current problem (the hierarchy's own fine operator is an older one's),
+    /// and the diagonal without shift it is updated from.
+    current: Option<GridOperator>,
+    unshifted_diag: Option<Vec<f64>>,
     timings: SetupTimings,
 }
 
@@ -94,6 +99,8 @@ impl<'a> System<'a> {
             work: CgWorkspace::default(),
             grid_b: Vec::new(),
             grid_x: Vec::new(),
+            current: None,
+            unshifted_diag: None,
             timings: SetupTimings::default(),
         };
         system.build()?;
@@ -117,6 +124,7 @@ impl<'a> System<'a> {
             }
         };
         self.operators = operators;
+        self.current = None;
         self.timings = SetupTimings {
             assembly: (t1 - t0).as_secs_f64(),
             setup: t1.elapsed().as_secs_f64(),
@@ -129,6 +137,47 @@ impl<'a> System<'a> {
     pub fn set_shift(&mut self, shift: Field) -> Result<()> {
         self.problem.shift = shift;
         self.build()
+    }
+
+    /// Replaces the shift c. With `refresh` the operator and the preconditioner are rebuilt
+    /// ([`System::set_shift`]); without it, on the multigrid path, only the operator's diagonal
+    /// is updated and the last hierarchy preconditions the new operator (any fixed symmetric
+    /// positive definite preconditioner keeps CG exact; one built for a shift within a small
+    /// factor of the new one costs an iteration or two more, far less than a set-up). A march
+    /// whose steps grow geometrically refreshes every few steps.
+    pub fn update_shift(&mut self, shift: Field, refresh: bool) -> Result<()> {
+        if refresh || self.method != Method::Multigrid {
+            return self.set_shift(shift);
+        }
+        let t0 = Instant::now();
+        let h2 = self.problem.classified.grid.h * self.problem.classified.grid.h;
+        if self.unshifted_diag.is_none() {
+            let plain = Problem {
+                shift: Field::Zero,
+                ..self.problem.clone()
+            };
+            let mut d = vec![0.0; self.problem.classified.grid.len()];
+            for (q, k) in self.numbering.nodes().enumerate() {
+                d[k] = plain.stencil(k, q).diag;
+            }
+            self.unshifted_diag = Some(d);
+        }
+        self.problem.shift = shift;
+        let Operators::Grid(mg) = &self.operators else {
+            unreachable!("the multigrid path has a hierarchy");
+        };
+        let current = self.current.get_or_insert_with(|| mg.operator().clone());
+        let base = self.unshifted_diag.as_ref().expect("set above");
+        // The same sum as Problem::stencil: the links' part, then c·h².
+        for (q, k) in self.numbering.nodes().enumerate() {
+            let c = self.problem.shift.at(q);
+            current.diag[k] = if c != 0.0 { base[k] + c * h2 } else { base[k] };
+        }
+        self.timings = SetupTimings {
+            assembly: t0.elapsed().as_secs_f64(),
+            setup: 0.0,
+        };
+        Ok(())
     }
 
     pub fn problem(&self) -> &Problem<'a> {
@@ -189,6 +238,7 @@ impl<'a> System<'a> {
                 pcg_in(&mut self.work, a, pre, b, x, params, name, monitor)
             }
             Operators::Grid(mg) => {
+                let op = self.current.as_ref().unwrap_or(mg.operator());
                 // The whole-grid vectors, taken on the first solve (fresh pages are slow to
                 // fault in; a system that is never solved never pays for them).
                 let n = mg.operator().diag.len();
@@ -201,7 +251,7 @@ impl<'a> System<'a> {
                 }
                 let info = pcg_in(
                     &mut self.work,
-                    mg.operator(),
+                    op,
                     mg.as_ref(),
                     gb,
                     gx,
@@ -246,7 +296,8 @@ impl<'a> System<'a> {
                 smallest_eigenpair(a, &inner, weights, x, &[], params, name)
             }
             Operators::Grid(mg) => {
-                let on = OnUnknowns::new(mg.operator(), mg.as_ref(), &self.numbering);
+                let op = self.current.as_ref().unwrap_or(mg.operator());
+                let on = OnUnknowns::new(op, mg.as_ref(), &self.numbering);
                 smallest_eigenpair(&on, &on, weights, x, &[], params, name)
             }
         }
