@@ -42,6 +42,7 @@ pub mod output;
 pub mod pipeline;
 pub mod post;
 pub mod problem;
+pub mod rating;
 pub mod report;
 pub mod solver;
 pub mod study;

@@ -8,6 +8,7 @@ use canalis::geometry::mask::{FluidColour, MaskMode, MaskOptions, MinFeature};
 use canalis::input::{Input, InputKind};
 use canalis::operating::{Drive, FluidSpec, OperatingSpec};
 use canalis::pipeline::{self, Method, SolveConfig, VERIFY_CELLS};
+use canalis::rating::{Heating, RatingSpec};
 use canalis::{output, report, units, verify};
 use clap::{Parser, Subcommand, ValueEnum};
 use std::io::Write;
@@ -172,6 +173,21 @@ struct SolveArgs {
     /// is solved again at this resolution for the march.
     #[arg(long, value_name = "N")]
     entrance_cells: Option<usize>,
+    /// Thermal rating over --length: the inlet bulk temperature, e.g. 20C (with one of
+    /// --wall-temperature, --heat-load, --heat-flux); reports the outlet temperature, heat rate
+    /// and mean film coefficient, properties at the mean bulk temperature.
+    #[arg(long, value_name = "T")]
+    inlet_temperature: Option<String>,
+    /// Rating with a uniform wall temperature, e.g. 80C.
+    #[arg(long, value_name = "T")]
+    wall_temperature: Option<String>,
+    /// Rating with this heat input over the length into the fluid, e.g. 500W or 1.2kW
+    /// (negative cools), spread evenly over the wetted walls.
+    #[arg(long, value_name = "Q", allow_negative_numbers = true)]
+    heat_load: Option<String>,
+    /// Rating with this heat flux into the fluid on the wetted walls, e.g. 20kW/m2.
+    #[arg(long, value_name = "Q", allow_negative_numbers = true)]
+    heat_flux: Option<String>,
 }
 
 fn parse_bytes(text: &str) -> Result<u64, Error> {
@@ -364,9 +380,46 @@ fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
         }
         (None, None) => None,
     };
+    c.rating = rating_spec(&a)?;
     // Every value checked now, before the output directory or the geometry is looked at.
     c.validate()?;
     Ok(c)
+}
+
+/// The thermal rating options: `--inlet-temperature` with exactly one of `--wall-temperature`,
+/// `--heat-load`, `--heat-flux`.
+fn rating_spec(a: &SolveArgs) -> Result<Option<RatingSpec>, Error> {
+    let heating = [
+        a.wall_temperature.as_deref().map(|t| {
+            units::parse_temperature(t, "--wall-temperature").map(Heating::WallTemperature)
+        }),
+        a.heat_load
+            .as_deref()
+            .map(|q| units::parse_heat_rate(q, "--heat-load").map(Heating::HeatLoad)),
+        a.heat_flux
+            .as_deref()
+            .map(|q| units::parse_heat_flux(q, "--heat-flux").map(Heating::HeatFlux)),
+    ];
+    let given: Vec<Heating> = heating.into_iter().flatten().collect::<Result<_, _>>()?;
+    match (&a.inlet_temperature, given.as_slice()) {
+        (None, []) => Ok(None),
+        (None, _) => Err(Error::param(
+            "--inlet-temperature",
+            "a thermal rating needs the inlet temperature as well",
+        )),
+        (Some(_), []) => Err(Error::param(
+            "--inlet-temperature",
+            "give one of --wall-temperature, --heat-load or --heat-flux with it",
+        )),
+        (Some(t), [h]) => Ok(Some(RatingSpec {
+            inlet_temperature_k: units::parse_temperature(t, "--inlet-temperature")?,
+            heating: *h,
+        })),
+        (Some(_), _) => Err(Error::param(
+            "--wall-temperature",
+            "give only one of --wall-temperature, --heat-load and --heat-flux",
+        )),
+    }
 }
 
 /// A residual line on standard error that updates in place, shown only for solves that take

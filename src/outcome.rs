@@ -14,6 +14,7 @@ use crate::heat::HeatFigures;
 use crate::operating::OperatingResult;
 use crate::operator::Numbering;
 use crate::post::{self, Figures, ShearSample};
+use crate::rating::Rating;
 use crate::solver::CgInfo;
 use crate::study::Uncertainty;
 
@@ -68,6 +69,8 @@ pub struct Outcome {
     pub fixed_grid: bool,
     /// Developing flow along the passage (`--entrance`).
     pub entrance: Option<EntranceOutcome>,
+    /// The thermal rating over the length (`--inlet-temperature` …).
+    pub rating: Option<Rating>,
 }
 
 /// The entrance results of a run, with the grid they were marched on.

@@ -20,6 +20,7 @@ use crate::operating::{operating_point, OperatingSpec};
 use crate::outcome::{EntranceOutcome, Outcome, Timings, UnitSolution};
 use crate::post::{self, WallKind};
 use crate::problem::{Field, Problem};
+use crate::rating::{rate, RatingSpec};
 use crate::solver::{CgInfo, CgParams, Monitor, Silent};
 use crate::study::{self, runs};
 pub use crate::system::Method;
@@ -226,6 +227,9 @@ pub struct SolveConfig {
     pub error_estimate: ErrorEstimate,
     /// March the thermal entrance (`--entrance`) on a grid of at most this many cells across.
     pub entrance: Option<EntranceOptions>,
+    /// Rate the passage thermally over the operating point's length (`--inlet-temperature` with
+    /// `--wall-temperature`, `--heat-load` or `--heat-flux`); implies the entrance march.
+    pub rating: Option<RatingSpec>,
 }
 
 /// The thermal entrance of a run (`--entrance`).
@@ -270,6 +274,7 @@ impl SolveConfig {
             placement: None,
             error_estimate: ErrorEstimate::default(),
             entrance: None,
+            rating: None,
         }
     }
 
@@ -322,6 +327,16 @@ impl SolveConfig {
                 "placement",
                 "the grid placement must be a finite fraction of a cell",
             ));
+        }
+        if let Some(r) = &self.rating {
+            r.validate()?;
+            if !self.operating.as_ref().is_some_and(|o| o.length.is_some()) {
+                return Err(Error::param(
+                    "--inlet-temperature",
+                    "a thermal rating needs an operating point and the passage's length: give \
+                     --flow (or --dpdx), a fluid and --length",
+                ));
+            }
         }
         if let Some(e) = self.entrance {
             if e.cells < MIN_CELLS {
@@ -397,8 +412,32 @@ pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outc
         }
         (_, ErrorEstimate::Accuracy(tol)) => runs::run_study(config, tol, monitor)?,
     };
-    if let Some(options) = config.entrance {
+    let entrance = match (config.entrance, &config.rating) {
+        (Some(options), _) => Some(options),
+        (None, Some(_)) => Some(EntranceOptions {
+            cells: ENTRANCE_CELLS,
+        }),
+        (None, None) => None,
+    };
+    if let Some(options) = entrance {
         outcome.entrance = Some(run_entrance(config, &outcome, options, monitor)?);
+    }
+    if let (Some(spec), Some(op), Some(e)) = (&config.rating, &config.operating, &outcome.entrance)
+    {
+        let length = op.length.expect("validated: a rating has a length");
+        let mut warnings = Vec::new();
+        let rating = rate(
+            spec,
+            &op.fluid,
+            op.drive,
+            length,
+            &outcome.unit.figures,
+            &outcome.unit.passages,
+            &e.thermal,
+            &mut warnings,
+        )?;
+        outcome.warnings.extend(warnings);
+        outcome.rating = Some(rating);
     }
     outcome.seconds = start.elapsed().as_secs_f64();
     Ok(outcome)
@@ -423,6 +462,7 @@ fn run_entrance(
             operating: None,
             error_estimate: ErrorEstimate::Off,
             entrance: None,
+            rating: None,
             ..config.clone()
         };
         coarser = run_once(&flow, monitor)?;
@@ -550,6 +590,7 @@ pub(crate) fn run_once(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Ou
         uncertainty: None,
         fixed_grid,
         entrance: None,
+        rating: None,
     })
 }
 

@@ -5,6 +5,7 @@
 
 use crate::entrance::PassageEntrance;
 use crate::outcome::{EntranceOutcome, Outcome};
+use crate::rating::{PassageRating, Rating};
 use crate::study::{Kind, Uncertainty};
 use serde_json::{json, Map, Value};
 
@@ -143,6 +144,9 @@ pub fn json_report(o: &Outcome) -> Value {
     if let Some(e) = &o.entrance {
         m.insert("entrance".into(), entrance_json(e));
     }
+    if let Some(r) = &o.rating {
+        m.insert("rating".into(), rating_json(r));
+    }
     m.insert("warnings".into(), json!(o.warnings));
     Value::Object(m)
 }
@@ -209,6 +213,64 @@ fn entrance_json(e: &EntranceOutcome) -> Value {
         }),
     );
     json!({ "thermal": Value::Object(t) })
+}
+
+/// The `rating` object (../shared/INTERFACE.md: `x_star`, `x_plus`, `nusselt_mean`,
+/// `heat_transfer_coefficient_mean_w_m2k`, `inlet_temperature_c`, `outlet_temperature_c`,
+/// `heat_rate_w`, `wall_temperature_outlet_c`, `thermal_model`), the passage's values for a
+/// connected cross-section; with several passages the mixed outlet, the total heat rate and the
+/// hottest wall, and each passage's own values under `passages`. Extensions: `reynolds`,
+/// `regime`, `prandtl`, `mean_bulk_temperature_c`, `fluid_properties_at_c`, `iterations`.
+fn rating_json(r: &Rating) -> Value {
+    let c = |k: f64| k - 273.15;
+    let opt_c = |k: Option<f64>| k.map_or(Value::Null, |k| finite(c(k)));
+    let passage = |p: &PassageRating| {
+        json!({
+            "x_star": finite(p.x_star),
+            "x_plus": finite(p.x_plus),
+            "reynolds": finite(p.reynolds),
+            "regime": p.regime.as_str(),
+            "nusselt_mean": finite(p.nusselt_mean),
+            "heat_transfer_coefficient_mean_w_m2k": finite(p.heat_transfer_coefficient_mean_w_m2k),
+            "outlet_temperature_c": finite(c(p.outlet_temperature_k)),
+            "heat_rate_w": finite(p.heat_rate_w),
+            "wall_temperature_outlet_c": opt_c(p.wall_temperature_outlet_k),
+        })
+    };
+    let mut m = match r.passages.as_slice() {
+        [one] => match passage(one) {
+            Value::Object(m) => m,
+            _ => Map::new(),
+        },
+        _ => Map::new(),
+    };
+    m.insert(
+        "inlet_temperature_c".into(),
+        finite(c(r.inlet_temperature_k)),
+    );
+    m.insert(
+        "outlet_temperature_c".into(),
+        finite(c(r.outlet_temperature_k)),
+    );
+    m.insert("heat_rate_w".into(), finite(r.heat_rate_w));
+    m.insert(
+        "wall_temperature_outlet_c".into(),
+        opt_c(r.wall_temperature_outlet_k),
+    );
+    m.insert("thermal_model".into(), json!(r.thermal_model));
+    m.insert("prandtl".into(), finite(r.prandtl));
+    m.insert(
+        "mean_bulk_temperature_c".into(),
+        finite(c(0.5 * (r.inlet_temperature_k + r.outlet_temperature_k))),
+    );
+    m.insert("iterations".into(), json!(r.iterations));
+    if r.passages.len() > 1 {
+        m.insert(
+            "passages".into(),
+            Value::Array(r.passages.iter().map(passage).collect()),
+        );
+    }
+    Value::Object(m)
 }
 
 /// Which model gave the entrance figures.
@@ -466,6 +528,45 @@ pub fn summary(o: &Outcome) -> String {
     }
     if let Some(e) = &o.entrance {
         entrance_summary(&mut s, e);
+    }
+    if let Some(r) = &o.rating {
+        let _ = writeln!(s, "Thermal rating over the length ({})", r.thermal_model);
+        line(
+            &mut s,
+            "inlet → outlet (bulk)",
+            format!(
+                "{} °C → {} °C",
+                sig(r.inlet_temperature_k - 273.15, 4),
+                sig(r.outlet_temperature_k - 273.15, 4)
+            ),
+        );
+        line(&mut s, "heat rate", format!("{} W", sig(r.heat_rate_w, 4)));
+        if let Some(tw) = r.wall_temperature_outlet_k {
+            line(
+                &mut s,
+                "wall at the outlet",
+                format!("{} °C (the hottest wall)", sig(tw - 273.15, 4)),
+            );
+        }
+        for (k, p) in r.passages.iter().enumerate() {
+            let label = if r.passages.len() > 1 {
+                format!("passage {}", k + 1)
+            } else {
+                "mean over the length".to_string()
+            };
+            line(
+                &mut s,
+                &label,
+                format!(
+                    "Nu {} , h {} W/(m²·K), x* {}, Re {} ({})",
+                    sig(p.nusselt_mean, 4),
+                    sig(p.heat_transfer_coefficient_mean_w_m2k, 4),
+                    sig(p.x_star, 3),
+                    sig(p.reynolds, 4),
+                    p.regime.as_str()
+                ),
+            );
+        }
     }
     if let Some(op) = &o.operating {
         let fl = &op.fluid;

@@ -250,6 +250,27 @@ pub fn format_significant(value: f64, relative_uncertainty: f64) -> String {
     format!("{rounded:.decimals$}")
 }
 
+/// A heat rate in W: `250`, `250W`, `1.5kW` (negative: heat taken from the fluid).
+pub fn parse_heat_rate(text: &str, parameter: &str) -> Result<f64> {
+    let (v, unit) = split(text, parameter)?;
+    match unit.as_str() {
+        "" | "W" => Ok(v),
+        "kW" => Ok(v * 1e3),
+        _ => Err(unknown(parameter, &unit, "W, kW")),
+    }
+}
+
+/// A heat flux in W/m²: `5000`, `5000W/m2`, `5kW/m2`, `0.5W/cm2`.
+pub fn parse_heat_flux(text: &str, parameter: &str) -> Result<f64> {
+    let (v, unit) = split(text, parameter)?;
+    match unit.as_str() {
+        "" | "W/m2" | "W/m²" => Ok(v),
+        "kW/m2" | "kW/m²" => Ok(v * 1e3),
+        "W/cm2" | "W/cm²" => Ok(v * 1e4),
+        _ => Err(unknown(parameter, &unit, "W/m2, kW/m2, W/cm2")),
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -346,5 +367,15 @@ mod tests {
             format_significant(f64::MIN_POSITIVE, 1e-300),
             "2.22507e-308"
         );
+    }
+
+    #[test]
+    fn heat_rates_and_fluxes() {
+        // Definitions of the SI prefixes (common practice, no source).
+        assert_eq!(parse_heat_rate("1.5kW", "--heat-load").unwrap(), 1500.0);
+        assert_eq!(parse_heat_rate("-20 W", "--heat-load").unwrap(), -20.0);
+        assert_eq!(parse_heat_flux("0.5W/cm2", "--heat-flux").unwrap(), 5000.0);
+        assert_eq!(parse_heat_flux("5kW/m2", "--heat-flux").unwrap(), 5000.0);
+        assert!(parse_heat_flux("5 W/ft2", "--heat-flux").is_err());
     }
 }

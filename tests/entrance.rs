@@ -161,3 +161,147 @@ fn cli_reports_the_thermal_entrance() {
         &["--entrance-cells"],
     );
 }
+
+/// The thermal rating of a round tube with constant properties against the exact Graetz
+/// values at the outlet's x* (tests/reference/graetz.rs): the outlet temperature from the
+/// log-mean balance of the T condition, and for a uniform heat flux the energy balance
+/// (exact) and the outlet wall temperature from the local Nu_x,H (issue 16, item 3).
+#[test]
+fn rating_of_a_round_tube() {
+    let sb = Sandbox::new();
+    // Re = ρ·ū·D/μ = 500 and Pr = μ·c_p/k = 1e-3·4000/0.6 for ū = 0.0625 m/s in D = 8 mm.
+    let (d, mu, rho, k, cp, length) = (0.008, 1e-3, 1000.0, 0.6, 4000.0, 0.05);
+    let mean = 0.0625;
+    let q = mean * std::f64::consts::PI * d * d / 4.0;
+    let (re, pr) = (rho * mean * d / mu, mu * cp / k);
+    let x_star = length / (d * re * pr);
+    let reference = &graetz::circle(&[x_star])[0];
+    let flow = format!("{}m3/s", q);
+    let base = [
+        "solve",
+        "circle:d=8mm",
+        "--viscosity",
+        "1e-3",
+        "--density",
+        "1000",
+        "--conductivity",
+        "0.6",
+        "--specific-heat",
+        "4000",
+        "--flow",
+        &flow,
+        "--length",
+        "0.05m",
+        "--inlet-temperature",
+        "20C",
+        "--json",
+    ];
+    // Uniform wall temperature.
+    let mut args = base.to_vec();
+    args.extend(["--wall-temperature", "60C"]);
+    let r = sb.report(&args);
+    let rating = &r["rating"];
+    let t_out = 60.0 + (20.0 - 60.0) * (-4.0 * reference.nu_t_mean * x_star).exp();
+    let got = rating["outlet_temperature_c"].as_f64().unwrap();
+    println!(
+        "T: x* {x_star:.4e}: outlet {got:.4} °C vs {t_out:.4} °C, Nu_m {} vs {}",
+        rating["nusselt_mean"], reference.nu_t_mean
+    );
+    assert!(rel_err(rating["x_star"].as_f64().unwrap(), x_star) < 1e-9);
+    assert!(
+        rel_err(
+            rating["nusselt_mean"].as_f64().unwrap(),
+            reference.nu_t_mean
+        ) < 3e-3
+    );
+    assert!((got - t_out).abs() < 0.01 * (t_out - 20.0));
+    let heat = rating["heat_rate_w"].as_f64().unwrap();
+    assert!(rel_err(heat, rho * q * cp * (got - 20.0)) < 1e-9);
+    assert!(rating["thermal_model"]
+        .as_str()
+        .unwrap()
+        .contains("laminar"));
+    // Uniform heat flux: energy balance and the outlet wall.
+    let mut args = base.to_vec();
+    args.extend(["--heat-flux", "2kW/m2"]);
+    let r = sb.report(&args);
+    let rating = &r["rating"];
+    let heat = 2000.0 * std::f64::consts::PI * d * length;
+    let t_out = 20.0 + heat / (rho * q * cp);
+    let got = rating["outlet_temperature_c"].as_f64().unwrap();
+    assert!((got - t_out).abs() < 1e-6, "{got} vs {t_out}");
+    let wall = rating["wall_temperature_outlet_c"].as_f64().unwrap();
+    let wall_ref = t_out + 2000.0 * d / (k * reference.nu_h_local);
+    println!("H: outlet {got:.4} °C, wall {wall:.4} °C vs {wall_ref:.4} °C");
+    assert!((wall - wall_ref).abs() < 3e-3 * (wall_ref - t_out));
+}
+
+/// Boiling water is warned about; every incomplete set of rating options is refused naming the
+/// option before any solve.
+#[test]
+fn rating_cautions_and_refusals() {
+    let sb = Sandbox::new();
+    let base = [
+        "solve",
+        "circle:d=4mm",
+        "--cells",
+        "60",
+        "--fluid",
+        "water",
+        "--temperature",
+        "40C",
+        "--flow",
+        "0.1L/min",
+        "--length",
+        "0.5m",
+        "--json",
+    ];
+    let mut args = base.to_vec();
+    // 300 W into 0.1 L/min raise the bulk by about 43 K: the outlet passes 100 °C.
+    args.extend(["--inlet-temperature", "60C", "--heat-load", "300W"]);
+    let r = sb.report(&args);
+    let warnings = r["warnings"].to_string();
+    assert!(warnings.contains("boils"), "{warnings}");
+    // 2 kW would take the mean bulk temperature past the water model: refused.
+    let mut args = base.to_vec();
+    args.extend(["--inlet-temperature", "60C", "--heat-load", "2kW"]);
+    sb.input_error(&args, &["--heat-load"]);
+    sb.input_error(
+        &["solve", "circle:d=4mm", "--wall-temperature", "60C"],
+        &["--inlet-temperature"],
+    );
+    sb.input_error(
+        &["solve", "circle:d=4mm", "--inlet-temperature", "20C"],
+        &["--inlet-temperature"],
+    );
+    sb.input_error(
+        &[
+            "solve",
+            "circle:d=4mm",
+            "--inlet-temperature",
+            "20C",
+            "--wall-temperature",
+            "60C",
+            "--heat-load",
+            "5W",
+        ],
+        &["--wall-temperature"],
+    );
+    sb.input_error(
+        &[
+            "solve",
+            "circle:d=4mm",
+            "--fluid",
+            "water",
+            "--temperature",
+            "40C",
+            "--flow",
+            "0.1L/min",
+            "--inlet-temperature",
+            "20C",
+            "--wall-temperature",
+            "60C",
+        ],
+        &["--inlet-temperature"],
+    );
+}
