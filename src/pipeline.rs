@@ -330,7 +330,7 @@ impl SolveConfig {
         }
         if let Some(r) = &self.rating {
             r.validate()?;
-            if !self.operating.as_ref().is_some_and(|o| o.length.is_some()) {
+            if self.operating.as_ref().is_none_or(|o| o.length.is_none()) {
                 return Err(Error::param(
                     "--inlet-temperature",
                     "a thermal rating needs an operating point and the passage's length: give \

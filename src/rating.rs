@@ -17,6 +17,7 @@
 //!   is hotter than the bulk by q″·D_p/(k·Nu_x,H1(x*_p)) (the local value at the outlet: the
 //!   hottest wall of the passage, the bulk rising linearly and the local Nusselt number falling
 //!   along it).
+//!
 //! Laminar flow takes the Nusselt numbers of the thermal entrance march (`entrance`: fully
 //! developed velocity); transitional and turbulent flow those of Gnielinski (1976; 2013 across
 //! the transition, from the laminar value at Re = 2300) at the laminar-equivalent diameter,
