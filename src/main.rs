@@ -380,7 +380,7 @@ fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
         }
         (None, None) => None,
     };
-    c.rating = rating_spec(&a)?;
+    c.rating = rating_spec(a)?;
     // Every value checked now, before the output directory or the geometry is looked at.
     c.validate()?;
     Ok(c)
