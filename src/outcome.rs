@@ -77,7 +77,20 @@ pub struct Outcome {
 #[derive(Debug, Clone)]
 pub struct EntranceOutcome {
     pub thermal: ThermalEntrance,
+    /// The entrance values' numerical uncertainty (None without an error estimate, and for a
+    /// mask's fixed grid).
+    pub uncertainty: Option<EntranceUncertainty>,
     /// Cells across and down of the march's grid, and its unknowns.
     pub cells: (usize, usize),
     pub unknowns: usize,
+}
+
+/// The relative numerical uncertainty of the entrance values (see
+/// `pipeline::entrance_uncertainty`): per passage, for Nu_x,T, Nu_m,T, Nu_x,H1, Nu_m,H1 in that
+/// order, one value per station.
+#[derive(Debug, Clone)]
+pub struct EntranceUncertainty {
+    /// Cells across and down of the coarser grid.
+    pub coarse_cells: (usize, usize),
+    pub passages: Vec<[Vec<f64>; 4]>,
 }

@@ -80,6 +80,48 @@ fn round_tube_matches_the_graetz_series() {
     assert!(rel_err(lh, 0.0430) < 0.03, "{lh}");
 }
 
+/// The cheap estimate of the entrance values' numerical error covers the true error of the
+/// round tube (against the exact Graetz series) at every station from x* = 1e-4 on (issue 16,
+/// item 5).
+#[test]
+fn the_entrance_uncertainty_covers_the_error() {
+    let mut config = SolveConfig::new(Input::Builtin("circle:d=8mm".into()));
+    config.entrance = Some(EntranceOptions {
+        cells: ENTRANCE_CELLS,
+    });
+    let o = pipeline::run(&config).unwrap();
+    let e = o.entrance.as_ref().unwrap();
+    let th = &e.thermal;
+    let p = &th.passages[0];
+    let u = &e.uncertainty.as_ref().expect("an estimate").passages[0];
+    let reference = graetz::circle(&th.x_star);
+    for (i, (&x, r)) in th.x_star.iter().zip(&reference).enumerate() {
+        if x < 1e-4 {
+            continue;
+        }
+        for (k, (value, exact)) in [
+            (p.nusselt_t_local[i], r.nu_t_local),
+            (p.nusselt_t_mean[i], r.nu_t_mean),
+            (p.nusselt_h1_local[i], r.nu_h_local),
+            (p.nusselt_h1_mean[i], r.nu_h_mean),
+        ]
+        .into_iter()
+        .enumerate()
+        {
+            let err = rel_err(value, exact);
+            println!(
+                "x* {x:8.0e} quantity {k}: error {err:.2e}, uncertainty {:.2e}",
+                u[k][i]
+            );
+            assert!(
+                err <= u[k][i],
+                "x* {x}, quantity {k}: error {err} > {}",
+                u[k][i]
+            );
+        }
+    }
+}
+
 /// The slowest transient decays at the rate of the Nu_T eigenvalue, so far from the inlet the
 /// local Nusselt numbers equal the fully developed ones of the same grid (the eigen-solve and
 /// the H1 solve of `heat`) to 1e-4, on shapes with and without corners (issue 16).
