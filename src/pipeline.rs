@@ -458,6 +458,8 @@ pub(crate) fn run_once(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Ou
         Some(spec) => Some(operating_point(
             &unit.figures,
             unit.heat.as_ref(),
+            &unit.passages,
+            &unit.walls,
             spec,
             &mut warnings,
         )?),
@@ -524,6 +526,7 @@ mod tests {
                 specific_heat: None,
             },
             length: None,
+            roughness: 0.0,
         });
         match run(&c) {
             Err(Error::InvalidParameter { parameter, .. }) => assert_eq!(parameter, "--dpdx"),
