@@ -1010,8 +1010,8 @@ fn length_text(v: f64) -> String {
 pub fn velocity_png(o: &Outcome, scale: &Scale, width: u32) -> Result<Vec<u8>> {
     let sub = match &o.operating {
         Some(op) if !scale.laminar => format!(
-            "Axial velocity of the LAMINAR solution carrying Q = {} L/min (mean {} m/s): the \
-             flow at Re = {:.0} is {}, its real profile is flatter",
+            "Axial velocity of the LAMINAR solution at Q = {} L/min, mean {} m/s; the flow \
+             (Re {:.0}) is {}",
             sig4(op.flow_rate_m3_s * 6e4),
             sig4(op.mean_velocity_m_s),
             op.reynolds,
@@ -1060,8 +1060,8 @@ pub fn temperature_h1_png(o: &Outcome, width: u32) -> Result<Option<Vec<u8>>> {
     );
     let sub = match &o.operating {
         Some(op) if op.regime != crate::correlations::Regime::Laminar => format!(
-            "Temperature, H1, of the LAMINAR solution (the flow at Re = {:.0} is {}; its film \
-             coefficients come from the correlations in the report)",
+            "Temperature H1 of the LAMINAR solution; the flow (Re {:.0}) is {}, h from \
+             correlations",
             op.reynolds, op.regime
         ),
         _ => "Temperature, H1 (axially uniform heat flux, uniform wall temperature around the \
@@ -1186,8 +1186,8 @@ pub fn wall_shear_png(o: &Outcome, scale: &Scale, width: u32) -> Result<Vec<u8>>
         )
     } else if let Some(op) = o.operating.as_ref().filter(|_| !scale.laminar) {
         format!(
-            "Wall shear over its mean, LAMINAR solution: the flow at Re = {:.0} is {}; mean {} \
-             Pa from the correlations, local values not estimated",
+            "Wall shear / mean, LAMINAR solution; the flow (Re {:.0}) is {}, mean {} Pa \
+             (correlations)",
             op.reynolds,
             op.regime,
             sig4(op.wall_shear_mean_pa)
