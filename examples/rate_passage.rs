@@ -68,6 +68,7 @@ fn run() -> canalis::Result<()> {
             temperature_k: Some(WATER_TEMPERATURE_C + 273.15),
         },
         length: None,
+        roughness: 0.0,
     });
     let outcome = pipeline::run(&config)?;
     let (sol, f) = (&outcome.unit, &outcome.unit.figures);

@@ -20,10 +20,13 @@ use std::process::ExitCode;
     name = "canalis",
     version,
     about = "Fully developed laminar flow in ducts of any cross-section: f·Re, hydraulic \
-             diameter, wall shear",
-    after_help = "Results are for fully developed laminar flow of a Newtonian fluid with \
-                  constant properties; they do not replace local codes or licensed engineering \
-                  practice."
+             diameter, wall shear; at an operating point beyond the laminar range, friction and \
+             heat transfer from labelled correlations",
+    after_help = "Results are for fully developed flow of a Newtonian fluid with constant \
+                  properties: the laminar solution, and beyond the laminar range the \
+                  correlations named in the report (Colebrook–White about ±15 %, Gnielinski \
+                  about ±20 %, transitional values interpolated with no stated accuracy); they \
+                  do not replace local codes or licensed engineering practice."
 )]
 struct Cli {
     #[command(subcommand)]
@@ -92,7 +95,7 @@ struct SolveArgs {
     #[arg(long)]
     force: bool,
     /// Pressure gradient −dp/dz, Pa/m (positive: pressure falling along the flow), e.g.
-    /// 1200 or 1.2kPa/m.
+    /// 1200, 1.2kPa/m, 0.5bar/m, 3mbar/mm, 0.1psi/ft (also Pa/mm, MPa/m, mbar/m).
     #[arg(
         long,
         value_name = "VALUE",
@@ -100,9 +103,18 @@ struct SolveArgs {
         allow_hyphen_values = true
     )]
     dpdx: Option<String>,
-    /// Volumetric flow rate, e.g. 2L/min, 1e-5m3/s, 30mL/min, 0.5gpm.
+    /// Volumetric flow rate, e.g. 2L/min, 1e-5m3/s, 30mL/min, 0.5gpm; also m3/h, L/s, L/h,
+    /// mL/s, mL/h, cm3/s, cm3/min, cm3/h, uL/min (µL/min).
     #[arg(long, value_name = "VALUE", allow_hyphen_values = true)]
     flow: Option<String>,
+    /// Pressure drop over --length (required), e.g. 10kPa, 0.5bar, 40mbar, 5psi (a bare
+    /// number is Pa): the flow rate is found. Not with --dpdx or --flow.
+    #[arg(long, value_name = "DP", allow_hyphen_values = true)]
+    pressure_drop: Option<String>,
+    /// Absolute wall roughness, e.g. 0.05mm (default 0: smooth). Used beyond the laminar range
+    /// by the turbulent friction correlation (Colebrook–White at ε/D_h).
+    #[arg(long, value_name = "EPS", allow_hyphen_values = true)]
+    roughness: Option<String>,
     /// Dynamic viscosity, Pa·s (also mPa.s, cP).
     #[arg(long, value_name = "VALUE", conflicts_with = "fluid")]
     viscosity: Option<String>,
@@ -285,13 +297,43 @@ fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
         // A fraction between 0 and 1 (SolveConfig::validate).
         c.error_estimate = pipeline::ErrorEstimate::Accuracy(tol);
     }
-    let drive = match (&a.dpdx, &a.flow) {
-        (Some(g), _) => Some(Drive::PressureGradient(units::parse_pressure_gradient(
+    if a.pressure_drop.is_some() {
+        if a.dpdx.is_some() || a.flow.is_some() {
+            return Err(Error::param(
+                "--pressure-drop",
+                "give one drive only: --pressure-drop (with --length), --dpdx or --flow",
+            ));
+        }
+        if a.length.is_none() {
+            return Err(Error::param(
+                "--pressure-drop",
+                "a pressure drop needs the length it acts over: add --length L",
+            ));
+        }
+    }
+    let drive = match (&a.dpdx, &a.flow, &a.pressure_drop) {
+        (Some(g), _, _) => Some(Drive::PressureGradient(units::parse_pressure_gradient(
             g, "--dpdx",
         )?)),
-        (None, Some(q)) => Some(Drive::FlowRate(units::parse_flow_rate(q, "--flow")?)),
-        (None, None) => None,
+        (None, Some(q), _) => Some(Drive::FlowRate(units::parse_flow_rate(q, "--flow")?)),
+        (None, None, Some(dp)) => Some(Drive::PressureDrop(units::parse_pressure(
+            dp,
+            "--pressure-drop",
+        )?)),
+        (None, None, None) => None,
     };
+    let roughness = a
+        .roughness
+        .as_deref()
+        .map(|e| units::parse_length(e, "--roughness"))
+        .transpose()?;
+    if roughness.is_some() && drive.is_none() {
+        return Err(Error::param(
+            "--roughness",
+            "the wall roughness matters at an operating point only: add --flow, --dpdx or \
+             --pressure-drop, and a fluid",
+        ));
+    }
     let fluid = match (&a.fluid, &a.viscosity, &a.density) {
         (Some(name), _, _) => Some(FluidSpec::Named {
             name: name.clone(),
@@ -351,8 +393,8 @@ fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
     if a.length.is_some() && (drive.is_none() || fluid.is_none()) {
         return Err(Error::param(
             "--length",
-            "the pressure drop over a length needs an operating point: --dpdx or --flow, and a \
-             fluid",
+            "the pressure drop over a length needs an operating point: --dpdx, --flow or \
+             --pressure-drop, and a fluid",
         ));
     }
     c.operating = match (drive, fluid) {
@@ -364,6 +406,7 @@ fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
                 .as_deref()
                 .map(|l| units::parse_length(l, "--length"))
                 .transpose()?,
+            roughness: roughness.unwrap_or(0.0),
         }),
         (Some(_), None) => {
             return Err(Error::param(
@@ -375,7 +418,8 @@ fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
         (None, Some(_)) => {
             return Err(Error::param(
                 "--dpdx",
-                "a fluid was given without an operating point: add --dpdx or --flow",
+                "a fluid was given without an operating point: add --dpdx, --flow or \
+                 --pressure-drop",
             ))
         }
         (None, None) => None,

@@ -422,16 +422,19 @@ pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outc
     if let Some(options) = entrance {
         outcome.entrance = Some(run_entrance(config, &outcome, options, monitor)?);
     }
-    if let (Some(spec), Some(op), Some(e)) = (&config.rating, &config.operating, &outcome.entrance)
-    {
+    if let (Some(spec), Some(op), Some(point), Some(e)) = (
+        &config.rating,
+        &config.operating,
+        &outcome.operating,
+        &outcome.entrance,
+    ) {
         let length = op.length.expect("validated: a rating has a length");
         let mut warnings = Vec::new();
         let rating = rate(
             spec,
             &op.fluid,
-            op.drive,
+            point.flow_rate_m3_s,
             length,
-            &outcome.unit.figures,
             &outcome.unit.passages,
             &e.thermal,
             &mut warnings,
@@ -702,6 +705,8 @@ pub(crate) fn run_once(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Ou
         Some(spec) => Some(operating_point(
             &unit.figures,
             unit.heat.as_ref(),
+            &unit.passages,
+            &unit.walls,
             spec,
             &mut warnings,
         )?),
@@ -770,6 +775,7 @@ mod tests {
                 specific_heat: None,
             },
             length: None,
+            roughness: 0.0,
         });
         match run(&c) {
             Err(Error::InvalidParameter { parameter, .. }) => assert_eq!(parameter, "--dpdx"),

@@ -23,7 +23,9 @@
 //! the transition, from the laminar value at Re = 2300) at the laminar-equivalent diameter,
 //! with his length factor (`correlations`). Properties are taken at the mean bulk temperature
 //! (T_in + T_out)/2, found by iteration, when the fluid model knows them as functions of
-//! temperature; given constant properties are used as they are.
+//! temperature; given constant properties are used as they are. The flow rate is the operating
+//! point's (as given, or found from a pressure gradient or drop with the properties at its own
+//! `--temperature`).
 //!
 //! Invariant: knows the fluid models and the correlations, solves nothing, formats nothing.
 
@@ -31,8 +33,8 @@ use crate::correlations::{Duct, FrictionModel, Regime, Thresholds};
 use crate::entrance::ThermalEntrance;
 use crate::error::{Error, Result};
 use crate::fluids::FluidProperties;
-use crate::operating::{Drive, FluidSpec};
-use crate::post::{Figures, PassageFigures};
+use crate::operating::FluidSpec;
+use crate::post::PassageFigures;
 
 /// How the passage's wall is held.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -117,15 +119,15 @@ pub struct Rating {
 /// Water above this at the outlet or the wall boils at atmospheric pressure.
 const BOILING_K: f64 = 373.15;
 
-/// Rates the passage(s) of `figures`/`passages` over `length` at the drive and fluid of the
-/// operating point, with the thermal entrance of every passage (`entrance`).
+/// Rates the passage(s) `passages` over `length` at the operating point's flow
+/// rate `flow_rate` (m³/s: as given, or found from a pressure gradient or drop at the operating
+/// point's own temperature) and fluid, with the thermal entrance of every passage (`entrance`).
 #[allow(clippy::too_many_arguments)]
 pub fn rate(
     spec: &RatingSpec,
     fluid: &FluidSpec,
-    drive: Drive,
+    flow_rate: f64,
     length: f64,
-    figures: &Figures,
     passages: &[PassageFigures],
     entrance: &ThermalEntrance,
     warnings: &mut Vec<String>,
@@ -169,9 +171,8 @@ pub fn rate(
         let result = rate_at(
             spec,
             &props,
-            drive,
+            flow_rate,
             length,
-            figures,
             passages,
             total_perimeter,
             entrance,
@@ -202,9 +203,8 @@ pub fn rate(
 fn rate_at(
     spec: &RatingSpec,
     props: &FluidProperties,
-    drive: Drive,
+    q_total: f64,
     length: f64,
-    figures: &Figures,
     passages: &[PassageFigures],
     total_perimeter: f64,
     entrance: &ThermalEntrance,
@@ -222,10 +222,6 @@ fn rate_at(
     let pr = mu * cp / k;
     // The total flow: a flow rate as given, a pressure gradient through the laminar solution
     // (Q = G·∫ũ dA/μ; in turbulent flow the operating point's own regime handling applies).
-    let q_total = match drive {
-        Drive::FlowRate(q) => q,
-        Drive::PressureGradient(g) => g * figures.flow_integral / mu,
-    };
     let t_in = spec.inlet_temperature_k;
     let flux = match spec.heating {
         Heating::WallTemperature(_) => None,

@@ -3,16 +3,20 @@
 //! Owns: the report keys of ../shared/INTERFACE.md and the layout of the text summary. Both are
 //! consumers of the same [`Outcome`]; nothing here computes physics.
 
+use crate::correlations::Regime;
 use crate::entrance::PassageEntrance;
+use crate::operating::OperatingResult;
 use crate::outcome::{EntranceOutcome, Outcome};
 use crate::rating::{PassageRating, Rating};
 use crate::study::{Kind, Uncertainty};
+use crate::units::format_significant;
 use serde_json::{json, Map, Value};
 
 /// The cautions every human-readable summary ends with.
 pub const CAUTION: &str = "Fully developed laminar flow of a Newtonian fluid with constant \
-properties; entrance effects, transition to turbulence, roughness and heating are not modelled. \
-Not a substitute for local codes and licensed engineering practice: pressure containment and \
+properties; entrance effects and heating are not modelled, nor, in the laminar solution, \
+transition to turbulence and roughness (an operating point beyond the laminar range uses the \
+correlations named above). Not a substitute for local codes and licensed engineering practice: pressure containment and \
 coolant temperatures must be checked by a qualified engineer.";
 
 /// The caution printed with a thermal entrance table.
@@ -21,6 +25,22 @@ velocity profile from the inlet (a hydrodynamically developed inlet, or a fluid 
 develops much faster than its temperature, Pr ≫ 1), constant properties and no axial \
 conduction (Re·Pr well above 100). With a uniform inlet velocity at low Pr the heat transfer \
 near the inlet is higher than shown.";
+
+/// The caution added when an operating point leaves the laminar range.
+pub const CAUTION_CORRELATIONS: &str = "Beyond the laminar range the pressure drop, wall shear \
+and film coefficients come from empirical correlations for round tubes carried over to this \
+cross-section by its laminar-equivalent diameter (Jones 1976): Colebrook–White is usually quoted \
+to about ±15 % and Gnielinski to about ±20 % against measurements, and transitional flow is \
+intermittent, so values between the thresholds are interpolations with no stated accuracy; \
+defer to local codes and measured data where they exist.";
+
+/// Relative accuracy assumed for printing a figure that comes from a correlation: 3 significant
+/// digits (the correlations are good to 15–20 %).
+const CORRELATION_PRINT_ACCURACY: f64 = 0.1;
+
+/// Relative accuracy assumed for printing where the run has no estimate of its own: 4
+/// significant digits for most values.
+const DEFAULT_PRINT_ACCURACY: f64 = 1e-3;
 
 /// The report object (`--json`), all values in SI units.
 pub fn json_report(o: &Outcome) -> Value {
@@ -46,15 +66,12 @@ pub fn json_report(o: &Outcome) -> Value {
         "force_balance_rel_error".into(),
         finite(f.force_balance_rel_error),
     );
-    let g_over_mu = o
-        .operating
-        .as_ref()
-        .map(|op| op.pressure_gradient_pa_m / op.fluid.viscosity_pa_s);
     let passages: Vec<Value> = o
         .unit
         .passages
         .iter()
-        .map(|p| {
+        .enumerate()
+        .map(|(i, p)| {
             let mut e = Map::new();
             e.insert("area_m2".into(), json!(p.area));
             e.insert("perimeter_m".into(), json!(p.perimeter));
@@ -62,10 +79,8 @@ pub fn json_report(o: &Outcome) -> Value {
             e.insert("fanning_f_re".into(), finite(p.fanning_f_re));
             e.insert("flow_share".into(), finite(p.flow_share));
             e.insert("centroid_m".into(), json!(p.centroid));
-            if let Some(k) = g_over_mu {
-                let q = k * p.flow_integral;
-                e.insert("flow_rate_m3_s".into(), json!(q));
-                e.insert("mean_velocity_m_s".into(), json!(q / p.area));
+            if let Some(pr) = o.operating.as_ref().and_then(|op| op.passages.get(i)) {
+                passage_operating_json(pr, &mut e);
             }
             Value::Object(e)
         })
@@ -100,11 +115,12 @@ pub fn json_report(o: &Outcome) -> Value {
             json!(op.pressure_gradient_pa_m),
         );
         m.insert("mean_velocity_m_s".into(), json!(op.mean_velocity_m_s));
-        m.insert("max_velocity_m_s".into(), json!(op.max_velocity_m_s));
+        m.insert("max_velocity_m_s".into(), optional(op.max_velocity_m_s));
         m.insert("reynolds".into(), json!(op.reynolds));
         m.insert("wall_shear_mean_pa".into(), finite(op.wall_shear_mean_pa));
-        m.insert("wall_shear_max_pa".into(), finite(op.wall_shear_max_pa));
-        m.insert("wall_shear_min_pa".into(), finite(op.wall_shear_min_pa));
+        m.insert("wall_shear_max_pa".into(), optional(op.wall_shear_max_pa));
+        m.insert("wall_shear_min_pa".into(), optional(op.wall_shear_min_pa));
+        regime_json(op, &mut m);
         if let Some(v) = op.prandtl {
             m.insert("prandtl".into(), json!(v));
         }
@@ -124,6 +140,10 @@ pub fn json_report(o: &Outcome) -> Value {
             if let Some(lt) = l.entrance_length_thermal_m {
                 m.insert("entrance_length_thermal_m".into(), json!(lt));
             }
+            m.insert(
+                "hydraulic_resistance_pa_s_m3".into(),
+                finite(l.hydraulic_resistance_pa_s_m3),
+            );
         }
         m.insert(
             "fluid".into(),
@@ -350,25 +370,98 @@ fn uncertainty_json(u: &Uncertainty) -> Value {
     Value::Object(m)
 }
 
-/// `value` with `decimals` decimals, followed by ± its uncertainty for report key `key` when
-/// one was estimated, e.g. "16.00001 ± 0.00005".
-fn with_error(o: &Outcome, key: &str, value: f64, decimals: usize) -> String {
+/// `value` with the significant digits its uncertainty supports
+/// ([`format_significant`]), followed by ± its uncertainty for report key `key` when one was
+/// estimated, e.g. "16.0000 ± 0.000050 (3.1e-6 relative)"; 4 digits when none was.
+fn with_error(o: &Outcome, key: &str, value: f64) -> String {
     let est = o
         .uncertainty
         .as_ref()
         .and_then(|u| u.get(key))
         .and_then(|q| q.estimate);
     match est {
-        Some(e) if value.is_finite() => {
+        Some(e) if value.is_finite() && e.relative_uncertainty.is_finite() => {
             let abs = e.relative_uncertainty * value.abs();
             format!(
-                "{value:.decimals$} ± {} ({:.1e} relative)",
+                "{} ± {} ({:.1e} relative)",
+                format_significant(value, e.relative_uncertainty),
                 sig(abs, 2),
                 e.relative_uncertainty
             )
         }
-        _ => format!("{value:.decimals$}"),
+        _ => format_significant(value, DEFAULT_PRINT_ACCURACY),
     }
+}
+
+/// The relative uncertainty the dimensional figures of a laminar operating point are printed
+/// with: that of f·Re when estimated (Q and G scale with it), but no more than 4 digits (the
+/// fluid's properties are not better known), [`DEFAULT_PRINT_ACCURACY`] when none was estimated.
+fn print_accuracy(o: &Outcome) -> f64 {
+    o.uncertainty
+        .as_ref()
+        .and_then(|u| u.get("fanning_f_re"))
+        .and_then(|q| q.estimate)
+        .map(|e| e.relative_uncertainty)
+        .filter(|r| r.is_finite() && *r > 0.0)
+        .map_or(DEFAULT_PRINT_ACCURACY, |r| r.max(DEFAULT_PRINT_ACCURACY))
+}
+
+/// The flow-regime keys of an operating point (../shared/INTERFACE.md, "Flow regime"):
+/// `regime`, `darcy_friction_factor`, `models` (report key → model), and as extensions
+/// `regime_thresholds` (`lower`, `upper`, `sharp_corners`), `roughness_m` and
+/// `hydraulic_resistance_per_length_pa_s_m4`.
+fn regime_json(op: &OperatingResult, m: &mut Map<String, Value>) {
+    m.insert("regime".into(), json!(op.regime.as_str()));
+    m.insert(
+        "regime_thresholds".into(),
+        json!({
+            "lower": op.thresholds.lower(),
+            "upper": op.thresholds.upper(),
+            "sharp_corners": op.sharp_corners,
+        }),
+    );
+    m.insert(
+        "darcy_friction_factor".into(),
+        finite(op.darcy_friction_factor),
+    );
+    m.insert("roughness_m".into(), json!(op.roughness_m));
+    m.insert(
+        "hydraulic_resistance_per_length_pa_s_m4".into(),
+        finite(op.hydraulic_resistance_per_length_pa_s_m4),
+    );
+    let models: Map<String, Value> = op
+        .models
+        .iter()
+        .map(|(k, v)| (k.clone(), json!(v)))
+        .collect();
+    m.insert("models".into(), Value::Object(models));
+}
+
+/// A passage's keys at an operating point: `flow_rate_m3_s`, `mean_velocity_m_s` (contract),
+/// `reynolds`, `regime`, `darcy_friction_factor`, `wall_shear_mean_pa`, the entrance lengths
+/// with a length, and `warnings`.
+fn passage_operating_json(p: &crate::operating::PassageResult, e: &mut Map<String, Value>) {
+    e.insert("flow_rate_m3_s".into(), json!(p.flow_rate_m3_s));
+    e.insert("mean_velocity_m_s".into(), json!(p.mean_velocity_m_s));
+    e.insert("reynolds".into(), finite(p.reynolds));
+    e.insert("regime".into(), json!(p.regime.as_str()));
+    e.insert(
+        "darcy_friction_factor".into(),
+        finite(p.darcy_friction_factor),
+    );
+    e.insert("wall_shear_mean_pa".into(), finite(p.wall_shear_mean_pa));
+    if let Some(lh) = p.entrance_length_hydrodynamic_m {
+        e.insert("entrance_length_hydrodynamic_m".into(), finite(lh));
+    }
+    if let Some(lt) = p.entrance_length_thermal_m {
+        e.insert("entrance_length_thermal_m".into(), finite(lt));
+    }
+    e.insert("warnings".into(), json!(p.warnings));
+}
+
+/// A quantity that is not estimated (`None`) or could not be evaluated is null.
+fn optional(v: Option<f64>) -> Value {
+    v.map_or(Value::Null, finite)
 }
 
 /// JSON has no NaN: a quantity that could not be evaluated is null.
@@ -394,29 +487,31 @@ fn sig(v: f64, n: usize) -> String {
     }
 }
 
-/// A length with a unit that suits its size.
-fn length(v: f64) -> String {
+/// A length with a unit that suits its size, with the digits relative accuracy `rel` supports.
+fn length(v: f64, rel: f64) -> String {
     let a = v.abs();
     if a >= 1.0 {
-        format!("{v:.5} m")
+        format!("{} m", format_significant(v, rel))
     } else if a >= 1e-3 {
-        format!("{:.5} mm", v * 1e3)
+        format!("{} mm", format_significant(v * 1e3, rel))
     } else {
-        format!("{:.5} µm", v * 1e6)
+        format!("{} µm", format_significant(v * 1e6, rel))
     }
 }
 
-fn area(v: f64) -> String {
+fn area(v: f64, rel: f64) -> String {
     if v >= 1.0 {
-        format!("{v:.6} m²")
+        format!("{} m²", format_significant(v, rel))
     } else if v >= 1e-6 {
-        format!("{:.6} mm²", v * 1e6)
+        format!("{} mm²", format_significant(v * 1e6, rel))
     } else {
-        format!("{:.6} µm²", v * 1e12)
+        format!("{} µm²", format_significant(v * 1e12, rel))
     }
 }
 
-/// The compact human-readable summary.
+/// The compact human-readable summary. Figures carry the significant digits their uncertainty
+/// supports ([`format_significant`]): the unit problem's with their own estimate, a laminar
+/// operating point's with that of f·Re (at most 4 digits), the correlations' with 3.
 pub fn summary(o: &Outcome) -> String {
     use std::fmt::Write;
     let f = &o.unit.figures;
@@ -425,6 +520,7 @@ pub fn summary(o: &Outcome) -> String {
     let line = |s: &mut String, k: &str, v: String| {
         let _ = writeln!(s, "  {k:<26}{v}");
     };
+    let geo = DEFAULT_PRINT_ACCURACY;
     let _ = writeln!(s, "canalis: {}", o.name);
     line(
         &mut s,
@@ -433,7 +529,7 @@ pub fn summary(o: &Outcome) -> String {
             "{} × {} cells, spacing {}, {} unknowns",
             g.cells().0,
             g.cells().1,
-            length(g.h),
+            length(g.h, 0.01),
             o.unit.numbering.len()
         ),
     );
@@ -486,20 +582,37 @@ pub fn summary(o: &Outcome) -> String {
         line(&mut s, "uncertainty (±)", text);
     }
     let _ = writeln!(s, "Cross-section");
-    line(&mut s, "area", area(f.area));
-    line(&mut s, "wetted perimeter", length(f.perimeter));
-    line(&mut s, "hydraulic diameter", length(f.hydraulic_diameter));
+    line(&mut s, "area", area(f.area, geo));
+    line(&mut s, "wetted perimeter", length(f.perimeter, geo));
+    line(
+        &mut s,
+        "hydraulic diameter",
+        length(f.hydraulic_diameter, geo),
+    );
     if o.unit.passages.len() > 1 {
         let _ = writeln!(s, "Passages (top-left first, one pressure gradient)");
         for (i, p) in o.unit.passages.iter().enumerate() {
+            let at = o
+                .operating
+                .as_ref()
+                .and_then(|op| op.passages.get(i))
+                .map(|pr| {
+                    format!(
+                        "; Re {} ({}), {} L/min",
+                        format_significant(pr.reynolds, 0.01),
+                        pr.regime,
+                        format_significant(pr.flow_rate_m3_s * 6e4, 0.01)
+                    )
+                })
+                .unwrap_or_default();
             line(
                 &mut s,
                 &format!("passage {}", i + 1),
                 format!(
-                    "D_h {}, f·Re {:.4}, {:.2} % of the flow",
-                    length(p.hydraulic_diameter),
-                    p.fanning_f_re,
-                    100.0 * p.flow_share
+                    "D_h {}, f·Re {}, {} % of the flow{at}",
+                    length(p.hydraulic_diameter, geo),
+                    format_significant(p.fanning_f_re, print_accuracy(o)),
+                    format_significant(100.0 * p.flow_share, print_accuracy(o)),
                 ),
             );
         }
@@ -508,28 +621,28 @@ pub fn summary(o: &Outcome) -> String {
     line(
         &mut s,
         "f·Re, Fanning",
-        with_error(o, "fanning_f_re", f.fanning_f_re, 5),
+        with_error(o, "fanning_f_re", f.fanning_f_re),
     );
     line(
         &mut s,
         "f·Re, Darcy",
-        with_error(o, "fanning_f_re", 4.0 * f.fanning_f_re, 5),
+        with_error(o, "fanning_f_re", 4.0 * f.fanning_f_re),
     );
     line(
         &mut s,
         "u_max / u_mean",
-        with_error(o, "max_to_mean_velocity", f.max_to_mean_velocity, 5),
+        with_error(o, "max_to_mean_velocity", f.max_to_mean_velocity),
     );
-    let _ = writeln!(s, "Wall shear");
+    let _ = writeln!(s, "Wall shear (laminar)");
     line(
         &mut s,
         "max / mean",
-        with_error(o, "wall_shear_max_to_mean", f.wall_shear_max_to_mean, 5),
+        with_error(o, "wall_shear_max_to_mean", f.wall_shear_max_to_mean),
     );
     line(
         &mut s,
         "min / mean",
-        with_error(o, "wall_shear_min_to_mean", f.wall_shear_min_to_mean, 5),
+        with_error(o, "wall_shear_min_to_mean", f.wall_shear_min_to_mean),
     );
     line(
         &mut s,
@@ -541,12 +654,12 @@ pub fn summary(o: &Outcome) -> String {
         line(
             &mut s,
             "Nu_H1 (uniform flux)",
-            with_error(o, "nusselt_h1", h.nusselt_h1, 5),
+            with_error(o, "nusselt_h1", h.nusselt_h1),
         );
         line(
             &mut s,
             "Nu_T (uniform wall temp.)",
-            with_error(o, "nusselt_t", h.nusselt_t, 5),
+            with_error(o, "nusselt_t", h.nusselt_t),
         );
     }
     if let Some(e) = &o.entrance {
@@ -592,96 +705,7 @@ pub fn summary(o: &Outcome) -> String {
         }
     }
     if let Some(op) = &o.operating {
-        let fl = &op.fluid;
-        let t = fl
-            .temperature_k
-            .map(|t| format!(" at {:.1} °C", t - 273.15))
-            .unwrap_or_default();
-        let _ = writeln!(s, "Operating point: {}{t}", fl.name);
-        line(
-            &mut s,
-            "viscosity, density",
-            format!(
-                "{} mPa·s, {} kg/m³",
-                sig(fl.viscosity_pa_s * 1e3, 5),
-                sig(fl.density_kg_m3, 6)
-            ),
-        );
-        line(
-            &mut s,
-            "flow rate",
-            format!(
-                "{} L/min ({:.4e} m³/s)",
-                sig(op.flow_rate_m3_s * 6e4, 5),
-                op.flow_rate_m3_s
-            ),
-        );
-        line(
-            &mut s,
-            "pressure gradient",
-            format!(
-                "{} Pa/m ({} bar per metre)",
-                sig(op.pressure_gradient_pa_m, 5),
-                sig(op.pressure_gradient_pa_m * 1e-5, 4)
-            ),
-        );
-        line(
-            &mut s,
-            "mean velocity",
-            format!("{} m/s", sig(op.mean_velocity_m_s, 5)),
-        );
-        line(
-            &mut s,
-            "max velocity",
-            format!("{} m/s", sig(op.max_velocity_m_s, 5)),
-        );
-        line(&mut s, "Reynolds number", format!("{:.1}", op.reynolds));
-        if let Some(pr) = op.prandtl {
-            line(&mut s, "Prandtl number", format!("{pr:.3}"));
-        }
-        if let (Some(h1), Some(ht)) = (
-            op.heat_transfer_coefficient_h1_w_m2k,
-            op.heat_transfer_coefficient_t_w_m2k,
-        ) {
-            line(
-                &mut s,
-                "film coefficient H1 / T",
-                format!("{} / {} W/(m²·K)", sig(h1, 5), sig(ht, 5)),
-            );
-        }
-        if let Some(l) = &op.length {
-            line(
-                &mut s,
-                "pressure drop",
-                format!(
-                    "{} Pa over {}",
-                    sig(l.pressure_drop_pa, 5),
-                    length(l.length_m)
-                ),
-            );
-            let lt = l
-                .entrance_length_thermal_m
-                .map(|v| format!(", thermal ≈ {}", length(v)))
-                .unwrap_or_default();
-            line(
-                &mut s,
-                "entrance lengths",
-                format!(
-                    "hydrodynamic ≈ {}{lt} (0.05·Re·D_h, ·Pr; round-tube rule, no source)",
-                    length(l.entrance_length_hydrodynamic_m)
-                ),
-            );
-        }
-        line(
-            &mut s,
-            "wall shear mean/max/min",
-            format!(
-                "{} / {} / {} Pa",
-                sig(op.wall_shear_mean_pa, 5),
-                sig(op.wall_shear_max_pa, 5),
-                sig(op.wall_shear_min_pa, 5)
-            ),
-        );
+        operating_summary(o, op, &mut s);
     }
     if !o.warnings.is_empty() {
         let _ = writeln!(s, "Warnings");
@@ -693,7 +717,151 @@ pub fn summary(o: &Outcome) -> String {
     if o.entrance.is_some() {
         let _ = writeln!(s, "Note: {ENTRANCE_CAUTION}");
     }
+    if o.operating
+        .as_ref()
+        .is_some_and(|op| op.regime != Regime::Laminar)
+    {
+        let _ = writeln!(s, "Note: {CAUTION_CORRELATIONS}");
+    }
     s
+}
+
+/// The operating point's part of the summary, each figure with the model that gave it.
+fn operating_summary(o: &Outcome, op: &OperatingResult, s: &mut String) {
+    use std::fmt::Write;
+    let line = |s: &mut String, k: &str, v: String| {
+        let _ = writeln!(s, "  {k:<26}{v}");
+    };
+    let laminar = op.regime == Regime::Laminar;
+    // Laminar figures carry f·Re's uncertainty; the correlations' three digits.
+    let rel = if laminar {
+        print_accuracy(o)
+    } else {
+        CORRELATION_PRINT_ACCURACY
+    };
+    let n = |v: f64| format_significant(v, rel);
+    let fl = &op.fluid;
+    let t = fl
+        .temperature_k
+        .map(|t| format!(" at {} °C", format_significant(t - 273.15, 1e-3)))
+        .unwrap_or_default();
+    let _ = writeln!(s, "Operating point: {}{t}", fl.name);
+    line(
+        s,
+        "viscosity, density",
+        format!(
+            "{} mPa·s, {} kg/m³",
+            format_significant(fl.viscosity_pa_s * 1e3, 1e-4),
+            format_significant(fl.density_kg_m3, 1e-5)
+        ),
+    );
+    line(
+        s,
+        "regime",
+        format!(
+            "{} at Re {} (laminar below {}, turbulent above {}; {})",
+            op.regime,
+            format_significant(op.reynolds, 0.01),
+            op.thresholds.lower(),
+            op.thresholds.upper(),
+            if op.sharp_corners {
+                "thresholds of ducts with sharp corners"
+            } else {
+                "round-duct thresholds"
+            }
+        ),
+    );
+    line(
+        s,
+        "flow rate",
+        format!(
+            "{} L/min ({} m³/s)",
+            n(op.flow_rate_m3_s * 6e4),
+            n(op.flow_rate_m3_s)
+        ),
+    );
+    line(
+        s,
+        "pressure gradient",
+        format!(
+            "{} Pa/m ({} bar per metre)",
+            n(op.pressure_gradient_pa_m),
+            n(op.pressure_gradient_pa_m * 1e-5)
+        ),
+    );
+    line(s, "Darcy friction factor", n(op.darcy_friction_factor));
+    line(
+        s,
+        "mean velocity",
+        format!("{} m/s", n(op.mean_velocity_m_s)),
+    );
+    line(
+        s,
+        "max velocity",
+        op.max_velocity_m_s.map_or_else(
+            || "not estimated outside laminar flow".to_string(),
+            |v| format!("{} m/s", n(v)),
+        ),
+    );
+    if let Some(pr) = op.prandtl {
+        line(s, "Prandtl number", format_significant(pr, 1e-3));
+    }
+    if let (Some(h1), Some(ht)) = (
+        op.heat_transfer_coefficient_h1_w_m2k,
+        op.heat_transfer_coefficient_t_w_m2k,
+    ) {
+        line(
+            s,
+            "film coefficient H1 / T",
+            format!("{} / {} W/(m²·K)", n(h1), n(ht)),
+        );
+    }
+    line(
+        s,
+        "hydraulic resistance",
+        format!(
+            "{} Pa·s/m⁴ per length",
+            n(op.hydraulic_resistance_per_length_pa_s_m4)
+        ),
+    );
+    if let Some(l) = &op.length {
+        line(
+            s,
+            "pressure drop",
+            format!(
+                "{} Pa over {} ({} Pa·s/m³)",
+                n(l.pressure_drop_pa),
+                length(l.length_m, 1e-3),
+                n(l.hydraulic_resistance_pa_s_m3)
+            ),
+        );
+        let lt = l
+            .entrance_length_thermal_m
+            .map(|v| format!(", thermal ≈ {}", length(v, 0.1)))
+            .unwrap_or_default();
+        line(
+            s,
+            "entrance lengths",
+            format!(
+                "hydrodynamic ≈ {}{lt}",
+                length(l.entrance_length_hydrodynamic_m, 0.1)
+            ),
+        );
+    }
+    let shear = match (op.wall_shear_max_pa, op.wall_shear_min_pa) {
+        (Some(max), Some(min)) => {
+            format!("{} / {} / {} Pa", n(op.wall_shear_mean_pa), n(max), n(min))
+        }
+        _ => format!(
+            "{} Pa / not estimated / not estimated",
+            n(op.wall_shear_mean_pa)
+        ),
+    };
+    line(s, "wall shear mean/max/min", shear);
+    let _ = writeln!(s, "Models (which gave each figure; report keys)");
+    for (key, model) in &op.models {
+        let _ = writeln!(s, "  - {key}: {model}");
+    }
 }
 
 /// Numbers joined with ", ".

@@ -114,7 +114,7 @@ pub fn write_all(outcome: &Outcome, dir: &Path, opts: &OutputOptions) -> Result<
         Some(json.into_bytes()),
         Some(fields::velocity_csv(outcome, &scale).into_bytes()),
         Some(fields::wall_shear_csv(outcome, &scale).into_bytes()),
-        Some(fields::velocity_vti(outcome, &scale).into_bytes()),
+        Some(fields::velocity_vti(outcome, &scale)),
         Some(png::velocity_png(outcome, &scale, opts.image_width)?),
         Some(png::wall_shear_png(outcome, &scale, opts.image_width)?),
         png::temperature_h1_png(outcome, opts.image_width)?,
@@ -149,13 +149,20 @@ pub struct Scale {
     pub u_mean: f64,
     /// True at an operating point (SI units), false for the ratios.
     pub physical: bool,
+    /// True when the wall shear is shown in Pa: at a laminar operating point only. Beyond the
+    /// laminar range the laminar distribution is shown over its mean (the turbulent one is not
+    /// the laminar one scaled).
+    pub tau_physical: bool,
+    /// False at an operating point beyond the laminar range: the fields shown are the laminar
+    /// solution's, the velocity scaled to carry the operating point's flow rate.
+    pub laminar: bool,
 }
 
 impl Scale {
     pub fn of(o: &Outcome) -> Scale {
         let f = &o.unit.figures;
         match &o.operating {
-            Some(op) => {
+            Some(op) if op.regime == crate::correlations::Regime::Laminar => {
                 let g = op.pressure_gradient_pa_m;
                 let u_factor = g / op.fluid.viscosity_pa_s;
                 Scale {
@@ -164,6 +171,22 @@ impl Scale {
                     tau_mean: g * f.wall_shear_mean,
                     u_mean: u_factor * f.flow_integral / f.area,
                     physical: true,
+                    tau_physical: true,
+                    laminar: true,
+                }
+            }
+            // Beyond the laminar range: the laminar profile that carries the flow rate Q
+            // (u = (Q/I)·ũ), and the laminar wall-shear distribution over its mean.
+            Some(op) => {
+                let u_factor = op.flow_rate_m3_s / f.flow_integral;
+                Scale {
+                    u_factor,
+                    tau_factor: 1.0 / f.wall_shear_mean,
+                    tau_mean: 1.0,
+                    u_mean: u_factor * f.flow_integral / f.area,
+                    physical: true,
+                    tau_physical: false,
+                    laminar: false,
                 }
             }
             None => Scale {
@@ -172,6 +195,8 @@ impl Scale {
                 tau_mean: 1.0,
                 u_mean: 1.0,
                 physical: false,
+                tau_physical: false,
+                laminar: true,
             },
         }
     }
@@ -196,7 +221,7 @@ impl Scale {
 
     /// Column name of the wall shear.
     pub fn tau_name(&self) -> &'static str {
-        if self.physical {
+        if self.tau_physical {
             "tau_pa"
         } else {
             "tau_unit_m"
@@ -205,7 +230,7 @@ impl Scale {
 
     /// Axis label of the wall shear.
     pub fn tau_label(&self) -> &'static str {
-        if self.physical {
+        if self.tau_physical {
             "wall shear stress τ [Pa]"
         } else {
             "τ / τ_mean"

@@ -1009,6 +1009,14 @@ fn length_text(v: f64) -> String {
 /// `velocity.png`: the axial velocity over the cross-section.
 pub fn velocity_png(o: &Outcome, scale: &Scale, width: u32) -> Result<Vec<u8>> {
     let sub = match &o.operating {
+        Some(op) if !scale.laminar => format!(
+            "Axial velocity of the LAMINAR solution at Q = {} L/min, mean {} m/s; the flow \
+             (Re {:.0}) is {}",
+            sig4(op.flow_rate_m3_s * 6e4),
+            sig4(op.mean_velocity_m_s),
+            op.reynolds,
+            op.regime
+        ),
         Some(op) => format!(
             "Axial velocity, fully developed laminar flow: Q = {} L/min, mean {} m/s, Re = {:.0}",
             sig4(op.flow_rate_m3_s * 6e4),
@@ -1050,16 +1058,17 @@ pub fn temperature_h1_png(o: &Outcome, width: u32) -> Result<Option<Vec<u8>>> {
         sig4(heat.nusselt_t),
         length_text(o.unit.figures.hydraulic_diameter)
     );
-    map_png(
-        o,
-        values,
-        "Temperature, H1 (axially uniform heat flux, uniform wall temperature around the wall), \
-         fully developed laminar flow",
-        "(T − T_w) / (T_b − T_w)",
-        &caption,
-        width,
-    )
-    .map(Some)
+    let sub = match &o.operating {
+        Some(op) if op.regime != crate::correlations::Regime::Laminar => format!(
+            "Temperature H1 of the LAMINAR solution; the flow (Re {:.0}) is {}, h from \
+             correlations",
+            op.reynolds, op.regime
+        ),
+        _ => "Temperature, H1 (axially uniform heat flux, uniform wall temperature around the \
+              wall), fully developed laminar flow"
+            .to_string(),
+    };
+    map_png(o, values, &sub, "(T − T_w) / (T_b − T_w)", &caption, width).map(Some)
 }
 
 /// A field on the cross-section in the colour map, with colour bar, isolines, walls, scale bar
@@ -1170,10 +1179,18 @@ pub fn wall_shear_png(o: &Outcome, scale: &Scale, width: u32) -> Result<Vec<u8>>
     let height = (chart_top + chart_h + 4.5 * fs + margin).ceil() as usize;
     let mut cv = Canvas::new(width as usize, height)?;
 
-    let sub = if scale.physical {
+    let sub = if scale.tau_physical {
         format!(
             "Local wall shear stress τ: mean {} Pa (= G·A/P), fully developed laminar flow",
             sig4(scale.tau_mean)
+        )
+    } else if let Some(op) = o.operating.as_ref().filter(|_| !scale.laminar) {
+        format!(
+            "Wall shear / mean, LAMINAR solution; the flow (Re {:.0}) is {}, mean {} Pa \
+             (correlations)",
+            op.reynolds,
+            op.regime,
+            sig4(op.wall_shear_mean_pa)
         )
     } else {
         "Local wall shear stress over its perimeter mean, fully developed laminar flow".into()
@@ -1382,7 +1399,7 @@ pub fn wall_shear_png(o: &Outcome, scale: &Scale, width: u32) -> Result<Vec<u8>>
         ly += 1.5 * fs;
     }
     cv.dashed((lx, ly), (lx + 1.8 * fs, ly), 1.6, INK, 0.6 * fs);
-    let mean_text = if scale.physical {
+    let mean_text = if scale.tau_physical {
         format!("mean {} Pa", sig4(scale.tau_mean))
     } else {
         "mean (= 1)".to_string()
