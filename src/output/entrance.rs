@@ -672,7 +672,11 @@ fn draw_legend<DB: DrawingBackend>(
     put("entrance length x* (5 %):", y, 0.9 * fs, GREY, x0)?;
     y += 1.3 * fs;
     put(
-        &format!("T {}   H1 {}", len(p.length_star_t), len(p.length_star_h1)),
+        &format!(
+            "T: {}    H1: {}",
+            len(p.length_star_t),
+            len(p.length_star_h1)
+        ),
         y,
         0.9 * fs,
         INK,
