@@ -85,7 +85,9 @@ struct SolveArgs {
     json: bool,
     /// Write pictures and field files into this directory (created if missing):
     /// velocity.png, wall_shear.png, temperature_h1.png (the H1 temperature field),
-    /// velocity.csv, wall_shear.csv, velocity.vti (VTK) and report.json.
+    /// velocity.csv, wall_shear.csv, velocity.vti (VTK) and report.json; with --entrance (or a
+    /// thermal rating) also entrance.png (local and mean Nu_T, Nu_H1 against x*, the outlet
+    /// marked with --length) and entrance.csv (those curves at every march point).
     #[arg(long, value_name = "DIR")]
     out: Option<PathBuf>,
     /// Width of the pictures written by --out, pixels (400 to 8000).
@@ -515,7 +517,9 @@ fn solve(a: &SolveArgs) -> Result<(), Error> {
     if let Some(dir) = &a.out {
         // Check before the solve, so a long run is not wasted on a file in the way.
         output::check_options(&out_options)?;
-        output::check_targets(dir, a.force)?;
+        // A rating implies the entrance march, which adds its files.
+        let marches = cfg.entrance.is_some() || cfg.rating.is_some();
+        output::check_targets(dir, a.force, marches)?;
     }
     let outcome = if a.json || a.quiet {
         pipeline::run(&cfg)?

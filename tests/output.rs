@@ -455,3 +455,264 @@ fn image_width_out_of_range_is_refused() {
     sb.input_error(&args, &["--image-width"]);
     assert!(!sb.path("o").exists(), "nothing is written after a refusal");
 }
+
+/// The `canalis:plot` chunk of entrance.png: one map per panel, key → value.
+fn plot_maps(bytes: &[u8]) -> Vec<HashMap<String, f64>> {
+    let reader = png::Decoder::new(std::io::Cursor::new(bytes))
+        .read_info()
+        .expect("a PNG header");
+    let chunk = reader
+        .info()
+        .uncompressed_latin1_text
+        .iter()
+        .find(|c| c.keyword == "canalis:plot")
+        .expect("a canalis:plot text chunk")
+        .text
+        .clone();
+    chunk
+        .split("; ")
+        .map(|panel| {
+            panel
+                .split_whitespace()
+                .filter_map(|kv| kv.split_once('='))
+                .filter(|(k, _)| *k != "scale")
+                .map(|(k, v)| (k.to_string(), num(v)))
+                .collect()
+        })
+        .collect()
+}
+
+/// Issue 16, item 4: `--entrance --out` adds entrance.png (local and mean Nu against x*) and
+/// entrance.csv (those curves at every march point); the CSV agrees with the report.
+#[test]
+fn issue_16_entrance_plot_and_curves() {
+    let sb = Sandbox::new();
+    let report = solve_into(
+        &sb,
+        "o",
+        &[
+            "circle:d=8mm",
+            "--cells",
+            "60",
+            "--entrance",
+            "--image-width",
+            "900",
+        ],
+    );
+    let out = sb.path("o");
+    let mut expected: Vec<PathBuf> = files(&out);
+    expected.extend(canalis::output::entrance::FILES.iter().map(|f| out.join(f)));
+    for f in &expected {
+        assert!(f.exists(), "{} is written", f.display());
+    }
+
+    // The picture: a PNG of the requested width, with the map of its panel.
+    let bytes = std::fs::read(out.join("entrance.png")).unwrap();
+    let reader = png::Decoder::new(std::io::Cursor::new(&bytes))
+        .read_info()
+        .expect("entrance.png has a PNG header");
+    assert_eq!(reader.info().width, 900);
+    assert!(reader.info().height > 400);
+    let img = image::load_from_memory(&bytes)
+        .expect("entrance.png decodes")
+        .to_rgb8();
+    let maps = plot_maps(&bytes);
+    assert_eq!(maps.len(), 1, "one passage, one panel");
+    let m = &maps[0];
+    assert_eq!((m["x_min"], m["x_max"]), (1e-5, 1.0));
+    assert!(m["left_px"] < m["right_px"] && m["right_px"] <= 900.0);
+    assert!(m["top_px"] < m["bottom_px"] && m["bottom_px"] <= img.height() as f64);
+
+    // The curves: every march point, x* rising from the inlet region to 1.
+    let (header, rows) = csv(&out.join("entrance.csv"));
+    assert_eq!(
+        header,
+        [
+            "passage",
+            "x_star",
+            "nusselt_t_local",
+            "nusselt_t_mean",
+            "nusselt_h1_local",
+            "nusselt_h1_mean"
+        ]
+    );
+    let values: Vec<Vec<f64>> = rows
+        .iter()
+        .map(|r| r.iter().map(|s| num(s)).collect())
+        .collect();
+    assert!(values.len() > 30, "{} rows", values.len());
+    assert!(values.iter().all(|r| r[0] == 1.0), "a single passage");
+    assert!(values
+        .iter()
+        .all(|r| r[2..].iter().all(|v| v.is_finite() && *v > 0.0)));
+    assert!(values[0][1] <= 1e-5, "first x* {}", values[0][1]);
+    assert_eq!(values.last().unwrap()[1], 1.0);
+    assert!(values.windows(2).all(|w| w[1][1] > w[0][1]), "x* increases");
+
+    // The report's stations are rows of the CSV with the same values.
+    let th = &report["entrance"]["thermal"];
+    let arr = |k: &str| -> Vec<f64> {
+        th[k]
+            .as_array()
+            .unwrap_or_else(|| panic!("entrance.thermal.{k}"))
+            .iter()
+            .map(|v| v.as_f64().unwrap())
+            .collect()
+    };
+    let last_t = *arr("nusselt_t_local").last().unwrap();
+    let last = values.last().unwrap();
+    assert!(
+        (last[2] - last_t).abs() <= 1e-12 * last_t.abs(),
+        "{} vs {last_t}",
+        last[2]
+    );
+    let xs = arr("x_star");
+    for (key, col) in [
+        ("nusselt_t_local", 2),
+        ("nusselt_t_mean", 3),
+        ("nusselt_h1_local", 4),
+        ("nusselt_h1_mean", 5),
+    ] {
+        for (x, v) in xs.iter().zip(arr(key)) {
+            let row = values
+                .iter()
+                .find(|r| (r[1] - x).abs() <= 1e-9 * x)
+                .unwrap_or_else(|| panic!("station {x} is a row"));
+            assert!(
+                (row[col] - v).abs() <= 1e-12 * v.abs(),
+                "{key} at {x}: {} vs {v}",
+                row[col]
+            );
+        }
+    }
+
+    // From x* = 0.3 on, the local Nu_T curve and its dashed asymptote both lie at the fully
+    // developed Nu_T, drawn in the T colour (Okabe–Ito blue) where the panel's map puts it.
+    let nu_t = num_at(&report, "nusselt_t");
+    let px_of = |x: f64| {
+        m["left_px"]
+            + (m["right_px"] - m["left_px"]) * (x / m["x_min"]).ln()
+                / (m["x_max"] / m["x_min"]).ln()
+    };
+    let py_of = |nu: f64| {
+        m["bottom_px"]
+            - (m["bottom_px"] - m["top_px"]) * (nu / m["nu_min"]).ln()
+                / (m["nu_max"] / m["nu_min"]).ln()
+    };
+    let blue = [0i32, 114, 178];
+    let near_blue = (-3..=3).any(|dy| {
+        (0..40).any(|dx| {
+            let p = img
+                .get_pixel(px_of(0.3) as u32 + dx, (py_of(nu_t) + dy as f64) as u32)
+                .0;
+            (0..3).map(|k| (p[k] as i32 - blue[k]).abs()).max().unwrap() < 40
+        })
+    });
+    assert!(near_blue, "the Nu_T line is at Nu_T = {nu_t}");
+}
+
+fn num_at(report: &Value, key: &str) -> f64 {
+    report[key]
+        .as_f64()
+        .unwrap_or_else(|| panic!("report key {key}"))
+}
+
+/// Without `--entrance` (and no rating) `--out` writes exactly what it wrote before issue 16,
+/// and an entrance file in the way does not stop it; with `--entrance` it does, before the
+/// solve, and `--force` replaces it.
+#[test]
+fn issue_16_entrance_files_only_with_the_entrance() {
+    let sb = Sandbox::new();
+    let out = sb.path("o");
+    std::fs::create_dir_all(&out).unwrap();
+    std::fs::write(out.join("entrance.csv"), "keep me").unwrap();
+    solve_into(&sb, "o", &["circle:d=8mm", "--cells", "40"]);
+    let mut names: Vec<String> = std::fs::read_dir(&out)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
+    names.sort();
+    let mut want: Vec<String> = canalis::output::FILES
+        .iter()
+        .map(|s| s.to_string())
+        .chain(["entrance.csv".to_string()])
+        .collect();
+    want.sort();
+    assert_eq!(names, want, "the files of --out without --entrance");
+    assert!(!out.join("entrance.png").exists());
+    assert_eq!(
+        std::fs::read_to_string(out.join("entrance.csv")).unwrap(),
+        "keep me"
+    );
+
+    let args = [
+        "solve",
+        "circle:d=8mm",
+        "--cells",
+        "40",
+        "--entrance",
+        "--out",
+        "o2",
+        "--quiet",
+    ];
+    std::fs::create_dir_all(sb.path("o2")).unwrap();
+    std::fs::write(sb.path("o2").join("entrance.png"), "keep me").unwrap();
+    sb.input_error(&args, &["entrance.png already exists", "--force"]);
+    assert_eq!(std::fs::read_dir(sb.path("o2")).unwrap().count(), 1);
+    let mut forced = args.to_vec();
+    forced.push("--force");
+    sb.run(&forced).assert_success();
+    assert!(image::open(sb.path("o2").join("entrance.png")).is_ok());
+}
+
+/// With a thermal rating the outlet x* is marked by a vertical dark line at its place on the
+/// x* axis.
+#[test]
+fn issue_16_entrance_plot_marks_the_outlet() {
+    let sb = Sandbox::new();
+    let report = solve_into(
+        &sb,
+        "o",
+        &[
+            "circle:d=8mm",
+            "--cells",
+            "50",
+            "--flow",
+            "0.5L/min",
+            "--fluid",
+            "water",
+            "--temperature",
+            "20C",
+            "--length",
+            "100mm",
+            "--inlet-temperature",
+            "20C",
+            "--wall-temperature",
+            "60C",
+        ],
+    );
+    let x_out = report["rating"]["x_star"].as_f64().expect("rating.x_star");
+    assert!((1e-4..0.1).contains(&x_out), "outlet x* {x_out}");
+    let bytes = std::fs::read(sb.path("o").join("entrance.png")).unwrap();
+    let m = &plot_maps(&bytes)[0];
+    let img = image::load_from_memory(&bytes).unwrap().to_rgb8();
+    let px = m["left_px"]
+        + (m["right_px"] - m["left_px"]) * (x_out / m["x_min"]).ln()
+            / (m["x_max"] / m["x_min"]).ln();
+    // The dash-dot line covers most of the column's height in dark ink.
+    let (top, bottom) = (m["top_px"] as u32 + 2, m["bottom_px"] as u32 - 2);
+    let dark = |x: u32| {
+        (top..bottom)
+            .filter(|&y| img.get_pixel(x, y).0.iter().all(|&c| c < 110))
+            .count()
+    };
+    let best = (px as u32 - 2..=px as u32 + 2).map(dark).max().unwrap();
+    assert!(
+        best as f64 > 0.5 * (bottom - top) as f64,
+        "{best} dark pixels of {} at x* = {x_out}",
+        bottom - top
+    );
+    // Well away from it, no such line.
+    let away = m["left_px"] + 0.5 * (px - m["left_px"]);
+    assert!(((dark(away as u32)) as f64) < 0.2 * (bottom - top) as f64);
+}

@@ -9,11 +9,14 @@
 //! * [`png`]: `velocity.png`, `wall_shear.png` and `temperature_h1.png` (the H1 temperature
 //!   θ = φ/φ_b, when heat transfer was solved; rasterised here, embedded font, no system
 //!   fonts needed);
-//! * [`fields`]: `velocity.csv`, `wall_shear.csv` and `velocity.vti` (VTK XML ImageData).
+//! * [`fields`]: `velocity.csv`, `wall_shear.csv` and `velocity.vti` (VTK XML ImageData);
+//! * [`entrance`]: `entrance.png` and `entrance.csv` (the thermal entrance curves), only when
+//!   the run marched the thermal entrance ([`entrance::FILES`], after [`FILES`]).
 //!
 //! Invariant: consumes an [`Outcome`] and computes no physics; every number it writes is a
 //! value of the outcome times a scale factor stated above.
 
+pub mod entrance;
 pub mod fields;
 pub mod png;
 
@@ -58,17 +61,20 @@ impl Default for OutputOptions {
     }
 }
 
-/// The paths `--out dir` writes.
-pub fn targets(dir: &Path) -> Vec<PathBuf> {
-    FILES.iter().map(|f| dir.join(f)).collect()
+/// The paths `--out dir` writes: [`FILES`], then [`entrance::FILES`] when the run marches the
+/// thermal entrance (`entrance`).
+pub fn targets(dir: &Path, entrance: bool) -> Vec<PathBuf> {
+    let extra: &[&str] = if entrance { &entrance::FILES } else { &[] };
+    FILES.iter().chain(extra).map(|f| dir.join(f)).collect()
 }
 
-/// Refuses when any target file exists and `force` is not set, naming the first one in the way.
-pub fn check_targets(dir: &Path, force: bool) -> Result<()> {
+/// Refuses when any target file exists and `force` is not set, naming the first one in the way
+/// (`entrance`: the run marches the thermal entrance, see [`targets`]).
+pub fn check_targets(dir: &Path, force: bool, entrance: bool) -> Result<()> {
     if force {
         return Ok(());
     }
-    match targets(dir).into_iter().find(|p| p.exists()) {
+    match targets(dir, entrance).into_iter().find(|p| p.exists()) {
         Some(p) => Err(Error::param(
             "--out",
             format!(
@@ -99,18 +105,19 @@ pub fn check_options(opts: &OutputOptions) -> Result<()> {
     check_width(opts.image_width)
 }
 
-/// Writes every file of [`FILES`] into `dir` (created if missing) and returns their paths.
+/// Writes every file of [`targets`] into `dir` (created if missing) and returns their paths.
 /// Nothing is written when any target exists and `opts.force` is not set; all files are
 /// rendered in memory first, so a failure while rendering leaves none behind either.
 pub fn write_all(outcome: &Outcome, dir: &Path, opts: &OutputOptions) -> Result<Vec<PathBuf>> {
     check_width(opts.image_width)?;
-    check_targets(dir, opts.force)?;
+    let marched = outcome.entrance.is_some();
+    check_targets(dir, opts.force, marched)?;
     let scale = Scale::of(outcome);
     let json = serde_json::to_string_pretty(&report::json_report(outcome))
         .map_err(|e| Error::param("--out", format!("the report could not be serialised: {e}")))?
         + "\n";
     // The temperature map exists only when heat transfer was solved.
-    let contents: [Option<Vec<u8>>; 7] = [
+    let mut contents: Vec<Option<Vec<u8>>> = vec![
         Some(json.into_bytes()),
         Some(fields::velocity_csv(outcome, &scale).into_bytes()),
         Some(fields::wall_shear_csv(outcome, &scale).into_bytes()),
@@ -119,12 +126,13 @@ pub fn write_all(outcome: &Outcome, dir: &Path, opts: &OutputOptions) -> Result<
         Some(png::wall_shear_png(outcome, &scale, opts.image_width)?),
         png::temperature_h1_png(outcome, opts.image_width)?,
     ];
+    contents.extend(entrance::files(outcome, opts.image_width)?);
     std::fs::create_dir_all(dir).map_err(|source| Error::Io {
         path: dir.to_path_buf(),
         source,
     })?;
-    let mut written = Vec::with_capacity(FILES.len());
-    for (path, bytes) in targets(dir).into_iter().zip(contents) {
+    let mut written = Vec::with_capacity(contents.len());
+    for (path, bytes) in targets(dir, marched).into_iter().zip(contents) {
         let Some(bytes) = bytes else { continue };
         std::fs::write(&path, bytes).map_err(|source| Error::Io {
             path: path.clone(),

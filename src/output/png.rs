@@ -297,11 +297,11 @@ pub const SOLID: [u8; 3] = [204, 204, 204];
 /// Page background.
 pub const PAPER: [u8; 3] = [255, 255, 255];
 /// Walls and text.
-const INK: [u8; 3] = [25, 25, 25];
+pub(super) const INK: [u8; 3] = [25, 25, 25];
 /// The fluid of the wall-shear sheet's cross-section (the walls carry the colour there).
 const PALE_FLUID: [u8; 3] = [246, 246, 246];
 /// Okabe–Ito: blue, vermillion, bluish green, reddish purple, orange, sky blue, black, yellow.
-const SERIES: [[u8; 3]; 8] = [
+pub(super) const SERIES: [[u8; 3]; 8] = [
     [0, 114, 178],
     [213, 94, 0],
     [0, 158, 115],
@@ -495,25 +495,44 @@ impl Canvas {
 
     /// PNG bytes, with `view` as a `canalis:view` text chunk.
     fn png(&self, view: &View) -> Result<Vec<u8>> {
-        let fail = |e: &dyn std::fmt::Display| {
-            Error::param("--out", format!("a picture could not be encoded: {e}"))
-        };
-        let mut bytes = Vec::new();
-        {
-            let mut enc = ::png::Encoder::new(&mut bytes, self.w as u32, self.h as u32);
-            enc.set_color(::png::ColorType::Rgb);
-            enc.set_depth(::png::BitDepth::Eight);
-            enc.add_text_chunk("canalis:view".into(), view.describe())
-                .map_err(|e| fail(&e))?;
-            enc.add_text_chunk("Software".into(), "canalis".into())
-                .map_err(|e| fail(&e))?;
-            let mut wr = enc.write_header().map_err(|e| fail(&e))?;
-            let data: Vec<u8> = self.px.iter().flatten().copied().collect();
-            wr.write_image_data(&data).map_err(|e| fail(&e))?;
-            wr.finish().map_err(|e| fail(&e))?;
-        }
-        Ok(bytes)
+        let data: Vec<u8> = self.px.iter().flatten().copied().collect();
+        encode_rgb(
+            self.w as u32,
+            self.h as u32,
+            &data,
+            &[("canalis:view", view.describe())],
+        )
     }
+}
+
+/// Encodes 8-bit RGB pixels (row by row, `3·width·height` bytes) as PNG with the given text
+/// chunks (keyword, text) followed by `Software: canalis`: the one encoder of every picture of
+/// `--out`.
+pub(super) fn encode_rgb(
+    width: u32,
+    height: u32,
+    rgb: &[u8],
+    text: &[(&str, String)],
+) -> Result<Vec<u8>> {
+    let fail = |e: &dyn std::fmt::Display| {
+        Error::param("--out", format!("a picture could not be encoded: {e}"))
+    };
+    let mut bytes = Vec::new();
+    {
+        let mut enc = ::png::Encoder::new(&mut bytes, width, height);
+        enc.set_color(::png::ColorType::Rgb);
+        enc.set_depth(::png::BitDepth::Eight);
+        for (key, value) in text {
+            enc.add_text_chunk((*key).into(), value.clone())
+                .map_err(|e| fail(&e))?;
+        }
+        enc.add_text_chunk("Software".into(), "canalis".into())
+            .map_err(|e| fail(&e))?;
+        let mut wr = enc.write_header().map_err(|e| fail(&e))?;
+        wr.write_image_data(rgb).map_err(|e| fail(&e))?;
+        wr.finish().map_err(|e| fail(&e))?;
+    }
+    Ok(bytes)
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -808,7 +827,7 @@ fn tick_label(v: f64, step: f64) -> String {
 }
 
 /// A number with four significant digits.
-fn sig4(v: f64) -> String {
+pub(super) fn sig4(v: f64) -> String {
     if v == 0.0 || !v.is_finite() {
         return format!("{v}");
     }
@@ -993,12 +1012,12 @@ fn title(cv: &mut Canvas, margin: f64, fs: f64, name: &str, sub: &str) {
 }
 
 /// Sizes derived from the picture width: (font size, margin).
-fn metrics(width: u32) -> (f64, f64) {
+pub(super) fn metrics(width: u32) -> (f64, f64) {
     let w = width as f64;
     ((w / 64.0).clamp(10.0, 40.0), 0.03 * w)
 }
 
-fn length_text(v: f64) -> String {
+pub(super) fn length_text(v: f64) -> String {
     let (unit, per) = display_unit(v);
     format!("{} {unit}", sig4(v / per))
 }
