@@ -223,6 +223,9 @@ pub struct SolveConfig {
     pub placement: Option<[f64; 2]>,
     /// How the numerical uncertainty of the figures is estimated.
     pub error_estimate: ErrorEstimate,
+    /// Notes on the configuration itself (options that do not apply to the input), put first
+    /// among the outcome's warnings.
+    pub warnings: Vec<String>,
 }
 
 /// How a run estimates the numerical uncertainty of its figures ([`crate::study`]).
@@ -252,6 +255,7 @@ impl SolveConfig {
             offset: [0.0, 0.0],
             placement: None,
             error_estimate: ErrorEstimate::default(),
+            warnings: Vec::new(),
         }
     }
 
@@ -264,6 +268,7 @@ impl SolveConfig {
     pub fn validate(&self) -> Result<()> {
         if let Some(op) = &self.operating {
             op.validate()?;
+            check_operating_ranges(op)?;
         }
         let pixel_grid = matches!(&self.input, Input::Mask { options, .. }
             if options.mode == MaskMode::Pixels);
@@ -273,6 +278,18 @@ impl SolveConfig {
         match &self.input {
             Input::Mask { options, .. } if !(options.pixel.is_finite() && options.pixel > 0.0) => {
                 return Err(Error::param("--pixel", "must be a positive length"));
+            }
+            Input::Mask { options, .. }
+                if !(MIN_EXTENT_M..=MAX_PIXEL_M).contains(&options.pixel) =>
+            {
+                return Err(Error::param(
+                    "--pixel",
+                    format!(
+                        "{:e} m per pixel is out of range; use {MIN_EXTENT_M:e} m to \
+                         {MAX_PIXEL_M} m",
+                        options.pixel
+                    ),
+                ));
             }
             Input::Svg { scale: Some(s), .. } if !(s.is_finite() && *s > 0.0) => {
                 return Err(Error::param("--scale", "must be a positive length"));
@@ -318,6 +335,64 @@ impl SolveConfig {
         }
         Ok(())
     }
+}
+
+/// Smallest cross-section (and mask pixel) accepted, metres: below 0.1 µm a continuum model of
+/// a liquid is no longer sensible, and the arithmetic of the solver would work on lengths near
+/// the bottom of double precision.
+pub const MIN_EXTENT_M: f64 = 1e-7;
+/// Largest cross-section accepted, metres (a kilometre: far beyond any duct; beyond it a
+/// velocity or a pressure drop soon overflows).
+pub const MAX_EXTENT_M: f64 = 1e3;
+/// Largest mask pixel accepted, metres.
+pub const MAX_PIXEL_M: f64 = 1.0;
+
+/// The plausible range of each operating value, SI units: outside it no liquid or gas in a
+/// duct is described, and the dimensional results would overflow or underflow (a viscosity of
+/// 1e308 Pa·s printed velocities of zero; a gradient of 1e308 Pa/m, infinite ones).
+const OPERATING_RANGES: [(&str, f64, f64, &str); 7] = [
+    ("--viscosity", 1e-7, 1e8, "Pa·s"),
+    ("--density", 1e-3, 1e5, "kg/m³"),
+    ("--conductivity", 1e-4, 1e4, "W/(m·K)"),
+    ("--specific-heat", 1.0, 1e6, "J/(kg·K)"),
+    ("--dpdx", 1e-9, 1e12, "Pa/m"),
+    ("--flow", 1e-18, 1e6, "m³/s"),
+    ("--length", 1e-7, 1e6, "m"),
+];
+
+/// Refuses operating values outside [`OPERATING_RANGES`], naming the option.
+fn check_operating_ranges(op: &OperatingSpec) -> Result<()> {
+    use crate::operating::{Drive, FluidSpec};
+    let mut given: Vec<(&str, f64)> = Vec::new();
+    if let FluidSpec::Given {
+        viscosity,
+        density,
+        conductivity,
+        specific_heat,
+    } = &op.fluid
+    {
+        given.extend([("--viscosity", *viscosity), ("--density", *density)]);
+        given.extend(conductivity.map(|k| ("--conductivity", k)));
+        given.extend(specific_heat.map(|c| ("--specific-heat", c)));
+    }
+    if let Drive::PressureGradient(g) = op.drive {
+        given.push(("--dpdx", g));
+    }
+    if let Drive::FlowRate(q) = op.drive {
+        given.push(("--flow", q));
+    }
+    given.extend(op.length.map(|l| ("--length", l)));
+    for (name, value) in given {
+        if let Some(&(_, lo, hi, unit)) = OPERATING_RANGES.iter().find(|r| r.0 == name) {
+            if !(lo..=hi).contains(&value) {
+                return Err(Error::param(
+                    name,
+                    format!("{value:e} {unit} is out of range; use {lo:e} to {hi:e} {unit}"),
+                ));
+            }
+        }
+    }
+    Ok(())
 }
 
 /// Fewest cells across a grid may have.
@@ -372,6 +447,9 @@ pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outc
         (_, ErrorEstimate::Accuracy(tol)) => runs::run_study(config, tol, monitor)?,
     };
     outcome.seconds = start.elapsed().as_secs_f64();
+    outcome
+        .warnings
+        .splice(0..0, config.warnings.iter().cloned());
     Ok(outcome)
 }
 

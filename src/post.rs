@@ -240,14 +240,27 @@ pub fn passages(c: &Classified, num: &Numbering, u: &[f64], walls: &Walls) -> Ve
         })
         .collect();
     let tol = 1e-9 * (g.nx.max(g.ny) as f64 * g.h);
-    out.sort_by(|a, b| {
-        if (a.centroid[1] - b.centroid[1]).abs() > tol {
-            b.centroid[1].total_cmp(&a.centroid[1])
-        } else {
-            a.centroid[0].total_cmp(&b.centroid[0])
-        }
-    });
+    order_top_left_first(&mut out, tol);
     out
+}
+
+/// Orders passages top-left first: rows of centroids (descending y; centroids within `tol` of
+/// the first of a row share it), each row by ascending x. A comparison "y equal within tol" is
+/// not transitive, so sorting by it is not a total order (Rust's sort may panic on such a
+/// comparator, as it did on a mask with thousands of passages); the rows are formed first and
+/// every comparison is a `total_cmp`, NaN included.
+fn order_top_left_first(out: &mut [PassageFigures], tol: f64) {
+    out.sort_by(|a, b| b.centroid[1].total_cmp(&a.centroid[1]));
+    let mut start = 0;
+    while start < out.len() {
+        let y0 = out[start].centroid[1];
+        let mut end = start + 1;
+        while end < out.len() && (y0 - out[end].centroid[1]).abs() <= tol {
+            end += 1;
+        }
+        out[start..end].sort_by(|a, b| a.centroid[0].total_cmp(&b.centroid[0]));
+        start = end;
+    }
 }
 
 /// Largest velocity: the largest node value, refined by the stationary point of the quadratic
