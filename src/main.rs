@@ -267,6 +267,8 @@ fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
                         Some(text) => MinFeature::parse(text)?,
                         None => MinFeature::default(),
                     },
+                    // The run's --max-memory (pipeline::run sets it from the configuration).
+                    ..MaskOptions::default()
                 },
             }
         }

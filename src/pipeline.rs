@@ -10,7 +10,7 @@
 //! their mathematics ([`crate::heat`], [`crate::operating`], [`crate::study`]).
 
 use crate::error::{Error, Result, Solve};
-use crate::geometry::mask::MaskMode;
+use crate::geometry::mask::{MaskMode, MaskOptions};
 use crate::geometry::Domain;
 use crate::grid::{classify, Grid};
 use crate::heat::heat_transfer;
@@ -421,6 +421,24 @@ pub fn run(config: &SolveConfig) -> Result<Outcome> {
 pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outcome> {
     let start = Instant::now();
     config.validate()?;
+    // A mask is decoded within the run's memory limit too (`MaskOptions::memory_limit`).
+    let limited;
+    let config = match &config.input {
+        Input::Mask { path, options } if options.memory_limit != config.memory_limit => {
+            limited = SolveConfig {
+                input: Input::Mask {
+                    path: path.clone(),
+                    options: MaskOptions {
+                        memory_limit: config.memory_limit,
+                        ..options.clone()
+                    },
+                },
+                ..config.clone()
+            };
+            &limited
+        }
+        _ => config,
+    };
     let mut outcome = match (&config.input, config.error_estimate) {
         (_, ErrorEstimate::Off) => run_once(config, monitor)?,
         (Input::Mask { path, options }, ErrorEstimate::Cheap) => runs::run_image_study(

@@ -22,6 +22,64 @@ use std::f64::consts::PI;
 /// A point or vector in the cross-section plane, metres.
 pub type Point = [f64; 2];
 
+/// Largest shape file or SVG drawing read, bytes (64 MiB: a drawn cross-section is kilobytes; a
+/// polygon of a million points is some 30 MB of text).
+pub const MAX_TEXT_INPUT_BYTES: u64 = 64 << 20;
+
+/// Reads a whole input file of at most `limit` bytes. Only a regular file is read (a link to
+/// one is followed): a directory, a FIFO, a device such as `/dev/zero` or a socket is refused
+/// before it is opened, since reading one may block forever or never end; the size is checked
+/// before reading, and the read itself stops at the limit in case the file grows meanwhile.
+pub fn read_input_file(path: &std::path::Path, limit: u64) -> Result<Vec<u8>> {
+    use std::io::Read;
+    let io = |source: std::io::Error| Error::Io {
+        path: path.to_path_buf(),
+        source,
+    };
+    let not_regular = |meta: &std::fs::Metadata| {
+        let t = meta.file_type();
+        let what = if t.is_dir() {
+            "a directory"
+        } else {
+            "not a regular file (a device, FIFO or socket)"
+        };
+        Error::param(
+            "SHAPE",
+            format!("{} is {what}; only regular files are read", path.display()),
+        )
+    };
+    let too_large = |len: u64| {
+        Error::param(
+            "SHAPE",
+            format!(
+                "{} is {:.1} MiB, larger than the {} MiB an input file may have",
+                path.display(),
+                len as f64 / (1u64 << 20) as f64,
+                limit >> 20
+            ),
+        )
+    };
+    let meta = std::fs::metadata(path).map_err(io)?;
+    if !meta.is_file() {
+        return Err(not_regular(&meta));
+    }
+    if meta.len() > limit {
+        return Err(too_large(meta.len()));
+    }
+    let file = std::fs::File::open(path).map_err(io)?;
+    // The entry may have changed between the two looks: check what was opened.
+    let meta = file.metadata().map_err(io)?;
+    if !meta.is_file() {
+        return Err(not_regular(&meta));
+    }
+    let mut bytes = Vec::with_capacity(meta.len().min(limit) as usize);
+    file.take(limit + 1).read_to_end(&mut bytes).map_err(io)?;
+    if bytes.len() as u64 > limit {
+        return Err(too_large(bytes.len() as u64));
+    }
+    Ok(bytes)
+}
+
 fn add(a: Point, b: Point) -> Point {
     [a[0] + b[0], a[1] + b[1]]
 }
