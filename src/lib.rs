@@ -43,6 +43,7 @@ pub mod pipeline;
 pub mod post;
 pub mod problem;
 pub mod report;
+pub mod resolution;
 pub mod solver;
 pub mod study;
 pub mod system;

@@ -439,6 +439,24 @@ pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outc
         }
         _ => config,
     };
+    // The resolution check (issue 19) on the run's own grid, before any solve: a grid that
+    // cannot resolve a passage or a wall is refined (default grid) or refused.
+    let refined;
+    let t_check = Instant::now();
+    let checked = check_resolution(config)?;
+    if std::env::var_os("CANALIS_TIME_CHECK").is_some() {
+        eprintln!("check {:.4} s", t_check.elapsed().as_secs_f64());
+    }
+    let config = match checked {
+        None => config,
+        Some((cells, note)) => {
+            let mut c = config.clone();
+            c.cells = Some(cells);
+            c.warnings.push(note);
+            refined = c;
+            &refined
+        }
+    };
     let mut outcome = match (&config.input, config.error_estimate) {
         (_, ErrorEstimate::Off) => run_once(config, monitor)?,
         (Input::Mask { path, options }, ErrorEstimate::Cheap) => runs::run_image_study(
@@ -469,6 +487,263 @@ pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outc
         .warnings
         .splice(0..0, config.warnings.iter().cloned());
     Ok(outcome)
+}
+
+/// Largest number of cells across the resolution check refines a default grid to.
+pub const MAX_REFINED_CELLS: usize = 8192;
+
+/// The grid a configuration asks for over a domain (the pixel grid of a mask in pixels mode).
+fn grid_of(config: &SolveConfig, domain: &dyn Domain, cells: usize) -> Grid {
+    let (lo, hi) = domain.bbox();
+    match domain.lattice() {
+        Some(l) => Grid::from_lattice(l),
+        None => match config.placement {
+            Some(p) => Grid::covering_placed(lo, hi, cells, p),
+            None => Grid::covering_with_offset(lo, hi, cells, config.offset),
+        },
+    }
+}
+
+/// The resolution check of a run, before any solve ([`crate::resolution`]): every passage of
+/// the grid that is not a sliver is at least [`crate::resolution::MIN_NODES_ACROSS`] nodes
+/// across, and every wall between two fluid nodes at least [`MIN_WALL_CELLS`] cells thick.
+/// When the default grid fails, the cells needed are estimated, and the grid is refined to them
+/// if its memory stays within the limit (returns the cells and a warning saying why); when the
+/// grid was given (`--cells`, a mask's pixel grid) or the refined one does not fit, the error
+/// names the feature, its size or position, and the cells it needs.
+fn check_resolution(config: &SolveConfig) -> Result<Option<(usize, String)>> {
+    use crate::resolution::{measure, MIN_NODES_ACROSS, MIN_WALL_CELLS};
+    let loaded = config.input.load()?;
+    let domain = loaded.domain.as_ref();
+    let given = config.cells;
+    let mut cells = given.unwrap_or(DEFAULT_CELLS);
+    check_cells(cells)?;
+    let mut note: Option<String> = None;
+    let mut first_feature: Option<(usize, String)> = None;
+    for round in 0..6 {
+        let grid = grid_of(config, domain, cells);
+        if grid.len() as u64 * BYTES_PER_NODE > config.memory_limit {
+            // run_once refuses it with the memory message.
+            return Ok(None);
+        }
+        let classified = classify(domain, grid)?;
+        let (label, count) = post::passage_labels(&classified);
+        let res = measure(&classified, &label, count);
+        if std::env::var_os("CANALIS_DEBUG_RESOLUTION").is_some() {
+            let worst = res.passages.iter().map(|p| p.across).min();
+            eprintln!(
+                "resolution: cells {cells} h {:.3e} passages {} worst across {:?} slivers {} thinnest wall {:?}",
+                res.h,
+                res.passages.len(),
+                worst,
+                res.slivers().len(),
+                res.thinnest_wall.map(|t| t.thickness / res.h)
+            );
+        }
+        // Needed refinement: passages to MIN_NODES_ACROSS + 1 nodes, walls to MIN_WALL_CELLS.
+        let mut factor: f64 = 1.0;
+        let mut feature = String::new();
+        if let Some(p) = res.unresolved().min_by_key(|p| p.across) {
+            factor = (MIN_NODES_ACROSS + 1) as f64 / p.across.max(1) as f64;
+            feature = format!(
+                "a passage near ({:.4e}, {:.4e}) m is {} grid node{} across (spacing {:.3e} m; \
+                 at least {MIN_NODES_ACROSS} are needed)",
+                p.position[0],
+                p.position[1],
+                p.across,
+                if p.across == 1 { "" } else { "s" },
+                res.h
+            );
+        }
+        if let Some(w) = res.thinnest_wall {
+            {
+                let f = 1.25 * MIN_WALL_CELLS * res.h / w.thickness.max(1e-300);
+                if f > factor {
+                    factor = f;
+                    feature = format!(
+                        "a wall near ({:.4e}, {:.4e}) m is {:.3e} m thick, thinner than half the \
+                         grid spacing {:.3e} m",
+                        w.position[0], w.position[1], w.thickness, res.h
+                    );
+                }
+            }
+        }
+        if factor <= 1.0 {
+            if let (Some(_), Some((at, feature))) = (given, first_feature) {
+                return Err(Error::param(
+                    "--cells",
+                    format!(
+                        "{}: {feature}; the grid of {at} cells cannot resolve it: it needs \
+                         about --cells {cells}",
+                        config.input.origin()
+                    ),
+                ));
+            }
+            return Ok(note.map(|n| (cells, n)));
+        }
+        let needed = (cells as f64 * factor).ceil();
+        let origin = config.input.origin();
+        if domain.lattice().is_some() {
+            return Err(Error::param(
+                "SHAPE",
+                format!(
+                    "{origin}: {feature}: the image's pixel grid cannot resolve it; use an image \
+                     about {factor:.0} times finer, or --mask-mode traced with more --cells"
+                ),
+            ));
+        }
+        let needed_bytes = grid.len() as f64 * factor * factor * BYTES_PER_NODE as f64;
+        let fits = needed <= MAX_REFINED_CELLS as f64 && needed_bytes <= config.memory_limit as f64;
+        if !fits || (given.is_some() && round == 5) {
+            let how = if fits {
+                String::new()
+            } else {
+                format!(
+                    " (an estimated {:.3e} GiB, {})",
+                    needed_bytes / (1u64 << 30) as f64,
+                    if needed > MAX_REFINED_CELLS as f64 {
+                        format!("beyond the {MAX_REFINED_CELLS} cells canalis refines to")
+                    } else {
+                        format!(
+                            "above the --max-memory limit of {:.3} GiB",
+                            config.memory_limit as f64 / (1u64 << 30) as f64
+                        )
+                    }
+                )
+            };
+            let (at, feature) = first_feature.unwrap_or((cells, feature));
+            return Err(Error::param(
+                "--cells",
+                format!(
+                    "{origin}: {feature}; the grid of {at} cells cannot resolve it: it needs \
+                     about --cells {needed:.0}{how}"
+                ),
+            ));
+        }
+        if first_feature.is_none() {
+            first_feature = Some((cells, feature));
+        }
+        cells = needed as usize;
+        if let (None, Some((_, first))) = (given, &first_feature) {
+            note = Some(format!(
+                "the default grid of {DEFAULT_CELLS} cells could not resolve the \
+                 cross-section ({first}); refined to {cells} cells"
+            ));
+        }
+    }
+    Err(Error::param(
+        "--cells",
+        format!(
+            "{}: the grid could not be refined enough to resolve the cross-section",
+            config.input.origin()
+        ),
+    ))
+}
+
+/// Removes the sliver passages ([`crate::resolution::PassageResolution::is_sliver`]) from the
+/// per-passage figures, with a warning giving their number and flow share. Their flow stays in
+/// the totals; their own figures (a sliver cut off by a tangent hole reported f·Re 12 000) mean
+/// nothing.
+fn drop_slivers(unit: &mut UnitSolution, warnings: &mut Vec<String>) {
+    let (label, count) = post::passage_labels(&unit.classified);
+    if count < 2 {
+        return;
+    }
+    let res = crate::resolution::measure(&unit.classified, &label, count);
+    let slivers = res.slivers();
+    if slivers.is_empty() || slivers.len() == unit.passages.len() {
+        return;
+    }
+    let share: f64 = unit
+        .passages
+        .iter()
+        .filter(|p| slivers.contains(&p.label))
+        .map(|p| p.flow_share)
+        .sum();
+    unit.passages.retain(|p| !slivers.contains(&p.label));
+    warnings.push(format!(
+        "{} sliver passage{} (fewer than {} grid nodes across and {} % of the fluid nodes; \
+         together {:.2e} of the flow) left out of `passages`: a gap or a passage this small is \
+         not resolved by the grid (spacing {:.3e} m); their flow stays in the totals",
+        slivers.len(),
+        if slivers.len() == 1 { "" } else { "s" },
+        crate::resolution::MIN_NODES_ACROSS,
+        crate::resolution::SLIVER_SHARE * 100.0,
+        share,
+        res.h
+    ));
+}
+
+/// Largest f·Re (Fanning) accepted: 24 (parallel plates) bounds every convex section (Pólya's
+/// inequality Q ≥ A³/(3P²) for the torsion function), and sums of such passages; a quarter
+/// more leaves room for non-convex ones. The 1 nm wall of issue 19 reported 35.
+pub const MAX_FANNING_F_RE: f64 = 30.0;
+/// Largest force-balance error of a result printed as a success.
+pub const MAX_FORCE_BALANCE_ERROR: f64 = 0.25;
+
+/// Refuses a result that breaks a physical bound, which no grid error explains: flow not
+/// positive or a figure not finite; u_max/ū < 1; f·Re below 64πA/P² (Saint-Venant's
+/// Q ≤ A²/(8π), true of every section), or above [`MAX_FANNING_F_RE`]; the force balance off
+/// by more than [`MAX_FORCE_BALANCE_ERROR`]; the same per passage.
+fn check_physical_bounds(unit: &UnitSolution) -> Result<()> {
+    let f = &unit.figures;
+    let fail = |what: String| {
+        Err(Error::Numerical(format!(
+            "the result breaks a physical bound ({what}); the grid of spacing {:.3e} m does not \
+             resolve the cross-section: raise --cells, or check the geometry for features \
+             far smaller than the rest",
+            unit.classified.grid.h
+        )))
+    };
+    let fre_low = |area: f64, perimeter: f64| {
+        0.95 * 64.0 * std::f64::consts::PI * area / (perimeter * perimeter)
+    };
+    for (name, v) in [
+        ("area", f.area),
+        ("perimeter", f.perimeter),
+        ("flow", f.flow_integral),
+        ("largest velocity", f.max_velocity),
+        ("f·Re", f.fanning_f_re),
+    ] {
+        if !(v.is_finite() && v > 0.0) {
+            return fail(format!("{name} = {v:e}, not a positive number"));
+        }
+    }
+    if !(f.max_to_mean_velocity >= 1.0) {
+        return fail(format!(
+            "u_max/u_mean = {:.4} is below 1",
+            f.max_to_mean_velocity
+        ));
+    }
+    if f.fanning_f_re > MAX_FANNING_F_RE || f.fanning_f_re < fre_low(f.area, f.perimeter) {
+        return fail(format!(
+            "f·Re = {:.4} outside {:.3}..{MAX_FANNING_F_RE}",
+            f.fanning_f_re,
+            fre_low(f.area, f.perimeter)
+        ));
+    }
+    if f.force_balance_rel_error.is_finite() && f.force_balance_rel_error > MAX_FORCE_BALANCE_ERROR
+    {
+        return fail(format!(
+            "the force balance is off by {:.1} %",
+            100.0 * f.force_balance_rel_error
+        ));
+    }
+    for (k, p) in unit.passages.iter().enumerate() {
+        let ok = p.fanning_f_re.is_finite()
+            && p.flow_integral > 0.0
+            && p.fanning_f_re <= MAX_FANNING_F_RE
+            && p.fanning_f_re >= fre_low(p.area, p.perimeter);
+        if !ok {
+            return fail(format!(
+                "passage {} has f·Re = {:.4e}, outside {:.3}..{MAX_FANNING_F_RE}",
+                k + 1,
+                p.fanning_f_re,
+                fre_low(p.area, p.perimeter)
+            ));
+        }
+    }
+    Ok(())
 }
 
 /// One grid: load the cross-section, lay the grid, solve, post-process, and evaluate the
@@ -513,7 +788,7 @@ pub(crate) fn run_once(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Ou
             ),
         ));
     }
-    let unit = solve_unit_monitored(domain.as_ref(), grid, wall_kind, &config.unit, monitor)?;
+    let mut unit = solve_unit_monitored(domain.as_ref(), grid, wall_kind, &config.unit, monitor)?;
     let fluid_nodes = unit.numbering.len();
     if fluid_nodes < MIN_FLUID_NODES {
         return Err(Error::param(
@@ -524,6 +799,8 @@ pub(crate) fn run_once(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Ou
             ),
         ));
     }
+    drop_slivers(&mut unit, &mut warnings);
+    check_physical_bounds(&unit)?;
     let passages = unit.passages.len();
     if passages > 1 && unit.heat.is_some() {
         warnings.push(format!(
