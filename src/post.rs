@@ -672,3 +672,43 @@ pub fn figures(
         force_balance_rel_error: (total_exact_len - area).abs() / area,
     }
 }
+
+#[cfg(test)]
+mod ordering_tests {
+    use super::*;
+
+    /// Issue 19: centroids whose heights differ by less than the tolerance in a chain (a − b
+    /// and b − c within it, a − c not) and NaN ones made the old comparator no total order;
+    /// the ordering must neither panic nor lose a passage.
+    #[test]
+    fn passages_are_ordered_whatever_the_ties_and_nans() {
+        let tol = 1.0;
+        let mut out: Vec<PassageFigures> = (0..3000u32)
+            .map(|k| PassageFigures {
+                area: 1.0,
+                perimeter: 1.0,
+                hydraulic_diameter: 1.0,
+                flow_integral: 1.0,
+                fanning_f_re: 1.0,
+                flow_share: 1.0,
+                centroid: if k % 97 == 0 {
+                    [f64::NAN, f64::NAN]
+                } else {
+                    [((k * 7919) % 101) as f64, 0.6 * tol * (k % 13) as f64]
+                },
+                label: k,
+            })
+            .collect();
+        order_top_left_first(&mut out, tol);
+        let mut labels: Vec<u32> = out.iter().map(|p| p.label).collect();
+        labels.sort_unstable();
+        assert_eq!(labels, (0..3000).collect::<Vec<_>>());
+        // Rows top first: heights never rise by more than the tolerance.
+        for w in out.windows(2) {
+            let (a, b) = (w[0].centroid[1], w[1].centroid[1]);
+            if a.is_finite() && b.is_finite() {
+                assert!(b <= a + tol, "{a} then {b}");
+            }
+        }
+    }
+}

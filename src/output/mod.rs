@@ -73,22 +73,20 @@ pub fn check_targets(dir: &Path, force: bool) -> Result<()> {
 /// A symbolic link among the targets is never followed: without `force` it is in the way like
 /// any file; with `force` the link itself is replaced, not the file it points to.
 pub fn check_targets_protecting(dir: &Path, force: bool, inputs: &[PathBuf]) -> Result<()> {
-    let refuse = |p: &Path, why: &str| {
-        Err(Error::param(
-            "--out",
-            format!("{} {why}; not overwritten", p.display()),
-        ))
-    };
+    let refuse = |p: &Path, why: &str| Err(Error::param("--out", format!("{} {why}", p.display())));
     for p in targets(dir) {
         // symlink_metadata: the entry itself, never what a link points to.
         let Ok(meta) = std::fs::symlink_metadata(&p) else {
             continue;
         };
         if inputs.iter().any(|i| same_file(i, &p)) {
-            return refuse(&p, "is an input of this run");
+            return refuse(
+                &p,
+                "is an input of this run; not overwritten, even with --force",
+            );
         }
         if meta.is_dir() {
-            return refuse(&p, "is a directory");
+            return refuse(&p, "is a directory; not overwritten");
         }
         if !force {
             let what = if meta.file_type().is_symlink() {
@@ -96,7 +94,10 @@ pub fn check_targets_protecting(dir: &Path, force: bool, inputs: &[PathBuf]) -> 
             } else {
                 "already exists"
             };
-            return refuse(&p, &format!("{what} (use --force to replace it)"));
+            return refuse(
+                &p,
+                &format!("{what}; not overwritten (use --force to replace it)"),
+            );
         }
     }
     Ok(())
