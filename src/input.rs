@@ -14,7 +14,7 @@ use crate::geometry::mask::{Mask, MaskMode, MaskOptions};
 use crate::geometry::shapefile::load_shape_file;
 use crate::geometry::svg::load_svg;
 use crate::geometry::trace::Traced;
-use crate::geometry::{Domain, Shape};
+use crate::geometry::{Domain, Shape, MAX_COORDINATE_M, MAX_EXTENT_M, MIN_EXTENT_M};
 use crate::post::WallKind;
 use std::path::{Path, PathBuf};
 
@@ -146,6 +146,40 @@ impl Input {
         };
         let (lo, hi) = domain.bbox();
         let extent = (hi[0] - lo[0]).max(hi[1] - lo[1]);
+        let far = [lo[0], lo[1], hi[0], hi[1]]
+            .iter()
+            .fold(0.0f64, |m, v| m.max(v.abs()));
+        // Sizes a duct can have (a mask's from --pixel, a drawing's from --scale or its units).
+        let sized_by = match self {
+            Input::Mask { .. } => "--pixel",
+            Input::Svg { .. } => "--scale",
+            _ => "SHAPE",
+        };
+        if !(extent.is_finite() && (MIN_EXTENT_M..=MAX_EXTENT_M).contains(&extent)) {
+            return Err(Error::param(
+                sized_by,
+                format!(
+                    "{}: the cross-section is {extent:.3e} m across; canalis accepts \
+                     {MIN_EXTENT_M:e} m to {MAX_EXTENT_M:e} m (check the units{})",
+                    self.origin(),
+                    if sized_by == "SHAPE" {
+                        String::new()
+                    } else {
+                        format!(" and {sized_by}")
+                    }
+                ),
+            ));
+        }
+        if far.is_nan() || far > MAX_COORDINATE_M {
+            return Err(Error::param(
+                sized_by,
+                format!(
+                    "{}: the cross-section lies {far:.3e} m from the origin, farther than the \
+                     {MAX_COORDINATE_M:e} m canalis accepts",
+                    self.origin()
+                ),
+            ));
+        }
         if domain.lattice().is_none() && domain.walls(extent / 64.0).area <= 1e-12 * extent * extent
         {
             return Err(Error::geometry(format!(

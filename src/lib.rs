@@ -44,6 +44,7 @@ pub mod post;
 pub mod problem;
 pub mod rating;
 pub mod report;
+pub mod resolution;
 pub mod solver;
 pub mod study;
 pub mod system;

@@ -42,7 +42,8 @@ enum Command {
     /// Run the built-in verification cases against exact solutions.
     Verify {
         /// Grid cells across the longer side of each case.
-        #[arg(long, default_value_t = VERIFY_CELLS)]
+        #[arg(long, default_value_t = VERIFY_CELLS, allow_hyphen_values = true,
+              value_parser = whole_number::<usize>)]
         cells: usize,
     },
 }
@@ -78,7 +79,7 @@ struct SolveArgs {
     shape: String,
     /// Grid cells across the longer side of the bounding box [default: 600]. Ignored for
     /// masks with --mask-mode pixels, whose grid is the pixel grid.
-    #[arg(long)]
+    #[arg(long, allow_hyphen_values = true, value_parser = whole_number::<usize>)]
     cells: Option<usize>,
     /// Print exactly one JSON object (the report) on standard output.
     #[arg(long)]
@@ -91,7 +92,8 @@ struct SolveArgs {
     #[arg(long, value_name = "DIR")]
     out: Option<PathBuf>,
     /// Width of the pictures written by --out, pixels (400 to 8000).
-    #[arg(long, value_name = "N", default_value_t = output::DEFAULT_IMAGE_WIDTH)]
+    #[arg(long, value_name = "N", default_value_t = output::DEFAULT_IMAGE_WIDTH,
+          allow_hyphen_values = true, value_parser = whole_number::<u32>)]
     image_width: u32,
     /// Overwrite existing files in --out.
     #[arg(long)]
@@ -118,44 +120,64 @@ struct SolveArgs {
     #[arg(long, value_name = "EPS", allow_hyphen_values = true)]
     roughness: Option<String>,
     /// Dynamic viscosity, Pa·s (also mPa.s, cP).
-    #[arg(long, value_name = "VALUE", conflicts_with = "fluid")]
+    #[arg(
+        long,
+        value_name = "VALUE",
+        conflicts_with = "fluid",
+        allow_hyphen_values = true
+    )]
     viscosity: Option<String>,
     /// Density, kg/m³.
-    #[arg(long, value_name = "VALUE", conflicts_with = "fluid")]
+    #[arg(
+        long,
+        value_name = "VALUE",
+        conflicts_with = "fluid",
+        allow_hyphen_values = true
+    )]
     density: Option<String>,
     /// Thermal conductivity, W/(m·K), for film coefficients (with --viscosity/--density).
-    #[arg(long, value_name = "VALUE", conflicts_with = "fluid")]
+    #[arg(
+        long,
+        value_name = "VALUE",
+        conflicts_with = "fluid",
+        allow_hyphen_values = true
+    )]
     conductivity: Option<String>,
     /// Isobaric specific heat, J/(kg·K), for the Prandtl number (with --conductivity).
-    #[arg(long, value_name = "VALUE", conflicts_with = "fluid")]
+    #[arg(
+        long,
+        value_name = "VALUE",
+        conflicts_with = "fluid",
+        allow_hyphen_values = true
+    )]
     specific_heat: Option<String>,
     /// Passage length, e.g. 250mm: pressure drop over it and entrance-length checks.
-    #[arg(long, value_name = "L")]
+    #[arg(long, value_name = "L", allow_hyphen_values = true)]
     length: Option<String>,
     /// A named fluid with a property model: water.
     #[arg(long, value_name = "NAME")]
     fluid: Option<String>,
     /// Temperature of a named fluid, e.g. 40C or 313.15K (a bare number is °C).
-    #[arg(long, value_name = "T", requires = "fluid")]
+    #[arg(long, value_name = "T", requires = "fluid", allow_hyphen_values = true)]
     temperature: Option<String>,
-    /// Which pixels of a mask are fluid.
-    #[arg(long, value_enum, default_value = "dark")]
-    mask_fluid: MaskFluid,
-    /// Grey-level threshold of a mask (0..255).
-    #[arg(long, default_value_t = 128)]
-    threshold: u8,
+    /// Which pixels of a mask are fluid [default: dark].
+    #[arg(long, value_enum)]
+    mask_fluid: Option<MaskFluid>,
+    /// Grey-level threshold of a mask (0..255) [default: 128].
+    #[arg(long, allow_hyphen_values = true, value_parser = whole_number::<u8>)]
+    threshold: Option<u8>,
     /// Physical size of one mask pixel, e.g. 0.02mm.
-    #[arg(long, value_name = "SIZE")]
+    #[arg(long, value_name = "SIZE", allow_hyphen_values = true)]
     pixel: Option<String>,
     /// How a mask's walls reach the solver: traced (sub-pixel walls traced from the grey levels
     /// at the threshold, solved on --cells like a shape file) or pixels (the staircase of the
-    /// fluid pixels on the pixel grid).
-    #[arg(long, value_enum, default_value = "traced")]
-    mask_mode: MaskModeArg,
+    /// fluid pixels on the pixel grid) [default: traced].
+    #[arg(long, value_enum)]
+    mask_mode: Option<MaskModeArg>,
     /// Smallest connected feature of a mask kept: fluid specks, and solid specks inside the
     /// fluid, of a smaller area are dropped with a warning. In pixels (e.g. 20px) or as an area
     /// (e.g. 0.01mm2; m2, cm2, mm2, um2, in2); 0 keeps everything [default: 8px].
-    #[arg(long, value_name = "AREA")]
+    #[arg(long, value_name = "AREA", allow_hyphen_values = true)]
     min_feature: Option<String>,
     /// Size of one SVG user unit, e.g. 0.1mm (overrides the drawing's own width/height).
     #[arg(long, value_name = "VALUE", allow_hyphen_values = true)]
@@ -164,10 +186,10 @@ struct SolveArgs {
     #[arg(long, value_enum, default_value = "multigrid")]
     method: MethodArg,
     /// Largest estimated memory a solve may use, e.g. 4GiB, 512MiB [default: 4GiB].
-    #[arg(long, value_name = "SIZE")]
+    #[arg(long, value_name = "SIZE", allow_hyphen_values = true)]
     max_memory: Option<String>,
     /// Iteration cap of the conjugate gradient (a solve that needs more exits with status 1).
-    #[arg(long, value_name = "N")]
+    #[arg(long, value_name = "N", allow_hyphen_values = true, value_parser = whole_number::<usize>)]
     max_iterations: Option<usize>,
     /// Print nothing but the result (no progress).
     #[arg(long)]
@@ -176,7 +198,7 @@ struct SolveArgs {
     /// and of the Nusselt numbers is below TOL, e.g. 1e-4; grids of ratio 1.5 from 64 cells (or
     /// from --cells), up to --max-memory. Without it the report carries a cheap estimate from
     /// one coarser grid.
-    #[arg(long, value_name = "TOL")]
+    #[arg(long, value_name = "TOL", allow_hyphen_values = true)]
     accuracy: Option<f64>,
     /// Add the thermal entrance of the passage to the report: local and mean Nusselt numbers
     /// (uniform wall temperature T, uniform heat input H1) against x* = x/(D_h·Re·Pr) from 1e-5
@@ -204,6 +226,22 @@ struct SolveArgs {
     heat_flux: Option<String>,
 }
 
+/// A whole number for a count option; a negative or fractional value is refused with a message
+/// that clap prefixes with the option's name (exit 2). Negative numbers reach this parser
+/// (`allow_hyphen_values`) instead of being taken for unknown options.
+fn whole_number<T: TryFrom<u64>>(text: &str) -> Result<T, String> {
+    let t = text.trim();
+    if t.starts_with('-') {
+        return Err(format!(
+            "'{text}' is negative; give a positive whole number"
+        ));
+    }
+    let v: u64 = t
+        .parse()
+        .map_err(|_| format!("'{text}' is not a whole number"))?;
+    T::try_from(v).map_err(|_| format!("'{text}' is too large"))
+}
+
 fn parse_bytes(text: &str) -> Result<u64, Error> {
     let t = text.trim();
     let split = t
@@ -213,6 +251,12 @@ fn parse_bytes(text: &str) -> Result<u64, Error> {
     let v: f64 = num
         .parse()
         .map_err(|_| Error::param("--max-memory", format!("'{text}' is not a size")))?;
+    if !v.is_finite() {
+        return Err(Error::param(
+            "--max-memory",
+            format!("'{text}' is not a size"),
+        ));
+    }
     let f = match unit.trim() {
         "" | "B" => 1.0,
         "KiB" | "K" | "kB" => 1024.0,
@@ -248,13 +292,13 @@ fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
             Input::Mask {
                 path: PathBuf::from(&a.shape),
                 options: MaskOptions {
-                    fluid: match a.mask_fluid {
+                    fluid: match a.mask_fluid.unwrap_or(MaskFluid::Dark) {
                         MaskFluid::Dark => FluidColour::Dark,
                         MaskFluid::Light => FluidColour::Light,
                     },
-                    threshold: a.threshold,
+                    threshold: a.threshold.unwrap_or(128),
                     pixel,
-                    mode: match a.mask_mode {
+                    mode: match a.mask_mode.unwrap_or(MaskModeArg::Traced) {
                         MaskModeArg::Traced => MaskMode::Traced,
                         MaskModeArg::Pixels => MaskMode::Pixels,
                     },
@@ -262,6 +306,8 @@ fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
                         Some(text) => MinFeature::parse(text)?,
                         None => MinFeature::default(),
                     },
+                    // The run's --max-memory (pipeline::run sets it from the configuration).
+                    ..MaskOptions::default()
                 },
             }
         }
@@ -278,6 +324,7 @@ fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
         }
     };
     let mut c = SolveConfig::new(input);
+    c.warnings = inapplicable_options(a, InputKind::of(&a.shape)?);
     c.cells = a.cells;
     c.unit.method = match a.method {
         MethodArg::Multigrid => Method::Multigrid,
@@ -468,6 +515,43 @@ fn rating_spec(a: &SolveArgs) -> Result<Option<RatingSpec>, Error> {
     }
 }
 
+/// Warnings for options given on the command line that do not apply to the kind of input (they
+/// are ignored, and silently ignoring them hides a mistake).
+fn inapplicable_options(a: &SolveArgs, kind: InputKind) -> Vec<String> {
+    let what = match kind {
+        InputKind::Builtin => "a built-in shape",
+        InputKind::ShapeFile => "a shape file",
+        InputKind::Mask => "a mask image",
+        InputKind::Svg => "a drawing",
+    };
+    let mut given = Vec::new();
+    if kind != InputKind::Mask {
+        for (set, name) in [
+            (a.pixel.is_some(), "--pixel"),
+            (a.mask_fluid.is_some(), "--mask-fluid"),
+            (a.threshold.is_some(), "--threshold"),
+            (a.mask_mode.is_some(), "--mask-mode"),
+            (a.min_feature.is_some(), "--min-feature"),
+        ] {
+            if set {
+                given.push((name, "mask images"));
+            }
+        }
+    }
+    if kind != InputKind::Svg && a.scale.is_some() {
+        given.push(("--scale", "drawings (*.svg)"));
+    }
+    given
+        .into_iter()
+        .map(|(name, applies)| {
+            format!(
+                "{name} applies to {applies} only; ignored for {what} ({})",
+                a.shape
+            )
+        })
+        .collect()
+}
+
 /// A residual line on standard error that updates in place, shown only for solves that take
 /// longer than half a second.
 struct Progress {
@@ -489,7 +573,7 @@ impl Progress {
 
     fn finish(&self) {
         if self.shown.load(std::sync::atomic::Ordering::Relaxed) {
-            eprintln!();
+            let _ = writeln!(std::io::stderr());
         }
     }
 }
@@ -501,25 +585,56 @@ impl canalis::solver::Monitor for Progress {
         if t > 0.5 && t - f64::from_bits(self.last.load(Relaxed)) > 0.2 {
             self.last.store(t.to_bits(), Relaxed);
             self.shown.store(true, Relaxed);
-            eprint!(
+            // A failed write to standard error is not worth stopping a solve for.
+            let _ = write!(
+                std::io::stderr(),
                 "\r  solving: iteration {iteration:>5}, relative residual {relative_residual:.2e}, {t:.1} s   "
             );
         }
     }
 }
 
-fn solve(a: &SolveArgs) -> Result<(), Error> {
+/// Why a command failed: a library error (exit 2 for bad input, 1 otherwise), or standard
+/// output that could not take the result (exit 1; a closed pipe ends quietly).
+enum Failure {
+    Run(Error),
+    Stdout(std::io::Error),
+}
+
+impl From<Error> for Failure {
+    fn from(e: Error) -> Self {
+        Failure::Run(e)
+    }
+}
+
+/// Writes `text` to standard output and flushes it, so that a failed write (a full disk,
+/// `> /dev/full`) is seen here rather than lost at exit.
+fn print_out(text: &str) -> Result<(), Failure> {
+    let mut out = std::io::stdout().lock();
+    out.write_all(text.as_bytes())
+        .and_then(|_| out.flush())
+        .map_err(Failure::Stdout)
+}
+
+fn solve(a: &SolveArgs) -> Result<bool, Failure> {
     let cfg = config(a)?;
     let out_options = output::OutputOptions {
         image_width: a.image_width,
         force: a.force,
+    };
+    // Files the run reads, which --out must never replace.
+    let inputs: Vec<PathBuf> = match &cfg.input {
+        Input::ShapeFile(p) | Input::Mask { path: p, .. } | Input::Svg { path: p, .. } => {
+            vec![p.clone()]
+        }
+        _ => Vec::new(),
     };
     if let Some(dir) = &a.out {
         // Check before the solve, so a long run is not wasted on a file in the way.
         output::check_options(&out_options)?;
         // A rating implies the entrance march, which adds its files.
         let marches = cfg.entrance.is_some() || cfg.rating.is_some();
-        output::check_targets(dir, a.force, marches)?;
+        output::check_targets_protecting(dir, a.force, marches, &inputs)?;
     }
     let outcome = if a.json || a.quiet {
         pipeline::run(&cfg)?
@@ -529,22 +644,43 @@ fn solve(a: &SolveArgs) -> Result<(), Error> {
         progress.finish();
         o?
     };
-    let json = report::json_report(&outcome);
-    let text = serde_json::to_string_pretty(&json).unwrap_or_default();
-    if let Some(dir) = &a.out {
-        output::write_all(&outcome, dir, &out_options)?;
-    }
-    let mut out = std::io::stdout().lock();
-    if a.json {
-        let _ = writeln!(out, "{text}");
+    let text = if a.json {
+        let json = report::json_report(&outcome);
+        serde_json::to_string_pretty(&json)
+            .map_err(|e| Error::Numerical(format!("the report could not be serialised: {e}")))?
+            + "\n"
     } else {
-        let _ = write!(out, "{}", report::summary(&outcome));
+        // Names and labels come from the input: no control characters reach the terminal.
+        sanitise(&report::summary(&outcome))
+    };
+    if let Some(dir) = &a.out {
+        output::write_all_protecting(&outcome, dir, &out_options, &inputs)?;
     }
-    Ok(())
+    print_out(&text)?;
+    Ok(true)
 }
 
-fn shapes() {
-    println!("Built-in shapes, written name:key=value,... (lengths take m, mm, um, in):");
+/// `text` with every control character but newline and tab shown as `\u{..}` (names, labels
+/// and file names come from the input; an escape sequence in them must not reach a terminal).
+fn sanitise(text: &str) -> String {
+    let mut out = String::with_capacity(text.len());
+    for c in text.chars() {
+        if c.is_control() && c != '\n' && c != '\t' {
+            out.push_str(&c.escape_unicode().to_string());
+        } else {
+            out.push(c);
+        }
+    }
+    out
+}
+
+fn shapes() -> Result<bool, Failure> {
+    use std::fmt::Write as _;
+    let mut text = String::new();
+    let _ = writeln!(
+        text,
+        "Built-in shapes, written name:key=value,... (lengths take m, mm, um, in):"
+    );
     let shapes = builtin::catalogue();
     // Columns wider than the longest name (key) by two (three) spaces, so that none runs into
     // its text (square_annulus did into a fixed column of 10).
@@ -557,31 +693,38 @@ fn shapes() {
         .unwrap_or(0)
         + 3;
     for s in shapes {
-        println!();
-        println!("  {:<name_width$}{}", s.name, s.description);
+        let _ = writeln!(text);
+        let _ = writeln!(text, "  {:<name_width$}{}", s.name, s.description);
         for (k, meaning) in s.params {
-            println!("      {k:<key_width$}{meaning}");
+            let _ = writeln!(text, "      {k:<key_width$}{meaning}");
         }
-        println!("      {:<key_width$}{}", "example", s.example);
+        let _ = writeln!(text, "      {:<key_width$}{}", "example", s.example);
     }
+    print_out(&text)?;
+    Ok(true)
 }
 
-fn run_verify(cells: usize) -> Result<bool, Error> {
+fn run_verify(cells: usize) -> Result<bool, Failure> {
+    use std::fmt::Write as _;
     if !(8..=4096).contains(&cells) {
-        return Err(Error::param("--cells", "use between 8 and 4096 cells"));
+        return Err(Error::param("--cells", "use between 8 and 4096 cells").into());
     }
     let checks = verify::run(cells)?;
-    println!(
+    let mut text = String::new();
+    let _ = writeln!(
+        text,
         "Verification at {cells} cells across (exact solutions of fully developed laminar flow)"
     );
-    println!(
+    let _ = writeln!(
+        text,
         "{:<42} {:<32} {:>14} {:>14} {:>10} {:>9}  result",
         "case", "quantity", "value", "reference", "error", "limit"
     );
     let mut all = true;
     for c in &checks {
         all &= c.passed();
-        println!(
+        let _ = writeln!(
+            text,
             "{:<42} {:<32} {:>14.8} {:>14.8} {:>10.2e} {:>9.1e}  {}",
             c.case,
             c.quantity,
@@ -593,7 +736,8 @@ fn run_verify(cells: usize) -> Result<bool, Error> {
         );
     }
     let passed = checks.iter().filter(|c| c.passed()).count();
-    println!("{passed} of {} checks passed", checks.len());
+    let _ = writeln!(text, "{passed} of {} checks passed", checks.len());
+    print_out(&text)?;
     Ok(all)
 }
 
@@ -611,18 +755,30 @@ fn main() -> ExitCode {
     };
     // (Each solve moves itself onto a worker of rayon's pool: pipeline::solve_unit_monitored.)
     let result = match &cli.command {
-        Command::Solve(a) => solve(a).map(|_| true),
-        Command::Shapes => {
-            shapes();
-            Ok(true)
-        }
+        Command::Solve(a) => solve(a),
+        Command::Shapes => shapes(),
         Command::Verify { cells } => run_verify(*cells),
     };
     match result {
         Ok(true) => ExitCode::SUCCESS,
         Ok(false) => ExitCode::from(1),
-        Err(e) => {
-            eprintln!("error: {e}");
+        // The reader went away (`| head`): nothing to tell it. A listing ends as it would have;
+        // a solve's report did not arrive in full, which is a failure.
+        Err(Failure::Stdout(e)) if e.kind() == std::io::ErrorKind::BrokenPipe => {
+            match cli.command {
+                Command::Solve(_) => ExitCode::from(1),
+                _ => ExitCode::SUCCESS,
+            }
+        }
+        Err(Failure::Stdout(e)) => {
+            let _ = writeln!(
+                std::io::stderr(),
+                "error: standard output: {e}; the result was not written"
+            );
+            ExitCode::from(1)
+        }
+        Err(Failure::Run(e)) => {
+            let _ = writeln!(std::io::stderr(), "error: {}", sanitise(&e.to_string()));
             ExitCode::from(if e.is_input_error() { 2 } else { 1 })
         }
     }

@@ -11,8 +11,8 @@
 
 use crate::entrance::{standard_stations, thermal_entrance, Flow, MarchParams};
 use crate::error::{Error, Result, Solve};
-use crate::geometry::mask::MaskMode;
-use crate::geometry::Domain;
+use crate::geometry::mask::{MaskMode, MaskOptions};
+use crate::geometry::{Domain, MIN_EXTENT_M};
 use crate::grid::{classify, Grid};
 use crate::heat::heat_transfer;
 use crate::input::Input;
@@ -230,6 +230,9 @@ pub struct SolveConfig {
     /// Rate the passage thermally over the operating point's length (`--inlet-temperature` with
     /// `--wall-temperature`, `--heat-load` or `--heat-flux`); implies the entrance march.
     pub rating: Option<RatingSpec>,
+    /// Notes on the configuration itself (options that do not apply to the input), put first
+    /// among the outcome's warnings.
+    pub warnings: Vec<String>,
 }
 
 /// The thermal entrance of a run (`--entrance`).
@@ -275,6 +278,7 @@ impl SolveConfig {
             error_estimate: ErrorEstimate::default(),
             entrance: None,
             rating: None,
+            warnings: Vec::new(),
         }
     }
 
@@ -287,6 +291,7 @@ impl SolveConfig {
     pub fn validate(&self) -> Result<()> {
         if let Some(op) = &self.operating {
             op.validate()?;
+            check_operating_ranges(op)?;
         }
         let pixel_grid = matches!(&self.input, Input::Mask { options, .. }
             if options.mode == MaskMode::Pixels);
@@ -296,6 +301,18 @@ impl SolveConfig {
         match &self.input {
             Input::Mask { options, .. } if !(options.pixel.is_finite() && options.pixel > 0.0) => {
                 return Err(Error::param("--pixel", "must be a positive length"));
+            }
+            Input::Mask { options, .. }
+                if !(MIN_EXTENT_M..=MAX_PIXEL_M).contains(&options.pixel) =>
+            {
+                return Err(Error::param(
+                    "--pixel",
+                    format!(
+                        "{:e} m per pixel is out of range; use {MIN_EXTENT_M:e} m to \
+                         {MAX_PIXEL_M} m",
+                        options.pixel
+                    ),
+                ));
             }
             Input::Svg { scale: Some(s), .. } if !(s.is_finite() && *s > 0.0) => {
                 return Err(Error::param("--scale", "must be a positive length"));
@@ -361,6 +378,57 @@ impl SolveConfig {
     }
 }
 
+/// Largest mask pixel accepted, metres.
+pub const MAX_PIXEL_M: f64 = 1.0;
+
+/// The plausible range of each operating value, SI units: outside it no liquid or gas in a
+/// duct is described, and the dimensional results would overflow or underflow (a viscosity of
+/// 1e308 Pa·s printed velocities of zero; a gradient of 1e308 Pa/m, infinite ones).
+const OPERATING_RANGES: [(&str, f64, f64, &str); 7] = [
+    ("--viscosity", 1e-7, 1e8, "Pa·s"),
+    ("--density", 1e-3, 1e5, "kg/m³"),
+    ("--conductivity", 1e-4, 1e4, "W/(m·K)"),
+    ("--specific-heat", 1.0, 1e6, "J/(kg·K)"),
+    ("--dpdx", 1e-9, 1e12, "Pa/m"),
+    ("--flow", 1e-18, 1e6, "m³/s"),
+    ("--length", 1e-7, 1e6, "m"),
+];
+
+/// Refuses operating values outside [`OPERATING_RANGES`], naming the option.
+fn check_operating_ranges(op: &OperatingSpec) -> Result<()> {
+    use crate::operating::{Drive, FluidSpec};
+    let mut given: Vec<(&str, f64)> = Vec::new();
+    if let FluidSpec::Given {
+        viscosity,
+        density,
+        conductivity,
+        specific_heat,
+    } = &op.fluid
+    {
+        given.extend([("--viscosity", *viscosity), ("--density", *density)]);
+        given.extend(conductivity.map(|k| ("--conductivity", k)));
+        given.extend(specific_heat.map(|c| ("--specific-heat", c)));
+    }
+    if let Drive::PressureGradient(g) = op.drive {
+        given.push(("--dpdx", g));
+    }
+    if let Drive::FlowRate(q) = op.drive {
+        given.push(("--flow", q));
+    }
+    given.extend(op.length.map(|l| ("--length", l)));
+    for (name, value) in given {
+        if let Some(&(_, lo, hi, unit)) = OPERATING_RANGES.iter().find(|r| r.0 == name) {
+            if !(lo..=hi).contains(&value) {
+                return Err(Error::param(
+                    name,
+                    format!("{value:e} {unit} is out of range; use {lo:e} to {hi:e} {unit}"),
+                ));
+            }
+        }
+    }
+    Ok(())
+}
+
 /// Fewest cells across a grid may have.
 const MIN_CELLS: usize = 8;
 
@@ -387,6 +455,42 @@ pub fn run(config: &SolveConfig) -> Result<Outcome> {
 pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outcome> {
     let start = Instant::now();
     config.validate()?;
+    // A mask is decoded within the run's memory limit too (`MaskOptions::memory_limit`).
+    let limited;
+    let config = match &config.input {
+        Input::Mask { path, options } if options.memory_limit != config.memory_limit => {
+            limited = SolveConfig {
+                input: Input::Mask {
+                    path: path.clone(),
+                    options: MaskOptions {
+                        memory_limit: config.memory_limit,
+                        ..*options
+                    },
+                },
+                ..config.clone()
+            };
+            &limited
+        }
+        _ => config,
+    };
+    // The resolution check (issue 19) on the run's own grid, before any solve: a grid that
+    // cannot resolve a passage or a wall is refined (default grid) or refused.
+    let refined;
+    let t_check = Instant::now();
+    let checked = check_resolution(config)?;
+    if std::env::var_os("CANALIS_TIME_CHECK").is_some() {
+        eprintln!("check {:.4} s", t_check.elapsed().as_secs_f64());
+    }
+    let config = match checked {
+        None => config,
+        Some((cells, note)) => {
+            let mut c = config.clone();
+            c.cells = Some(cells);
+            c.warnings.push(note);
+            refined = c;
+            &refined
+        }
+    };
     let mut outcome = match (&config.input, config.error_estimate) {
         (_, ErrorEstimate::Off) => run_once(config, monitor)?,
         (Input::Mask { path, options }, ErrorEstimate::Cheap) => runs::run_image_study(
@@ -443,6 +547,9 @@ pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outc
         outcome.rating = Some(rating);
     }
     outcome.seconds = start.elapsed().as_secs_f64();
+    outcome
+        .warnings
+        .splice(0..0, config.warnings.iter().cloned());
     Ok(outcome)
 }
 
@@ -460,7 +567,7 @@ fn entrance_uncertainty(
     fine_cells: usize,
     fine: &crate::entrance::ThermalEntrance,
     monitor: &dyn Monitor,
-) -> Result<EntranceUncertainty> {
+) -> Result<Option<EntranceUncertainty>> {
     let cells = study::cheap_cells(fine_cells);
     let flow_config = SolveConfig {
         cells: Some(cells),
@@ -474,6 +581,10 @@ fn entrance_uncertainty(
         ],
         ..config.clone()
     };
+    // A coarser grid that cannot resolve the section gives no estimate.
+    if !matches!(check_resolution(&flow_config), Ok(None)) {
+        return Ok(None);
+    }
     let coarse_run = run_once(&flow_config, monitor)?;
     let unit = &coarse_run.unit;
     let flow = Flow {
@@ -553,10 +664,10 @@ fn entrance_uncertainty(
             ]
         })
         .collect();
-    Ok(EntranceUncertainty {
+    Ok(Some(EntranceUncertainty {
         coarse_cells: unit.classified.grid.cells(),
         passages,
-    })
+    }))
 }
 
 /// The thermal entrance of a run's cross-section ([`crate::entrance`]): on the run's own unit
@@ -581,8 +692,15 @@ fn run_entrance(
             rating: None,
             ..config.clone()
         };
-        coarser = run_once(&flow, monitor)?;
-        &coarser.unit
+        // The entrance grid must pass the resolution check too; where it does not, the march
+        // takes the run's own grid, which did.
+        match check_resolution(&flow) {
+            Ok(None) => {
+                coarser = run_once(&flow, monitor)?;
+                &coarser.unit
+            }
+            _ => &outcome.unit,
+        }
     };
     let heat = unit.heat.as_ref();
     let fully_developed: Option<Vec<(f64, f64)>> = match (heat, unit.passages.len()) {
@@ -607,12 +725,7 @@ fn run_entrance(
     let uncertainty = if outcome.fixed_grid || config.error_estimate == ErrorEstimate::Off {
         None
     } else {
-        Some(entrance_uncertainty(
-            config,
-            fine_cells.0.max(fine_cells.1),
-            &thermal,
-            monitor,
-        )?)
+        entrance_uncertainty(config, fine_cells.0.max(fine_cells.1), &thermal, monitor)?
     };
     Ok(EntranceOutcome {
         thermal,
@@ -620,6 +733,272 @@ fn run_entrance(
         cells: unit.classified.grid.cells(),
         unknowns: unit.numbering.len(),
     })
+}
+
+/// Largest number of cells across the resolution check refines a default grid to.
+pub const MAX_REFINED_CELLS: usize = 8192;
+
+/// The grid a configuration asks for over a domain (the pixel grid of a mask in pixels mode).
+fn grid_of(config: &SolveConfig, domain: &dyn Domain, cells: usize) -> Grid {
+    let (lo, hi) = domain.bbox();
+    match domain.lattice() {
+        Some(l) => Grid::from_lattice(l),
+        None => match config.placement {
+            Some(p) => Grid::covering_placed(lo, hi, cells, p),
+            None => Grid::covering_with_offset(lo, hi, cells, config.offset),
+        },
+    }
+}
+
+/// The resolution check of a run, before any solve ([`crate::resolution`]): every passage of
+/// the grid that is not a sliver is at least [`crate::resolution::MIN_NODES_ACROSS`] nodes
+/// across, and every wall between two fluid nodes at least [`MIN_WALL_CELLS`] cells thick.
+/// When the default grid fails, the cells needed are estimated, and the grid is refined to them
+/// if its memory stays within the limit (returns the cells and a warning saying why); when the
+/// grid was given (`--cells`, a mask's pixel grid) or the refined one does not fit, the error
+/// names the feature, its size or position, and the cells it needs.
+fn check_resolution(config: &SolveConfig) -> Result<Option<(usize, String)>> {
+    use crate::resolution::{measure, MIN_NODES_ACROSS, MIN_WALL_CELLS};
+    let loaded = config.input.load()?;
+    let domain = loaded.domain.as_ref();
+    let given = config.cells;
+    let mut cells = given.unwrap_or(DEFAULT_CELLS);
+    check_cells(cells)?;
+    let mut note: Option<String> = None;
+    let mut first_feature: Option<(usize, String)> = None;
+    for round in 0..6 {
+        let grid = grid_of(config, domain, cells);
+        if grid.len() as u64 * BYTES_PER_NODE > config.memory_limit {
+            // run_once refuses it with the memory message.
+            return Ok(None);
+        }
+        let classified = classify(domain, grid)?;
+        let (label, count) = post::passage_labels(&classified);
+        let res = measure(&classified, &label, count);
+        if std::env::var_os("CANALIS_DEBUG_RESOLUTION").is_some() {
+            let worst = res.passages.iter().map(|p| p.across).min();
+            eprintln!(
+                "resolution: cells {cells} h {:.3e} passages {} worst across {:?} slivers {} thinnest wall {:?}",
+                res.h,
+                res.passages.len(),
+                worst,
+                res.slivers().len(),
+                res.thinnest_wall.map(|t| t.thickness / res.h)
+            );
+        }
+        // Needed refinement: passages to MIN_NODES_ACROSS + 1 nodes, walls to MIN_WALL_CELLS.
+        let mut factor: f64 = 1.0;
+        let mut feature = String::new();
+        if let Some(p) = res.unresolved().min_by_key(|p| p.across) {
+            factor = (MIN_NODES_ACROSS + 1) as f64 / p.across.max(1) as f64;
+            feature = format!(
+                "a passage near ({:.4e}, {:.4e}) m is {} grid node{} across (spacing {:.3e} m; \
+                 at least {MIN_NODES_ACROSS} are needed)",
+                p.position[0],
+                p.position[1],
+                p.across,
+                if p.across == 1 { "" } else { "s" },
+                res.h
+            );
+        }
+        if let Some(w) = res.thinnest_wall {
+            {
+                let f = 1.25 * MIN_WALL_CELLS * res.h / w.thickness.max(1e-300);
+                if f > factor {
+                    factor = f;
+                    feature = format!(
+                        "a wall near ({:.4e}, {:.4e}) m is {:.3e} m thick, thinner than half the \
+                         grid spacing {:.3e} m",
+                        w.position[0], w.position[1], w.thickness, res.h
+                    );
+                }
+            }
+        }
+        if factor <= 1.0 {
+            if let (Some(_), Some((at, feature))) = (given, first_feature) {
+                return Err(Error::param(
+                    "--cells",
+                    format!(
+                        "{}: {feature}; the grid of {at} cells cannot resolve it: it needs \
+                         about --cells {cells}",
+                        config.input.origin()
+                    ),
+                ));
+            }
+            return Ok(note.map(|n| (cells, n)));
+        }
+        let needed = (cells as f64 * factor).ceil();
+        let origin = config.input.origin();
+        if domain.lattice().is_some() {
+            return Err(Error::param(
+                "SHAPE",
+                format!(
+                    "{origin}: {feature}: the image's pixel grid cannot resolve it; use an image \
+                     about {factor:.0} times finer, or --mask-mode traced with more --cells"
+                ),
+            ));
+        }
+        let needed_bytes = grid.len() as f64 * factor * factor * BYTES_PER_NODE as f64;
+        let fits = needed <= MAX_REFINED_CELLS as f64 && needed_bytes <= config.memory_limit as f64;
+        if !fits || (given.is_some() && round == 5) {
+            let how = if fits {
+                String::new()
+            } else {
+                format!(
+                    " (an estimated {:.3e} GiB, {})",
+                    needed_bytes / (1u64 << 30) as f64,
+                    if needed > MAX_REFINED_CELLS as f64 {
+                        format!("beyond the {MAX_REFINED_CELLS} cells canalis refines to")
+                    } else {
+                        format!(
+                            "above the --max-memory limit of {:.3} GiB",
+                            config.memory_limit as f64 / (1u64 << 30) as f64
+                        )
+                    }
+                )
+            };
+            let (at, feature) = first_feature.unwrap_or((cells, feature));
+            return Err(Error::param(
+                "--cells",
+                format!(
+                    "{origin}: {feature}; the grid of {at} cells cannot resolve it: it needs \
+                     about --cells {needed:.0}{how}"
+                ),
+            ));
+        }
+        if first_feature.is_none() {
+            first_feature = Some((cells, feature));
+        }
+        cells = needed as usize;
+        if let (None, Some((_, first))) = (given, &first_feature) {
+            note = Some(format!(
+                "the default grid of {DEFAULT_CELLS} cells could not resolve the \
+                 cross-section ({first}); refined to {cells} cells"
+            ));
+        }
+    }
+    Err(Error::param(
+        "--cells",
+        format!(
+            "{}: the grid could not be refined enough to resolve the cross-section",
+            config.input.origin()
+        ),
+    ))
+}
+
+/// The sliver passages ([`crate::resolution::PassageResolution::is_sliver`]), by label; with
+/// `drop`, removed from the per-passage figures. Either way a warning gives their number and
+/// flow share. Their flow stays in the totals; their own figures (a sliver cut off by a
+/// tangent hole reported f·Re 12 000) mean nothing.
+fn slivers(unit: &mut UnitSolution, drop: bool, warnings: &mut Vec<String>) -> Vec<u32> {
+    let (label, count) = post::passage_labels(&unit.classified);
+    if count < 2 {
+        return Vec::new();
+    }
+    let res = crate::resolution::measure(&unit.classified, &label, count);
+    let slivers = res.slivers();
+    if slivers.is_empty() || slivers.len() == unit.passages.len() {
+        return Vec::new();
+    }
+    let share: f64 = unit
+        .passages
+        .iter()
+        .filter(|p| slivers.contains(&p.label))
+        .map(|p| p.flow_share)
+        .sum();
+    if drop {
+        unit.passages.retain(|p| !slivers.contains(&p.label));
+    }
+    warnings.push(format!(
+        "{} sliver passage{} (fewer than {} grid nodes across and {} % of the fluid nodes; \
+         together {:.2e} of the flow) {}: a gap or a passage this small is not resolved by \
+         the grid (spacing {:.3e} m); their flow stays in the totals",
+        slivers.len(),
+        if slivers.len() == 1 { "" } else { "s" },
+        crate::resolution::MIN_NODES_ACROSS,
+        crate::resolution::SLIVER_SHARE * 100.0,
+        share,
+        if drop {
+            "left out of `passages`"
+        } else {
+            "kept in `passages` (--min-feature drops specks), their own figures unreliable"
+        },
+        res.h
+    ));
+    slivers
+}
+
+/// Largest force-balance error of a result printed as a success.
+pub const MAX_FORCE_BALANCE_ERROR: f64 = 0.25;
+
+/// Refuses a result that breaks a physical bound, which no grid error explains: flow not
+/// positive or a figure not finite; u_max/ū < 1; f·Re below 64πA/P² (Saint-Venant's
+/// Q ≤ A²/(8π), true of every section; with 5 % for the discretisation); the force balance
+/// off by more than [`MAX_FORCE_BALANCE_ERROR`]; the same per passage but the slivers. There
+/// is no upper bound on f·Re in general: 24 (Pólya) holds for convex sections only, and a
+/// dense array of pins in a duct exceeds 40.
+fn check_physical_bounds(unit: &UnitSolution, slivers: &[u32]) -> Result<()> {
+    let f = &unit.figures;
+    let fail = |what: String| {
+        Err(Error::Numerical(format!(
+            "the result breaks a physical bound ({what}); the grid of spacing {:.3e} m does not \
+             resolve the cross-section: raise --cells, or check the geometry for features \
+             far smaller than the rest",
+            unit.classified.grid.h
+        )))
+    };
+    let fre_low = |area: f64, perimeter: f64| {
+        0.95 * 64.0 * std::f64::consts::PI * area / (perimeter * perimeter)
+    };
+    for (name, v) in [
+        ("area", f.area),
+        ("perimeter", f.perimeter),
+        ("flow", f.flow_integral),
+        ("largest velocity", f.max_velocity),
+        ("f·Re", f.fanning_f_re),
+    ] {
+        if !(v.is_finite() && v > 0.0) {
+            return fail(format!("{name} = {v:e}, not a positive number"));
+        }
+    }
+    if f.max_to_mean_velocity.is_nan() || f.max_to_mean_velocity < 1.0 {
+        return fail(format!(
+            "u_max/u_mean = {:.4} is below 1",
+            f.max_to_mean_velocity
+        ));
+    }
+    if f.fanning_f_re < fre_low(f.area, f.perimeter) {
+        return fail(format!(
+            "f·Re = {:.4} below {:.4}, the least any section of this area and perimeter has",
+            f.fanning_f_re,
+            fre_low(f.area, f.perimeter)
+        ));
+    }
+    if f.force_balance_rel_error.is_finite() && f.force_balance_rel_error > MAX_FORCE_BALANCE_ERROR
+    {
+        return fail(format!(
+            "the force balance is off by {:.1} %",
+            100.0 * f.force_balance_rel_error
+        ));
+    }
+    for (k, p) in unit.passages.iter().enumerate() {
+        if slivers.contains(&p.label) {
+            continue;
+        }
+        let ok = p.fanning_f_re.is_finite()
+            && p.flow_integral > 0.0
+            && p.fanning_f_re >= fre_low(p.area, p.perimeter);
+        if !ok {
+            return fail(format!(
+                "passage {} has f·Re = {:.4e}, below {:.4}, the least a section of its area \
+                 and perimeter has",
+                k + 1,
+                p.fanning_f_re,
+                fre_low(p.area, p.perimeter)
+            ));
+        }
+    }
+    Ok(())
 }
 
 /// One grid: load the cross-section, lay the grid, solve, post-process, and evaluate the
@@ -664,7 +1043,7 @@ pub(crate) fn run_once(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Ou
             ),
         ));
     }
-    let unit = solve_unit_monitored(domain.as_ref(), grid, wall_kind, &config.unit, monitor)?;
+    let mut unit = solve_unit_monitored(domain.as_ref(), grid, wall_kind, &config.unit, monitor)?;
     let fluid_nodes = unit.numbering.len();
     if fluid_nodes < MIN_FLUID_NODES {
         return Err(Error::param(
@@ -675,6 +1054,10 @@ pub(crate) fn run_once(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Ou
             ),
         ));
     }
+    // A mask's specks are the user's to keep or drop (--min-feature): kept, with a warning.
+    let is_mask = matches!(config.input, Input::Mask { .. });
+    let slivers = slivers(&mut unit, !is_mask, &mut warnings);
+    check_physical_bounds(&unit, &slivers)?;
     let passages = unit.passages.len();
     if passages > 1 && unit.heat.is_some() {
         warnings.push(format!(

@@ -240,14 +240,27 @@ pub fn passages(c: &Classified, num: &Numbering, u: &[f64], walls: &Walls) -> Ve
         })
         .collect();
     let tol = 1e-9 * (g.nx.max(g.ny) as f64 * g.h);
-    out.sort_by(|a, b| {
-        if (a.centroid[1] - b.centroid[1]).abs() > tol {
-            b.centroid[1].total_cmp(&a.centroid[1])
-        } else {
-            a.centroid[0].total_cmp(&b.centroid[0])
-        }
-    });
+    order_top_left_first(&mut out, tol);
     out
+}
+
+/// Orders passages top-left first: rows of centroids (descending y; centroids within `tol` of
+/// the first of a row share it), each row by ascending x. A comparison "y equal within tol" is
+/// not transitive, so sorting by it is not a total order (Rust's sort may panic on such a
+/// comparator, as it did on a mask with thousands of passages); the rows are formed first and
+/// every comparison is a `total_cmp`, NaN included.
+fn order_top_left_first(out: &mut [PassageFigures], tol: f64) {
+    out.sort_by(|a, b| b.centroid[1].total_cmp(&a.centroid[1]));
+    let mut start = 0;
+    while start < out.len() {
+        let y0 = out[start].centroid[1];
+        let mut end = start + 1;
+        while end < out.len() && (y0 - out[end].centroid[1]).abs() <= tol {
+            end += 1;
+        }
+        out[start..end].sort_by(|a, b| a.centroid[0].total_cmp(&b.centroid[0]));
+        start = end;
+    }
 }
 
 /// Largest velocity: the largest node value, refined by the stationary point of the quadratic
@@ -657,5 +670,45 @@ pub fn figures(
         wall_shear_max_to_mean: tmax / mean,
         wall_shear_min_to_mean: tmin / mean,
         force_balance_rel_error: (total_exact_len - area).abs() / area,
+    }
+}
+
+#[cfg(test)]
+mod ordering_tests {
+    use super::*;
+
+    /// Issue 19: centroids whose heights differ by less than the tolerance in a chain (a − b
+    /// and b − c within it, a − c not) and NaN ones made the old comparator no total order;
+    /// the ordering must neither panic nor lose a passage.
+    #[test]
+    fn passages_are_ordered_whatever_the_ties_and_nans() {
+        let tol = 1.0;
+        let mut out: Vec<PassageFigures> = (0..3000u32)
+            .map(|k| PassageFigures {
+                area: 1.0,
+                perimeter: 1.0,
+                hydraulic_diameter: 1.0,
+                flow_integral: 1.0,
+                fanning_f_re: 1.0,
+                flow_share: 1.0,
+                centroid: if k % 97 == 0 {
+                    [f64::NAN, f64::NAN]
+                } else {
+                    [((k * 7919) % 101) as f64, 0.6 * tol * (k % 13) as f64]
+                },
+                label: k,
+            })
+            .collect();
+        order_top_left_first(&mut out, tol);
+        let mut labels: Vec<u32> = out.iter().map(|p| p.label).collect();
+        labels.sort_unstable();
+        assert_eq!(labels, (0..3000).collect::<Vec<_>>());
+        // Rows top first: heights never rise by more than the tolerance.
+        for w in out.windows(2) {
+            let (a, b) = (w[0].centroid[1], w[1].centroid[1]);
+            if a.is_finite() && b.is_finite() {
+                assert!(b <= a + tol, "{a} then {b}");
+            }
+        }
     }
 }

@@ -208,7 +208,19 @@ pub struct MaskOptions {
     pub mode: MaskMode,
     /// Specks below this area are dropped ([`Mask::drop_specks`]).
     pub min_feature: MinFeature,
+    /// Memory the image may take once decoded and converted, bytes (the run's `--max-memory`,
+    /// set by the pipeline): an image of more than this / [`MASK_BYTES_PER_PIXEL`] pixels is
+    /// refused from its header, before it is decoded.
+    pub memory_limit: u64,
 }
+
+/// Bytes per pixel of a mask while it is read: the decoded image (up to 8 for 16-bit RGBA),
+/// its grey levels with alpha (2), the level field (4) and the fluid bits (measured: a
+/// 16 000² image took 3 GB, 12 B per pixel, before this limit).
+pub const MASK_BYTES_PER_PIXEL: u64 = 16;
+/// Largest mask file read, bytes (1 GiB; the pixel count is the tighter limit for any
+/// compressed image).
+pub const MAX_MASK_FILE_BYTES: u64 = 1 << 30;
 
 impl Default for MaskOptions {
     fn default() -> Self {
@@ -218,6 +230,7 @@ impl Default for MaskOptions {
             pixel: 1.0,
             mode: MaskMode::default(),
             min_feature: MinFeature::default(),
+            memory_limit: 4 << 30,
         }
     }
 }
@@ -390,20 +403,49 @@ impl Mask {
             path: path.to_path_buf(),
             message,
         };
-        let bytes = std::fs::read(path).map_err(io_err)?;
-        let mut reader = image::ImageReader::new(std::io::Cursor::new(bytes))
-            .with_guessed_format()
-            .map_err(io_err)?;
-        if reader.format().is_none() {
-            if let Ok(f) = image::ImageFormat::from_path(path) {
-                reader.set_format(f);
+        let bytes = super::read_input_file(path, MAX_MASK_FILE_BYTES.min(opts.memory_limit))?;
+        let reader_of = |bytes| -> Result<image::ImageReader<std::io::Cursor<&[u8]>>> {
+            let mut reader = image::ImageReader::new(std::io::Cursor::new(bytes))
+                .with_guessed_format()
+                .map_err(io_err)?;
+            if reader.format().is_none() {
+                if let Ok(f) = image::ImageFormat::from_path(path) {
+                    reader.set_format(f);
+                }
             }
-        }
-        if reader.format().is_none() {
-            return Err(mask_err(
-                "not an image in a format canalis reads (PNG, BMP, TIFF)".to_string(),
+            if reader.format().is_none() {
+                return Err(mask_err(
+                    "not an image in a format canalis reads (PNG, BMP, TIFF)".to_string(),
+                ));
+            }
+            Ok(reader)
+        };
+        // The size from the header first: an image too large for the memory limit is refused
+        // before a byte of it is decoded.
+        let (w, h) = reader_of(&bytes)?
+            .into_dimensions()
+            .map_err(|e| mask_err(format!("cannot read the image's header: {e}")))?;
+        let max_pixels = opts.memory_limit / MASK_BYTES_PER_PIXEL;
+        if w as u64 * h as u64 > max_pixels {
+            return Err(Error::param(
+                "--max-memory",
+                format!(
+                    "{}: a {w} × {h} image needs an estimated {:.1} GiB to read, above the \
+                     limit of {:.1} GiB ({max_pixels} pixels); use a smaller image or raise \
+                     --max-memory",
+                    path.display(),
+                    (w as u64 * h as u64 * MASK_BYTES_PER_PIXEL) as f64 / (1u64 << 30) as f64,
+                    opts.memory_limit as f64 / (1u64 << 30) as f64
+                ),
             ));
         }
+        let mut reader = reader_of(&bytes)?;
+        // The decoders' own limits as a second line: no allocation beyond the memory limit.
+        let mut limits = image::Limits::default();
+        limits.max_alloc = Some(opts.memory_limit);
+        limits.max_image_width = Some(w);
+        limits.max_image_height = Some(h);
+        reader.limits(limits);
         let img = reader
             .decode()
             .map_err(|e| mask_err(format!("cannot decode the image: {e}")))?;

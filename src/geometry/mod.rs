@@ -22,6 +22,81 @@ use std::f64::consts::PI;
 /// A point or vector in the cross-section plane, metres.
 pub type Point = [f64; 2];
 
+/// Smallest cross-section (and mask pixel) accepted, metres: below 0.1 µm a continuum model of
+/// a liquid is no longer sensible.
+pub const MIN_EXTENT_M: f64 = 1e-7;
+/// Largest extent of a primitive (and of a cross-section), metres: a kilometre is far beyond
+/// any duct, and beyond it velocities and pressure drops soon overflow, and squared lengths
+/// (areas, the inside tests' cross products) lose every digit or become infinite.
+pub const MAX_EXTENT_M: f64 = 1e3;
+/// Largest distance of a coordinate from the origin, metres (beyond it a small shape far from
+/// the origin loses its digits: a 1 mm circle at 1e30 m is a point).
+pub const MAX_COORDINATE_M: f64 = 1e4;
+/// Thinnest primitive, metres (10 nm; a continuum model of a liquid does not go further).
+pub const MIN_THICKNESS_M: f64 = 1e-8;
+/// Thinnest primitive relative to the whole cross-section (its bounding-box diagonal): the
+/// crossings of grid lines with walls closer than 1e-12 of it are merged, and the wall tests
+/// step 1e-9 of it off a wall, so a thinner hole or region would silently vanish.
+pub const MIN_RELATIVE_THICKNESS: f64 = 1e-7;
+
+/// Largest shape file or SVG drawing read, bytes (64 MiB: a drawn cross-section is kilobytes; a
+/// polygon of a million points is some 30 MB of text).
+pub const MAX_TEXT_INPUT_BYTES: u64 = 64 << 20;
+
+/// Reads a whole input file of at most `limit` bytes. Only a regular file is read (a link to
+/// one is followed): a directory, a FIFO, a device such as `/dev/zero` or a socket is refused
+/// before it is opened, since reading one may block forever or never end; the size is checked
+/// before reading, and the read itself stops at the limit in case the file grows meanwhile.
+pub fn read_input_file(path: &std::path::Path, limit: u64) -> Result<Vec<u8>> {
+    use std::io::Read;
+    let io = |source: std::io::Error| Error::Io {
+        path: path.to_path_buf(),
+        source,
+    };
+    let not_regular = |meta: &std::fs::Metadata| {
+        let t = meta.file_type();
+        let what = if t.is_dir() {
+            "a directory"
+        } else {
+            "not a regular file (a device, FIFO or socket)"
+        };
+        Error::param(
+            "SHAPE",
+            format!("{} is {what}; only regular files are read", path.display()),
+        )
+    };
+    let too_large = |len: u64| {
+        Error::param(
+            "SHAPE",
+            format!(
+                "{} is {:.1} MiB, larger than the {} MiB an input file may have",
+                path.display(),
+                len as f64 / (1u64 << 20) as f64,
+                limit >> 20
+            ),
+        )
+    };
+    let meta = std::fs::metadata(path).map_err(io)?;
+    if !meta.is_file() {
+        return Err(not_regular(&meta));
+    }
+    if meta.len() > limit {
+        return Err(too_large(meta.len()));
+    }
+    let file = std::fs::File::open(path).map_err(io)?;
+    // The entry may have changed between the two looks: check what was opened.
+    let meta = file.metadata().map_err(io)?;
+    if !meta.is_file() {
+        return Err(not_regular(&meta));
+    }
+    let mut bytes = Vec::with_capacity(meta.len().min(limit) as usize);
+    file.take(limit + 1).read_to_end(&mut bytes).map_err(io)?;
+    if bytes.len() as u64 > limit {
+        return Err(too_large(bytes.len() as u64));
+    }
+    Ok(bytes)
+}
+
 fn add(a: Point, b: Point) -> Point {
     [a[0] + b[0], a[1] + b[1]]
 }
@@ -301,6 +376,63 @@ impl Primitive {
     /// polygons with at least three distinct points, non-zero area and no crossing edges.
     pub fn validate(&self) -> Result<()> {
         let finite = |v: &[f64]| v.iter().all(|x| x.is_finite());
+        self.validate_form()?;
+        // Sizes, once every number is known to be finite and every size positive.
+        let (lo, hi) = self.bbox();
+        let extent = (hi[0] - lo[0]).max(hi[1] - lo[1]);
+        let far = [lo[0], lo[1], hi[0], hi[1]]
+            .iter()
+            .fold(0.0f64, |m, v| m.max(v.abs()));
+        if !finite(&[extent, far]) || extent > MAX_EXTENT_M {
+            return Err(Error::geometry(format!(
+                "it is {extent:.3e} m across, larger than the {MAX_EXTENT_M:e} m canalis accepts \
+                 (check the units)"
+            )));
+        }
+        if far > MAX_COORDINATE_M {
+            return Err(Error::geometry(format!(
+                "it lies {far:.3e} m from the origin, farther than the {MAX_COORDINATE_M:e} m \
+                 canalis accepts (move the cross-section near the origin, or check the units)"
+            )));
+        }
+        let thickness = self.thickness();
+        if thickness.is_nan() || thickness < MIN_THICKNESS_M {
+            return Err(Error::geometry(format!(
+                "it is {thickness:.3e} m thick, thinner than the {MIN_THICKNESS_M:e} m canalis \
+                 resolves (check the units)"
+            )));
+        }
+        Ok(())
+    }
+
+    /// A thickness of the primitive, metres: 2A/P (the thickness of a thin strip, the radius
+    /// of a circle).
+    pub fn thickness(&self) -> f64 {
+        let perimeter: f64 = self
+            .segments()
+            .iter()
+            .map(|s| s.length_between(0.0, 1.0))
+            .sum();
+        2.0 * self.area() / perimeter
+    }
+
+    /// The area enclosed by the primitive, m².
+    pub fn area(&self) -> f64 {
+        match self {
+            Primitive::Polygon { points } => polygon_signed_area(&dedup_points(points)).abs(),
+            Primitive::Circle { radius, .. } => PI * radius * radius,
+            Primitive::Ellipse { semi_axes, .. } => PI * semi_axes[0] * semi_axes[1],
+            Primitive::Rect {
+                size,
+                corner_radius,
+                ..
+            } => size[0] * size[1] - (4.0 - PI) * corner_radius * corner_radius,
+        }
+    }
+
+    /// The checks of [`Primitive::validate`] on the numbers and the form, before the sizes.
+    fn validate_form(&self) -> Result<()> {
+        let finite = |v: &[f64]| v.iter().all(|x| x.is_finite());
         match self {
             Primitive::Polygon { points } => {
                 if !points.iter().all(|p| finite(p)) {
@@ -327,6 +459,13 @@ impl Primitive {
                 let scale = bbox_of(&pts)
                     .map(|(lo, hi)| norm(sub(hi, lo)))
                     .unwrap_or(0.0);
+                if !(scale.is_finite() && scale <= MAX_EXTENT_M) {
+                    // Checked here too: the area test below is meaningless (infinite) then.
+                    return Err(Error::geometry(format!(
+                        "it is {scale:.3e} m across, larger than the {MAX_EXTENT_M:e} m canalis \
+                         accepts (check the units)"
+                    )));
+                }
                 let area = polygon_signed_area(&pts).abs();
                 if area <= 1e-12 * scale * scale {
                     return Err(Error::geometry(
@@ -678,34 +817,118 @@ pub fn polygon_signed_area(points: &[Point]) -> f64 {
         * 0.5
 }
 
-/// First pair of non-adjacent edges that touch or cross, if any (O(n²), fine for drawn
-/// polygons; traced contours are checked by their own construction).
+/// First pair (i < j, least i, then least j) of non-adjacent edges that touch or cross, if
+/// any.
+///
+/// Edges are put in the cells of a uniform bucket grid of about n cells over the polygon's
+/// bounding box (each edge in every cell it passes through, column by column, with a margin of
+/// one cell for round-off), and only edges sharing a cell are compared: two edges that meet
+/// share the cell of that point. For drawn and traced outlines each cell holds a few edges and
+/// the check is O(n) (a polygon of 10⁴ points took 95 s when every pair was compared); an
+/// edge far longer than the rest lies in O(√n) cells.
 fn polygon_self_intersection(points: &[Point]) -> Option<(usize, usize)> {
     let n = points.len();
-    let orient = |a: Point, b: Point, c: Point| cross(sub(b, a), sub(c, a));
-    for i in 0..n {
-        let (a, b) = (points[i], points[(i + 1) % n]);
-        for j in (i + 1)..n {
-            if j == i + 1 || (i == 0 && j == n - 1) {
-                continue;
-            }
-            let (c, d) = (points[j], points[(j + 1) % n]);
-            let (d1, d2) = (orient(a, b, c), orient(a, b, d));
-            let (d3, d4) = (orient(c, d, a), orient(c, d, b));
-            let proper = d1 * d2 < 0.0 && d3 * d4 < 0.0;
-            let on = |p: Point, q: Point, r: Point, o: f64| {
-                o == 0.0
-                    && r[0] >= p[0].min(q[0])
-                    && r[0] <= p[0].max(q[0])
-                    && r[1] >= p[1].min(q[1])
-                    && r[1] <= p[1].max(q[1])
+    if n < 4 {
+        return None;
+    }
+    let edge = |i: usize| (points[i], points[(i + 1) % n]);
+    let (lo, hi) = bbox_of(points)?;
+    let side = (n as f64).sqrt().ceil().clamp(1.0, 4096.0) as usize;
+    let span = [
+        (hi[0] - lo[0]).max(f64::MIN_POSITIVE),
+        (hi[1] - lo[1]).max(f64::MIN_POSITIVE),
+    ];
+    let cell = |v: f64, d: usize| -> usize {
+        let t = (v - lo[d]) / span[d] * side as f64;
+        if t.is_finite() {
+            (t.max(0.0) as usize).min(side - 1)
+        } else {
+            0
+        }
+    };
+    // The cells of edge i: for each column its bounding box covers, the rows the segment
+    // spans within that column, widened by one.
+    let visit = |i: usize, f: &mut dyn FnMut(usize)| {
+        let (a, b) = edge(i);
+        let (cx0, cx1) = (cell(a[0].min(b[0]), 0), cell(a[0].max(b[0]), 0));
+        let dx = b[0] - a[0];
+        for cx in cx0..=cx1 {
+            let (ylo, yhi) = if cx0 == cx1 || dx == 0.0 {
+                (a[1].min(b[1]), a[1].max(b[1]))
+            } else {
+                let x_at = |c: usize| lo[0] + span[0] * c as f64 / side as f64;
+                let xa = x_at(cx).max(a[0].min(b[0]));
+                let xb = x_at(cx + 1).min(a[0].max(b[0]));
+                let y_of = |x: f64| a[1] + (b[1] - a[1]) * ((x - a[0]) / dx).clamp(0.0, 1.0);
+                let (ya, yb) = (y_of(xa), y_of(xb));
+                (ya.min(yb), ya.max(yb))
             };
-            if proper || on(a, b, c, d1) || on(a, b, d, d2) || on(c, d, a, d3) || on(c, d, b, d4) {
-                return Some((i, j));
+            let cy0 = cell(ylo, 1).saturating_sub(1);
+            let cy1 = (cell(yhi, 1) + 1).min(side - 1);
+            for cy in cy0..=cy1 {
+                f(cy * side + cx);
+            }
+        }
+    };
+    // Edge lists per cell, built by counting first (no vector per cell).
+    let mut start = vec![0usize; side * side + 1];
+    for i in 0..n {
+        visit(i, &mut |c| start[c + 1] += 1);
+    }
+    for c in 0..side * side {
+        start[c + 1] += start[c];
+    }
+    let mut fill = start.clone();
+    let mut members = vec![0u32; start[side * side]];
+    for i in 0..n {
+        visit(i, &mut |c| {
+            members[fill[c]] = i as u32;
+            fill[c] += 1;
+        });
+    }
+    let mut best: Option<(usize, usize)> = None;
+    for c in 0..side * side {
+        let list = &members[start[c]..start[c + 1]];
+        for (x, &i) in list.iter().enumerate() {
+            for &j in &list[x + 1..] {
+                let (i, j) = if i < j {
+                    (i as usize, j as usize)
+                } else {
+                    (j as usize, i as usize)
+                };
+                if best.is_some_and(|b| (i, j) >= b) {
+                    continue;
+                }
+                if edges_meet(points, i, j) {
+                    best = Some((i, j));
+                }
             }
         }
     }
-    None
+    best
+}
+
+/// Do the non-adjacent edges i < j of the closed polygon `points` touch or cross? (Adjacent
+/// edges, which share a point by construction, never count.)
+fn edges_meet(points: &[Point], i: usize, j: usize) -> bool {
+    let n = points.len();
+    if j == i + 1 || (i == 0 && j == n - 1) {
+        return false;
+    }
+    let orient = |a: Point, b: Point, c: Point| cross(sub(b, a), sub(c, a));
+    let (a, b) = (points[i], points[(i + 1) % n]);
+    let (c, d) = (points[j], points[(j + 1) % n]);
+    let (d1, d2) = (orient(a, b, c), orient(a, b, d));
+    let (d3, d4) = (orient(c, d, a), orient(c, d, b));
+    let proper = d1 * d2 < 0.0 && d3 * d4 < 0.0;
+    let on = |p: Point, q: Point, r: Point, o: f64| {
+        o == 0.0
+            && r[0] >= p[0].min(q[0])
+            && r[0] <= p[0].max(q[0])
+            && r[1] >= p[1].min(q[1])
+            && r[1] <= p[1].max(q[1])
+    };
+    proper || on(a, b, c, d1) || on(a, b, d, d2) || on(c, d, a, d3) || on(c, d, b, d4)
 }
 
 /// One sample of a wall for the wall-shear quadrature: midpoint rule on a short piece of exact
@@ -831,6 +1054,21 @@ impl Shape {
                 })?;
             }
         }
+        let scale = self.scale();
+        for (list, label) in [(&self.regions, "region"), (&self.holes, "hole")] {
+            for (k, p) in list.iter().enumerate() {
+                let t = p.thickness();
+                if t < MIN_RELATIVE_THICKNESS * scale {
+                    return Err(Error::geometry(format!(
+                        "{label} {} ({}) is {t:.3e} m thick, less than {MIN_RELATIVE_THICKNESS:e} \
+                         of the cross-section ({scale:.3e} m across): no grid canalis can solve \
+                         resolves it",
+                        k + 1,
+                        p.kind()
+                    )));
+                }
+            }
+        }
         Ok(())
     }
 
@@ -925,6 +1163,11 @@ impl Shape {
     pub fn walls(&self, spacing: f64) -> Walls {
         let prims: Vec<&Primitive> = self.primitives().collect();
         let eps = 1e-9 * self.scale();
+        // The inside and near-wall tests below run dozens of times per wall sample: through an
+        // index they cost O(1) each for many holes or a polygon of many points (every
+        // primitive and every edge scanned made 10⁴ points take 95 s). Same answers as the
+        // plain tests, bit for bit.
+        let index = ShapeIndex::new(self, 4.0 * eps);
         let mut walls = Walls::default();
         for (pi, prim) in prims.iter().enumerate() {
             let label = if pi < self.regions.len() {
@@ -947,11 +1190,11 @@ impl Shape {
                         return 0;
                     }
                     let n_out = [d[1] / len, -d[0] / len]; // right of a CCW tangent = outward
-                    if prims[..pi].iter().any(|q| q.near_boundary(p, 4.0 * eps)) {
+                    if index.near_boundary_before(pi, p, 4.0 * eps) {
                         return 0;
                     }
-                    let fin = self.contains(sub(p, scale(n_out, eps)));
-                    let fout = self.contains(add(p, scale(n_out, eps)));
+                    let fin = index.contains(sub(p, scale(n_out, eps)));
+                    let fout = index.contains(add(p, scale(n_out, eps)));
                     match (fin, fout) {
                         (true, false) => 1,
                         (false, true) => -1,
@@ -1038,6 +1281,255 @@ impl Shape {
             }
         }
         walls
+    }
+}
+
+/// Edges of a polygon by horizontal slabs: the inside test (even–odd, as
+/// [`Primitive::contains`]) and the near-wall test (as [`Primitive::near_boundary`]) look only
+/// at the edges of the slabs around the point, with the same per-edge arithmetic, so they give
+/// the same answers as the plain tests.
+struct Slabs<'a> {
+    points: &'a [Point],
+    y0: f64,
+    per_y: f64,
+    count: usize,
+    start: Vec<usize>,
+    /// Edge i joins points[i] and points[i − 1] (cyclically), as in the plain inside test.
+    edges: Vec<u32>,
+}
+
+impl<'a> Slabs<'a> {
+    fn new(points: &'a [Point]) -> Slabs<'a> {
+        let n = points.len();
+        let (lo, hi) = bbox_of(points).unwrap_or(([0.0; 2], [0.0; 2]));
+        let count = (n / 4).clamp(1, 1 << 16);
+        let per_y = count as f64 / (hi[1] - lo[1]).max(f64::MIN_POSITIVE);
+        let mut slabs = Slabs {
+            points,
+            y0: lo[1],
+            per_y,
+            count,
+            start: vec![0; count + 1],
+            edges: Vec::new(),
+        };
+        let range = |s: &Slabs, i: usize| {
+            let (a, b) = (points[i], points[(i + n - 1) % n]);
+            (s.slab(a[1].min(b[1])), s.slab(a[1].max(b[1])))
+        };
+        for i in 0..n {
+            let (s0, s1) = range(&slabs, i);
+            for s in s0..=s1 {
+                slabs.start[s + 1] += 1;
+            }
+        }
+        for s in 0..count {
+            slabs.start[s + 1] += slabs.start[s];
+        }
+        let mut fill = slabs.start.clone();
+        slabs.edges = vec![0; slabs.start[count]];
+        for i in 0..n {
+            let (s0, s1) = range(&slabs, i);
+            for f in &mut fill[s0..=s1] {
+                slabs.edges[*f] = i as u32;
+                *f += 1;
+            }
+        }
+        slabs
+    }
+
+    fn slab(&self, y: f64) -> usize {
+        let t = (y - self.y0) * self.per_y;
+        if t.is_finite() {
+            (t.max(0.0) as usize).min(self.count - 1)
+        } else {
+            0
+        }
+    }
+
+    fn contains(&self, p: Point) -> bool {
+        let n = self.points.len();
+        let s = self.slab(p[1]);
+        let mut inside = false;
+        for &i in &self.edges[self.start[s]..self.start[s + 1]] {
+            let i = i as usize;
+            let (a, b) = (self.points[i], self.points[(i + n - 1) % n]);
+            if (a[1] > p[1]) != (b[1] > p[1]) {
+                let x = a[0] + (p[1] - a[1]) * (b[0] - a[0]) / (b[1] - a[1]);
+                if p[0] < x {
+                    inside = !inside;
+                }
+            }
+        }
+        inside
+    }
+
+    fn near_boundary(&self, p: Point, tol: f64) -> bool {
+        let n = self.points.len();
+        let (s0, s1) = (self.slab(p[1] - tol), self.slab(p[1] + tol));
+        self.edges[self.start[s0]..self.start[s1 + 1]]
+            .iter()
+            .any(|&i| {
+                let i = i as usize;
+                // Edge i of the slabs is the plain test's edge i − 1 (points[i − 1], points[i]).
+                let j = (i + n - 1) % n;
+                segment_distance(p, self.points[j], self.points[i]) <= tol
+            })
+    }
+}
+
+/// The primitives of a shape in the cells of a uniform grid over their bounding boxes (each
+/// box widened by a margin), with [`Slabs`] for polygons of many points: the inside and
+/// near-wall tests of [`Shape::walls`] in O(1) per point for ordinary shapes, with the
+/// answers of [`Shape::contains`] and [`Primitive::near_boundary`].
+struct ShapeIndex<'a> {
+    prims: Vec<&'a Primitive>,
+    regions: usize,
+    boxes: Vec<(Point, Point)>,
+    slabs: Vec<Option<Slabs<'a>>>,
+    lo: Point,
+    per: [f64; 2],
+    side: usize,
+    start: Vec<usize>,
+    members: Vec<u32>,
+}
+
+/// Polygons with more points than this get [`Slabs`].
+const SLAB_POINTS: usize = 64;
+
+impl<'a> ShapeIndex<'a> {
+    /// `tol`: the largest near-wall tolerance that will be asked.
+    fn new(shape: &'a Shape, tol: f64) -> ShapeIndex<'a> {
+        let prims: Vec<&Primitive> = shape.primitives().collect();
+        // Margins: the near-wall tolerance, and a hundredth of the box (a rounded rectangle's
+        // box comes from points sampled on its arcs, which may fall short of the true extent).
+        let boxes: Vec<(Point, Point)> = prims
+            .iter()
+            .map(|p| {
+                let (lo, hi) = p.bbox();
+                let m = 2.0 * tol + 0.01 * (hi[0] - lo[0]).max(hi[1] - lo[1]);
+                ([lo[0] - m, lo[1] - m], [hi[0] + m, hi[1] + m])
+            })
+            .collect();
+        let slabs = prims
+            .iter()
+            .map(|p| match p {
+                Primitive::Polygon { points } if points.len() > SLAB_POINTS => {
+                    Some(Slabs::new(points))
+                }
+                _ => None,
+            })
+            .collect();
+        let mut lo = [f64::INFINITY; 2];
+        let mut hi = [f64::NEG_INFINITY; 2];
+        for (a, b) in &boxes {
+            for d in 0..2 {
+                lo[d] = lo[d].min(a[d]);
+                hi[d] = hi[d].max(b[d]);
+            }
+        }
+        let side = ((prims.len() as f64).sqrt().ceil() as usize).clamp(1, 1024);
+        let per = [
+            side as f64 / (hi[0] - lo[0]).max(f64::MIN_POSITIVE),
+            side as f64 / (hi[1] - lo[1]).max(f64::MIN_POSITIVE),
+        ];
+        let mut index = ShapeIndex {
+            regions: shape.regions.len(),
+            prims,
+            boxes,
+            slabs,
+            lo,
+            per,
+            side,
+            start: vec![0; side * side + 1],
+            members: Vec::new(),
+        };
+        let cells_of = |ix: &ShapeIndex, k: usize| {
+            let (a, b) = ix.boxes[k];
+            (
+                ix.cell(a[0], 0),
+                ix.cell(b[0], 0),
+                ix.cell(a[1], 1),
+                ix.cell(b[1], 1),
+            )
+        };
+        for k in 0..index.prims.len() {
+            let (x0, x1, y0, y1) = cells_of(&index, k);
+            for cy in y0..=y1 {
+                for cx in x0..=x1 {
+                    index.start[cy * side + cx + 1] += 1;
+                }
+            }
+        }
+        for c in 0..side * side {
+            index.start[c + 1] += index.start[c];
+        }
+        let mut fill = index.start.clone();
+        index.members = vec![0; index.start[side * side]];
+        for k in 0..index.prims.len() {
+            let (x0, x1, y0, y1) = cells_of(&index, k);
+            for cy in y0..=y1 {
+                for cx in x0..=x1 {
+                    let c = cy * side + cx;
+                    index.members[fill[c]] = k as u32;
+                    fill[c] += 1;
+                }
+            }
+        }
+        index
+    }
+
+    fn cell(&self, v: f64, d: usize) -> usize {
+        let t = (v - self.lo[d]) * self.per[d];
+        if t.is_finite() {
+            (t.max(0.0) as usize).min(self.side - 1)
+        } else {
+            0
+        }
+    }
+
+    /// The primitives whose widened box holds `p`, in primitive order.
+    fn near(&self, p: Point) -> impl Iterator<Item = usize> + '_ {
+        let c = self.cell(p[1], 1) * self.side + self.cell(p[0], 0);
+        self.members[self.start[c]..self.start[c + 1]]
+            .iter()
+            .map(|&k| k as usize)
+            .filter(move |&k| {
+                let (a, b) = self.boxes[k];
+                // Outside every box, or not a number: the plain tests would scan them all, and
+                // a point off every box is in none.
+                p[0] >= a[0] && p[0] <= b[0] && p[1] >= a[1] && p[1] <= b[1]
+            })
+    }
+
+    fn prim_contains(&self, k: usize, p: Point) -> bool {
+        match &self.slabs[k] {
+            Some(s) => s.contains(p),
+            None => self.prims[k].contains(p),
+        }
+    }
+
+    /// [`Shape::contains`].
+    fn contains(&self, p: Point) -> bool {
+        let mut region = false;
+        for k in self.near(p) {
+            if self.prim_contains(k, p) {
+                if k >= self.regions {
+                    return false;
+                }
+                region = true;
+            }
+        }
+        region
+    }
+
+    /// Is `p` within `tol` of the boundary of one of the first `count` primitives?
+    fn near_boundary_before(&self, count: usize, p: Point, tol: f64) -> bool {
+        self.near(p)
+            .filter(|&k| k < count)
+            .any(|k| match &self.slabs[k] {
+                Some(s) => s.near_boundary(p, tol),
+                None => self.prims[k].near_boundary(p, tol),
+            })
     }
 }
 

@@ -535,9 +535,11 @@ pub fn parse_shape_file(text: &str, origin: &str) -> Result<Shape> {
 
 /// Reads and parses a shape file from disk.
 pub fn load_shape_file(path: &Path) -> Result<Shape> {
-    let text = std::fs::read_to_string(path).map_err(|source| Error::Io {
-        path: path.to_path_buf(),
-        source,
+    let bytes = super::read_input_file(path, super::MAX_TEXT_INPUT_BYTES)?;
+    let text = String::from_utf8(bytes).map_err(|e| Error::ShapeParse {
+        origin: path.display().to_string(),
+        line: None,
+        message: format!("not a shape file: the text is not UTF-8 ({e})"),
     })?;
     parse_shape_file(&text, &path.display().to_string())
 }

@@ -61,10 +61,7 @@ const CHECK_SAMPLES: usize = 200;
 
 /// Reads an SVG drawing from disk; see [`parse_svg`].
 pub fn load_svg(path: &Path, scale: Option<f64>) -> Result<(Shape, Vec<String>)> {
-    let bytes = std::fs::read(path).map_err(|source| Error::Io {
-        path: path.to_path_buf(),
-        source,
-    })?;
+    let bytes = super::read_input_file(path, super::MAX_TEXT_INPUT_BYTES)?;
     let origin = path.display().to_string();
     if bytes.starts_with(&[0x1f, 0x8b]) {
         return Err(parse_err(
@@ -120,8 +117,16 @@ pub fn parse_svg(text: &str, origin: &str, scale: Option<f64>) -> Result<(Shape,
             "the <svg> element lacks the SVG namespace; add xmlns=\"http://www.w3.org/2000/svg\"",
         ));
     }
+    // Images carry no geometry, and nothing outside the document is ever read: no resources
+    // directory, and both resolvers of `<image href>` (a file name, a data URL) return nothing
+    // (usvg's defaults would read any file named there, or parse an embedded SVG).
     let options = usvg::Options {
         dpi: 96.0,
+        resources_dir: None,
+        image_href_resolver: usvg::ImageHrefResolver {
+            resolve_data: Box::new(|_, _, _| None),
+            resolve_string: Box::new(|_, _| None),
+        },
         ..Default::default()
     };
     let tree = usvg::Tree::from_xmltree(&doc, &options).map_err(|e| match e {

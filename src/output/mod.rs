@@ -71,19 +71,113 @@ pub fn targets(dir: &Path, entrance: bool) -> Vec<PathBuf> {
 /// Refuses when any target file exists and `force` is not set, naming the first one in the way
 /// (`entrance`: the run marches the thermal entrance, see [`targets`]).
 pub fn check_targets(dir: &Path, force: bool, entrance: bool) -> Result<()> {
-    if force {
-        return Ok(());
+    check_targets_protecting(dir, force, entrance, &[])
+}
+
+/// [`check_targets`], and refuses, even with `force`, a target that is one of `inputs` (the
+/// files the run reads: same file by device and inode, or by canonical path) or a directory.
+/// A symbolic link among the targets is never followed: without `force` it is in the way like
+/// any file; with `force` the link itself is replaced, not the file it points to.
+pub fn check_targets_protecting(
+    dir: &Path,
+    force: bool,
+    entrance: bool,
+    inputs: &[PathBuf],
+) -> Result<()> {
+    let refuse = |p: &Path, why: &str| Err(Error::param("--out", format!("{} {why}", p.display())));
+    for p in targets(dir, entrance) {
+        // symlink_metadata: the entry itself, never what a link points to.
+        let Ok(meta) = std::fs::symlink_metadata(&p) else {
+            continue;
+        };
+        if inputs.iter().any(|i| same_file(i, &p)) {
+            return refuse(
+                &p,
+                "is an input of this run; not overwritten, even with --force",
+            );
+        }
+        if meta.is_dir() {
+            return refuse(&p, "is a directory; not overwritten");
+        }
+        if !force {
+            let what = if meta.file_type().is_symlink() {
+                "already exists (a symbolic link, not followed)"
+            } else {
+                "already exists"
+            };
+            return refuse(
+                &p,
+                &format!("{what}; not overwritten (use --force to replace it)"),
+            );
+        }
     }
-    match targets(dir, entrance).into_iter().find(|p| p.exists()) {
-        Some(p) => Err(Error::param(
-            "--out",
-            format!(
-                "{} already exists; not overwritten (use --force to replace it)",
-                p.display()
-            ),
-        )),
-        None => Ok(()),
+    Ok(())
+}
+
+/// True when `input` and the directory entry `target` are the same file: the same device and
+/// inode (hard links included), or the same canonical path. A symbolic link at `target` is
+/// not the file it points to (it is replaced, not written through).
+fn same_file(input: &Path, target: &Path) -> bool {
+    let Ok(t) = std::fs::symlink_metadata(target) else {
+        return false;
+    };
+    if t.file_type().is_symlink() {
+        return false;
     }
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::MetadataExt;
+        if let Ok(i) = std::fs::metadata(input) {
+            if i.dev() == t.dev() && i.ino() == t.ino() {
+                return true;
+            }
+        }
+    }
+    match (std::fs::canonicalize(input), std::fs::canonicalize(target)) {
+        (Ok(a), Ok(b)) => a == b,
+        _ => false,
+    }
+}
+
+/// Writes `bytes` to `path` through a new temporary file in the same directory, renamed over
+/// `path`: the temporary file is created exclusively (never through an existing entry or
+/// link), and the rename replaces the entry `path` itself, so a symbolic link there is
+/// replaced, never followed, and a reader never sees a half-written file.
+fn write_replacing(path: &Path, bytes: &[u8]) -> Result<()> {
+    use std::io::Write;
+    let io = |source: std::io::Error| Error::Io {
+        path: path.to_path_buf(),
+        source,
+    };
+    let dir = path.parent().unwrap_or(Path::new("."));
+    let name = path
+        .file_name()
+        .map(|n| n.to_string_lossy().into_owned())
+        .unwrap_or_default();
+    let mut attempt = 0u32;
+    let (tmp, mut file) = loop {
+        let tmp = dir.join(format!(".{name}.{}.{attempt}.tmp", std::process::id()));
+        match std::fs::OpenOptions::new()
+            .write(true)
+            .create_new(true)
+            .open(&tmp)
+        {
+            Ok(f) => break (tmp, f),
+            Err(e) if e.kind() == std::io::ErrorKind::AlreadyExists && attempt < 100 => {
+                attempt += 1;
+            }
+            Err(e) => return Err(io(e)),
+        }
+    };
+    let written = file
+        .write_all(bytes)
+        .and_then(|_| file.sync_all())
+        .and_then(|_| std::fs::rename(&tmp, path));
+    if let Err(e) = written {
+        let _ = std::fs::remove_file(&tmp);
+        return Err(io(e));
+    }
+    Ok(())
 }
 
 fn check_width(width: u32) -> Result<()> {
@@ -109,9 +203,21 @@ pub fn check_options(opts: &OutputOptions) -> Result<()> {
 /// Nothing is written when any target exists and `opts.force` is not set; all files are
 /// rendered in memory first, so a failure while rendering leaves none behind either.
 pub fn write_all(outcome: &Outcome, dir: &Path, opts: &OutputOptions) -> Result<Vec<PathBuf>> {
+    write_all_protecting(outcome, dir, opts, &[])
+}
+
+/// [`write_all`], never replacing one of `inputs` ([`check_targets_protecting`]). Each file is
+/// written through a temporary file in `dir` and renamed into place; symbolic links in `dir`
+/// are never followed.
+pub fn write_all_protecting(
+    outcome: &Outcome,
+    dir: &Path,
+    opts: &OutputOptions,
+    inputs: &[PathBuf],
+) -> Result<Vec<PathBuf>> {
     check_width(opts.image_width)?;
     let marched = outcome.entrance.is_some();
-    check_targets(dir, opts.force, marched)?;
+    check_targets_protecting(dir, opts.force, marched, inputs)?;
     let scale = Scale::of(outcome);
     let json = serde_json::to_string_pretty(&report::json_report(outcome))
         .map_err(|e| Error::param("--out", format!("the report could not be serialised: {e}")))?
@@ -131,13 +237,13 @@ pub fn write_all(outcome: &Outcome, dir: &Path, opts: &OutputOptions) -> Result<
         path: dir.to_path_buf(),
         source,
     })?;
+    // Checked again now that the directory exists and just before writing (the solve may
+    // have taken a while).
+    check_targets_protecting(dir, opts.force, marched, inputs)?;
     let mut written = Vec::with_capacity(contents.len());
     for (path, bytes) in targets(dir, marched).into_iter().zip(contents) {
         let Some(bytes) = bytes else { continue };
-        std::fs::write(&path, bytes).map_err(|source| Error::Io {
-            path: path.clone(),
-            source,
-        })?;
+        write_replacing(&path, &bytes)?;
         written.push(path);
     }
     Ok(written)

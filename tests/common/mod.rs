@@ -162,6 +162,16 @@ impl Sandbox {
         name.to_string()
     }
 
+    /// The binary with `args`, to run in the sandbox, for tests that set up its standard
+    /// streams themselves.
+    pub fn command(&self, args: &[&str]) -> Command {
+        let mut c = Command::new(env!("CARGO_BIN_EXE_canalis"));
+        c.args(args)
+            .current_dir(self.dir.path())
+            .env("RUST_BACKTRACE", "0");
+        c
+    }
+
     /// Runs the binary with `args` in the sandbox.
     pub fn run(&self, args: &[&str]) -> Run {
         let out = Command::new(env!("CARGO_BIN_EXE_canalis"))
