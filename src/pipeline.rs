@@ -476,12 +476,7 @@ pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outc
     // The resolution check (issue 19) on the run's own grid, before any solve: a grid that
     // cannot resolve a passage or a wall is refined (default grid) or refused.
     let refined;
-    let t_check = Instant::now();
-    let checked = check_resolution(config)?;
-    if std::env::var_os("CANALIS_TIME_CHECK").is_some() {
-        eprintln!("check {:.4} s", t_check.elapsed().as_secs_f64());
-    }
-    let config = match checked {
+    let config = match check_resolution(config)? {
         None => config,
         Some((cells, note)) => {
             let mut c = config.clone();
@@ -775,17 +770,6 @@ fn check_resolution(config: &SolveConfig) -> Result<Option<(usize, String)>> {
         let classified = classify(domain, grid)?;
         let (label, count) = post::passage_labels(&classified);
         let res = measure(&classified, &label, count);
-        if std::env::var_os("CANALIS_DEBUG_RESOLUTION").is_some() {
-            let worst = res.passages.iter().map(|p| p.across).min();
-            eprintln!(
-                "resolution: cells {cells} h {:.3e} passages {} worst across {:?} slivers {} thinnest wall {:?}",
-                res.h,
-                res.passages.len(),
-                worst,
-                res.slivers().len(),
-                res.thinnest_wall.map(|t| t.thickness / res.h)
-            );
-        }
         // Needed refinement: passages to MIN_NODES_ACROSS + 1 nodes, walls to MIN_WALL_CELLS.
         let mut factor: f64 = 1.0;
         let mut feature = String::new();

@@ -2,7 +2,6 @@
 //! specks and both domains.
 #![no_main]
 use canalis::geometry::mask::{Mask, MaskMode, MaskOptions};
-use canalis::geometry::Domain;
 use canalis::input::mask_domain;
 use libfuzzer_sys::fuzz_target;
 
