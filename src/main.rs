@@ -552,27 +552,72 @@ fn inapplicable_options(a: &SolveArgs, kind: InputKind) -> Vec<String> {
         .collect()
 }
 
-/// A residual line on standard error that updates in place, shown only for solves that take
-/// longer than half a second.
+/// A progress line on standard error that updates in place: the run's current stage and its
+/// time, shown from one second on by a ticker thread (so that a long step with no solver
+/// iterations, such as loading a huge polygon, shows too), and the solver's residual while it
+/// iterates.
 struct Progress {
+    state: std::sync::Arc<ProgressState>,
+    ticker: Option<std::thread::JoinHandle<()>>,
+}
+
+struct ProgressState {
     start: std::time::Instant,
-    /// Seconds of the last line shown, as f64 bits (atomic: a monitor is shared with the
-    /// solver's worker thread).
-    last: std::sync::atomic::AtomicU64,
+    /// The current stage, and the solver's last iteration and residual in it (if any).
+    stage: std::sync::Mutex<(String, Option<(usize, f64)>)>,
     shown: std::sync::atomic::AtomicBool,
+    done: std::sync::atomic::AtomicBool,
+}
+
+impl ProgressState {
+    fn show(&self) {
+        use std::sync::atomic::Ordering::Relaxed;
+        let t = self.start.elapsed().as_secs_f64();
+        let (stage, it) = match self.stage.lock() {
+            Ok(g) => g.clone(),
+            Err(e) => e.into_inner().clone(),
+        };
+        let detail = it.map_or(String::new(), |(i, r)| {
+            format!(": iteration {i:>5}, relative residual {r:.2e}")
+        });
+        self.shown.store(true, Relaxed);
+        // A failed write to standard error is not worth stopping a run for.
+        let _ = write!(std::io::stderr(), "\r  {stage}{detail}, {t:.1} s          ");
+    }
 }
 
 impl Progress {
     fn new() -> Progress {
-        Progress {
+        let state = std::sync::Arc::new(ProgressState {
             start: std::time::Instant::now(),
-            last: std::sync::atomic::AtomicU64::new(0f64.to_bits()),
+            stage: std::sync::Mutex::new(("starting".to_string(), None)),
             shown: std::sync::atomic::AtomicBool::new(false),
-        }
+            done: std::sync::atomic::AtomicBool::new(false),
+        });
+        let s = state.clone();
+        let ticker = std::thread::Builder::new()
+            .name("progress".into())
+            .spawn(move || {
+                use std::sync::atomic::Ordering::Relaxed;
+                while !s.done.load(Relaxed) {
+                    std::thread::park_timeout(std::time::Duration::from_millis(250));
+                    if !s.done.load(Relaxed) && s.start.elapsed().as_secs_f64() > 1.0 {
+                        s.show();
+                    }
+                }
+            })
+            .ok();
+        Progress { state, ticker }
     }
 
-    fn finish(&self) {
-        if self.shown.load(std::sync::atomic::Ordering::Relaxed) {
+    fn finish(mut self) {
+        use std::sync::atomic::Ordering::Relaxed;
+        self.state.done.store(true, Relaxed);
+        if let Some(t) = self.ticker.take() {
+            t.thread().unpark();
+            let _ = t.join();
+        }
+        if self.state.shown.load(Relaxed) {
             let _ = writeln!(std::io::stderr());
         }
     }
@@ -580,16 +625,14 @@ impl Progress {
 
 impl canalis::solver::Monitor for Progress {
     fn iteration(&self, iteration: usize, relative_residual: f64) {
-        use std::sync::atomic::Ordering::Relaxed;
-        let t = self.start.elapsed().as_secs_f64();
-        if t > 0.5 && t - f64::from_bits(self.last.load(Relaxed)) > 0.2 {
-            self.last.store(t.to_bits(), Relaxed);
-            self.shown.store(true, Relaxed);
-            // A failed write to standard error is not worth stopping a solve for.
-            let _ = write!(
-                std::io::stderr(),
-                "\r  solving: iteration {iteration:>5}, relative residual {relative_residual:.2e}, {t:.1} s   "
-            );
+        if let Ok(mut g) = self.state.stage.lock() {
+            g.1 = Some((iteration, relative_residual));
+        }
+    }
+
+    fn stage(&self, name: &str) {
+        if let Ok(mut g) = self.state.stage.lock() {
+            *g = (name.to_string(), None);
         }
     }
 }

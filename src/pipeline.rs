@@ -105,9 +105,11 @@ fn solve_unit_on_worker(
 ) -> Result<UnitSolution> {
     let (method, params) = (options.method, &options.cg);
     let t0 = Instant::now();
+    monitor.stage("classifying the grid");
     let classified = classify(domain, grid)?;
     let t1 = Instant::now();
     // The flow problem −∇²ũ = 1, ũ = 0 on the walls: numbering, operator and preconditioner.
+    monitor.stage("solving the flow");
     let mut system = System::new(Problem::laplace(&classified), method)?;
     let setup = system.timings();
     let t_setup = Instant::now();
@@ -156,6 +158,7 @@ fn solve_unit_on_worker(
     let passages = post::passages(&classified, numbering, &u, &walls);
     let t4 = Instant::now();
     let heat = if options.heat {
+        monitor.stage("solving the heat transfer (Nu_H1, Nu_T)");
         Some(heat_transfer(&mut system, &u, &figures)?)
     } else {
         None
@@ -476,6 +479,7 @@ pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outc
     // The resolution check (issue 19) on the run's own grid, before any solve: a grid that
     // cannot resolve a passage or a wall is refined (default grid) or refused.
     let refined;
+    monitor.stage("checking the grid's resolution");
     let config = match check_resolution(config)? {
         None => config,
         Some((cells, note)) => {
@@ -519,6 +523,7 @@ pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outc
         (None, None) => None,
     };
     if let Some(options) = entrance {
+        monitor.stage("marching the thermal entrance");
         outcome.entrance = Some(run_entrance(config, &outcome, options, monitor)?);
     }
     if let (Some(spec), Some(op), Some(point), Some(e)) = (
@@ -589,6 +594,7 @@ fn entrance_uncertainty(
         walls: &unit.walls,
         shear: &unit.shear,
     };
+    monitor.stage("estimating the thermal entrance's numerical error");
     let coarse = thermal_entrance(
         &flow,
         None,
@@ -709,6 +715,7 @@ fn run_entrance(
         walls: &unit.walls,
         shear: &unit.shear,
     };
+    monitor.stage("marching the thermal entrance");
     let thermal = thermal_entrance(
         &flow,
         fully_developed.as_deref(),
@@ -989,6 +996,7 @@ fn check_physical_bounds(unit: &UnitSolution, slivers: &[u32]) -> Result<()> {
 /// operating point.
 pub(crate) fn run_once(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outcome> {
     let start = Instant::now();
+    monitor.stage("loading the cross-section");
     let loaded = config.input.load()?;
     let (name, domain, wall_kind) = (loaded.name, loaded.domain, loaded.wall_kind);
     let mut warnings = loaded.warnings;

@@ -94,6 +94,9 @@ impl LinearOperator for CsMat<f64> {
 /// residual (cheap; the true residual is checked at the end).
 pub trait Monitor: Sync {
     fn iteration(&self, iteration: usize, relative_residual: f64);
+    /// A new stage of a run begins (loading, the resolution check, the solve, the entrance
+    /// march, …), for a progress display; by default nothing.
+    fn stage(&self, _name: &str) {}
 }
 
 /// A monitor that does nothing.
