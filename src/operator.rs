@@ -105,6 +105,9 @@ pub struct GridOperator {
     /// The diagonal of a node with four regular unit links, when every such node has the same
     /// one (4 for the plain Laplacian); None when it varies (a shift that varies per node).
     interior_diag: Option<f64>,
+    /// The mean of c·h² over the fluid nodes (0 without a shift): how far the shift dominates
+    /// the Laplacian, which the multigrid uses to stop coarsening (`Multigrid::new`).
+    pub mean_shift: f64,
 }
 
 impl GridOperator {
@@ -188,6 +191,14 @@ impl GridOperator {
         } else {
             None
         };
+        let mean_shift = match problem.shift.uniform() {
+            Some(v) => v * c.grid.h * c.grid.h,
+            None if num.is_empty() => 0.0,
+            None => {
+                let h2 = c.grid.h * c.grid.h;
+                (0..num.len()).map(|q| problem.shift.at(q)).sum::<f64>() * h2 / num.len() as f64
+            }
+        };
         GridOperator {
             nx,
             ny: c.grid.ny,
@@ -199,6 +210,7 @@ impl GridOperator {
             spans,
             regular_diag,
             interior_diag,
+            mean_shift,
         }
     }
 

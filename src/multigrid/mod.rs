@@ -53,6 +53,11 @@ use smooth::{residual_row_coarse, smooth_coarse};
 use std::sync::Mutex;
 use transfer::{prepare_tmp, prolong_add, restrict_columns, restrict_rows};
 
+/// c·H² (the shift against a level's spacing H) from which a level needs no coarser one: the
+/// shift then outweighs the Laplacian's diagonal (4) fourfold, and Gauss–Seidel reduces every
+/// error component by about that factor per sweep.
+const SHIFT_DOMINATES: f64 = 16.0;
+
 /// Coarsest levels at or below this many active nodes are solved directly.
 const DIRECT_LIMIT: usize = 400;
 
@@ -121,6 +126,7 @@ impl Multigrid {
             });
         let fine_count = fine.diag.par_iter().filter(|&&d| d != 0.0).count();
         let mut levels: Vec<Level> = Vec::new();
+        let mut shift_stop = false;
         loop {
             let (nx, ny, count) = match levels.last() {
                 None => (fine.nx, fine.ny, fine_count),
@@ -129,13 +135,24 @@ impl Multigrid {
             if count <= DIRECT_LIMIT || coarse_size(nx) >= nx || coarse_size(ny) >= ny {
                 break;
             }
+            // A shift c with c·H² ≥ SHIFT_DOMINATES on the next level (H its spacing) damps
+            // every error component there by the smoother alone: no coarser level is needed,
+            // and the last one is smoothed instead of solved.
+            if fine.mean_shift * 4f64.powi(levels.len() as i32 + 1) >= SHIFT_DOMINATES {
+                shift_stop = true;
+                break;
+            }
             let next = match levels.last() {
                 None => coarsen(&fine, Some(&fine_scale)),
                 Some(l) => coarsen(l, None),
             };
             levels.push(next);
         }
-        let coarsest = levels.last().map(Coarsest::new).transpose()?;
+        let coarsest = if shift_stop {
+            None
+        } else {
+            levels.last().map(Coarsest::new).transpose()?
+        };
         let scratch = Scratch {
             halo: Vec::new(),
             tmp: Vec::with_capacity(fine.diag.len() / 2 + 4 * fine.ny),
@@ -169,8 +186,13 @@ impl Multigrid {
     fn cycle(&self, l: usize, s: &mut Scratch) {
         let lev = &self.levels[l];
         if l + 1 == self.levels.len() {
-            if let Some(coarsest) = &self.coarsest {
-                coarsest.solve(&s.b[l], &mut s.x[l]);
+            match &self.coarsest {
+                Some(coarsest) => coarsest.solve(&s.b[l], &mut s.x[l]),
+                // A level the shift dominates: one symmetric sweep pair from zero.
+                None => {
+                    smooth_coarse(lev, &s.b[l], &mut s.x[l], true);
+                    smooth_coarse(lev, &s.b[l], &mut s.x[l], false);
+                }
             }
             return;
         }
