@@ -398,13 +398,14 @@ pub fn thermal_entrance(
         .zip(&w)
         .map(|(a, b)| a * b)
         .collect();
-    let per_passage = |f: &dyn Fn(usize) -> f64| -> Vec<f64> {
+    // Σ over each passage's unknowns of f(q) (generic, so the closure is inlined).
+    fn sum_by<F: Fn(usize) -> f64>(pass: &[usize], np: usize, f: F) -> Vec<f64> {
         let mut s = vec![0.0; np];
-        for q in 0..n {
-            s[pass[q]] += f(q);
+        for (q, &p) in pass.iter().enumerate() {
+            s[p] += f(q);
         }
         s
-    };
+    }
     // Cut links per unknown (the discrete wall flux of the T field).
     let cut_weight: Vec<f64> = num
         .nodes()
@@ -431,6 +432,10 @@ pub fn thermal_entrance(
     let mut rate_t: Vec<Vec<f64>> = vec![vec![0.0; n]; 3];
     let mut rate_h: Vec<Vec<f64>> = vec![vec![0.0; n]; 3];
     let mut wall = vec![0.0; np];
+    // The H1 equation's source g = −4w/D², the T equation's none, and the stage source.
+    let g_h: Vec<f64> = (0..n).map(|q| -4.0 * w[q] / d2[pass[q]]).collect();
+    let zeros = vec![0.0; n];
+    let mut f = Vec::with_capacity(n);
     // Φ's right-hand side: the wall terms of walls at 1 (no source; the shift does not enter).
     let phi_rhs = Problem {
         walls: WallConditions::all(WallCondition::Dirichlet(1.0)),
@@ -478,41 +483,47 @@ pub fn thermal_entrance(
         setup_seconds += system.timings().assembly + system.timings().setup;
         iterations += system.solve(&phi_rhs, &mut phi, &cg)?.iterations;
         solves += 1;
-        let phi_b = per_passage(&|q| qw[q] * phi[q]);
+        let phi_b = sum_by(&pass, np, |q| qw[q] * phi[q]);
         for i in 0..3 {
             // Source of stage i: c·yⁿ + (1/γ)·Σ_(j<i) a_ij·F_j + g, F_j = −K·Y_j + g the rate of
-            // stage j (M·y′ = −K·y + g).
-            let source = |y: &[f64], rates: &[Vec<f64>], g: &dyn Fn(usize) -> f64| -> Vec<f64> {
-                (0..n)
-                    .map(|q| {
-                        let mut f = shift[q] * y[q] + g(q);
-                        for (j, fj) in rates.iter().enumerate().take(i) {
-                            f += SDIRK.a[i][j] / SDIRK.gamma * fj[q];
-                        }
-                        f
-                    })
-                    .collect()
+            // stage j (M·y′ = −K·y + g); into `out`, element by element in that order.
+            let source = |y: &[f64], rates: &[Vec<f64>], g: &[f64], out: &mut Vec<f64>| {
+                out.clear();
+                out.extend(shift.iter().zip(y).zip(g).map(|((c, y), g)| c * y + g));
+                for (j, fj) in rates.iter().enumerate().take(i) {
+                    let a = SDIRK.a[i][j] / SDIRK.gamma;
+                    for (o, f) in out.iter_mut().zip(fj) {
+                        *o += a * f;
+                    }
+                }
             };
             // F_i = −K·Y_i + g = c·Y_i − f + g (the stage equation c·Y + K·Y = f).
-            let rate = |f: &[f64], y: &[f64], g: &dyn Fn(usize) -> f64| -> Vec<f64> {
-                (0..n).map(|q| shift[q] * y[q] - f[q] + g(q)).collect()
+            let rate = |f: &[f64], y: &[f64], g: &[f64], out: &mut Vec<f64>| {
+                out.clear();
+                out.extend(
+                    shift
+                        .iter()
+                        .zip(y)
+                        .zip(f)
+                        .zip(g)
+                        .map(|(((c, y), f), g)| c * y - f + g),
+                );
             };
             // T: no source.
-            let f = source(&theta, &rate_t, &|_| 0.0);
-            let rhs = system.rhs(&Field::Unknowns(f.clone()));
+            source(&theta, &rate_t, &zeros, &mut f);
+            let rhs = system.problem().rhs_from(&num, &f);
             let mut y = if i == 0 {
                 theta.clone()
             } else {
                 stages_t[i - 1].clone()
             };
             iterations += system.solve(&rhs, &mut y, &cg)?.iterations;
-            rate_t[i] = rate(&f, &y, &|_| 0.0);
+            rate(&f, &y, &zeros, &mut rate_t[i]);
             stages_t[i] = y;
             // H1 in Ψ = Θ − 4x*: (w/D²)·∂Ψ/∂x* = ∇²Ψ − 4w/D², the bulk Ψ_b = 0. The particular
             // solution (walls at 0), then the wall value Ψ_w from the bulk.
-            let g = |q: usize| -4.0 * w[q] / d2[pass[q]];
-            let f = source(&psi, &rate_h, &g);
-            let rhs = system.rhs(&Field::Unknowns(f.clone()));
+            source(&psi, &rate_h, &g_h, &mut f);
+            let rhs = system.problem().rhs_from(&num, &f);
             let mut y = if i == 0 {
                 psi.clone()
             } else {
@@ -524,7 +535,7 @@ pub fn thermal_entrance(
             }
             iterations += system.solve(&rhs, &mut y, &cg)?.iterations;
             solves += 2;
-            let part_b = per_passage(&|q| qw[q] * y[q]);
+            let part_b = sum_by(&pass, np, |q| qw[q] * y[q]);
             for p in 0..np {
                 wall[p] = -part_b[p] / phi_b[p];
             }
@@ -533,15 +544,15 @@ pub fn thermal_entrance(
             }
             // The rate with the wall value: the relation holds for the full stage value too (Φ
             // solves the homogeneous stage equation with its wall terms).
-            rate_h[i] = rate(&f, &y, &g);
+            rate(&f, &y, &g_h, &mut rate_h[i]);
             stages_h[i] = y;
         }
         // Stiffly accurate: the step's value is the last stage.
         theta.clone_from(&stages_t[2]);
         psi.clone_from(&stages_h[2]);
         // Local Nusselt numbers.
-        let flux = per_passage(&|q| theta[q] * cut_weight[q]);
-        let bulk = per_passage(&|q| w[q] * theta[q]);
+        let flux = sum_by(&pass, np, |q| theta[q] * cut_weight[q]);
+        let bulk = sum_by(&pass, np, |q| w[q] * theta[q]);
         let mut settled = x > SETTLED_FROM;
         largest_nu_t = 0.0f64;
         for (p, curve) in curves.iter_mut().enumerate() {

@@ -343,6 +343,19 @@ impl<'a> Problem<'a> {
             .collect()
     }
 
+    /// [`Problem::rhs`] for a source given per unknown as a slice (no `Field` to build).
+    pub fn rhs_from(&self, num: &Numbering, source: &[f64]) -> Vec<f64> {
+        use rayon::prelude::*;
+        let h2 = self.classified.grid.h * self.classified.grid.h;
+        if self.walls.all_no_slip() {
+            return source.par_iter().map(|v| h2 * v).collect();
+        }
+        (0..num.len())
+            .into_par_iter()
+            .map(|q| h2 * source[q] + self.stencil(num.node(q), q).wall_rhs)
+            .collect()
+    }
+
     /// The deferred correction of a Dirichlet link's ghost for the curvature b = ∂²u/∂s² along
     /// it at the wall (see `post::add_wall_correction`): the quadratic ghost exceeds the
     /// linear one by ½·b·(1 − θ)·h², which the row's link coefficient K carries to the
