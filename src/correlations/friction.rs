@@ -342,19 +342,30 @@ impl Duct {
                 )));
             }
         }
-        for _ in 0..200 {
-            let mid = lo.sqrt() * hi.sqrt(); // geometric mean, without overflow
-            if excess(mid)? < 0.0 {
-                lo = mid;
-            } else {
-                hi = mid;
-            }
-            if hi - lo <= 1e-13 * hi {
-                break;
-            }
-        }
-        Ok(0.5 * (lo + hi))
+        geometric_bisection(lo, hi, excess)
     }
+}
+
+/// The root of an increasing `f` between `lo` (f < 0) and `hi` (f ≥ 0), by bisection at the
+/// geometric mean (bisection on the logarithm, without overflow) to a relative 1e-13, at most
+/// 200 steps; the midpoint of the last bracket.
+pub(crate) fn geometric_bisection(
+    mut lo: f64,
+    mut hi: f64,
+    f: impl Fn(f64) -> Result<f64>,
+) -> Result<f64> {
+    for _ in 0..200 {
+        let mid = lo.sqrt() * hi.sqrt();
+        if f(mid)? < 0.0 {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+        if hi - lo <= 1e-13 * hi {
+            break;
+        }
+    }
+    Ok(0.5 * (lo + hi))
 }
 
 /// Laminar-equivalent diameter ratio D_le/D_h = 64/(4·f·Re) of a cross-section with Fanning

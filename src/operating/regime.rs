@@ -252,18 +252,8 @@ pub fn split_flow(
             )));
         }
     }
-    for _ in 0..200 {
-        let mid = lo.sqrt() * hi.sqrt();
-        if total(mid)? < q {
-            lo = mid;
-        } else {
-            hi = mid;
-        }
-        if hi - lo <= 1e-13 * hi {
-            break;
-        }
-    }
-    Ok(0.5 * (lo + hi))
+    // total(g) < q exactly when total(g) − q < 0 (the sign of a difference is exact).
+    crate::correlations::friction::geometric_bisection(lo, hi, |g| Ok(total(g)? - q))
 }
 
 /// The order of regimes away from laminar flow.
