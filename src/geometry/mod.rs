@@ -915,12 +915,24 @@ fn edges_meet(points: &[Point], i: usize, j: usize) -> bool {
     if j == i + 1 || (i == 0 && j == n - 1) {
         return false;
     }
-    let orient = |a: Point, b: Point, c: Point| cross(sub(b, a), sub(c, a));
-    let (a, b) = (points[i], points[(i + 1) % n]);
-    let (c, d) = (points[j], points[(j + 1) % n]);
+    segments_meet(
+        points[i],
+        points[(i + 1) % n],
+        points[j],
+        points[(j + 1) % n],
+    )
+}
+
+/// Do the closed segments ab and cd touch or cross? Orientation tests compared by sign (a
+/// product of two orientations could underflow to zero or overflow).
+pub(crate) fn segments_meet(a: Point, b: Point, c: Point, d: Point) -> bool {
+    let orient = |p: Point, q: Point, r: Point| cross(sub(q, p), sub(r, p));
     let (d1, d2) = (orient(a, b, c), orient(a, b, d));
     let (d3, d4) = (orient(c, d, a), orient(c, d, b));
-    let proper = d1 * d2 < 0.0 && d3 * d4 < 0.0;
+    let opposite = |u: f64, v: f64| (u > 0.0 && v < 0.0) || (u < 0.0 && v > 0.0);
+    if opposite(d1, d2) && opposite(d3, d4) {
+        return true;
+    }
     let on = |p: Point, q: Point, r: Point, o: f64| {
         o == 0.0
             && r[0] >= p[0].min(q[0])
@@ -928,7 +940,7 @@ fn edges_meet(points: &[Point], i: usize, j: usize) -> bool {
             && r[1] >= p[1].min(q[1])
             && r[1] <= p[1].max(q[1])
     };
-    proper || on(a, b, c, d1) || on(a, b, d, d2) || on(c, d, a, d3) || on(c, d, b, d4)
+    on(a, b, c, d1) || on(a, b, d, d2) || on(c, d, a, d3) || on(c, d, b, d4)
 }
 
 /// One sample of a wall for the wall-shear quadrature: midpoint rule on a short piece of exact

@@ -88,7 +88,7 @@
 //! length of the polylines and Σ area their enclosed area, as for [`super::Shape::walls`].
 
 use super::mask::Mask;
-use super::{Crossing, Domain, Point, WallSample, Walls};
+use super::{segments_meet, Crossing, Domain, Point, WallSample, Walls};
 
 /// Step of the Laplacian smoothing, v ← v + λ·L(v).
 const LAMBDA: f64 = 0.5;
@@ -747,28 +747,6 @@ fn crossing_contours(contours: &[Vec<Point>]) -> Vec<usize> {
     bad.sort_unstable();
     bad.dedup();
     bad
-}
-
-/// Do the closed segments ab and cd touch or cross?
-fn segments_meet(a: Point, b: Point, c: Point, d: Point) -> bool {
-    let orient = |p: Point, q: Point, r: Point| {
-        (q[0] - p[0]) * (r[1] - p[1]) - (q[1] - p[1]) * (r[0] - p[0])
-    };
-    let (d1, d2) = (orient(a, b, c), orient(a, b, d));
-    let (d3, d4) = (orient(c, d, a), orient(c, d, b));
-    if ((d1 > 0.0 && d2 < 0.0) || (d1 < 0.0 && d2 > 0.0))
-        && ((d3 > 0.0 && d4 < 0.0) || (d3 < 0.0 && d4 > 0.0))
-    {
-        return true;
-    }
-    let on = |p: Point, q: Point, r: Point, o: f64| {
-        o == 0.0
-            && r[0] >= p[0].min(q[0])
-            && r[0] <= p[0].max(q[0])
-            && r[1] >= p[1].min(q[1])
-            && r[1] <= p[1].max(q[1])
-    };
-    on(a, b, c, d1) || on(a, b, d, d2) || on(c, d, a, d3) || on(c, d, b, d4)
 }
 
 #[cfg(test)]
