@@ -264,6 +264,20 @@ pub struct LengthResult {
     pub hydraulic_resistance_pa_s_m3: f64,
 }
 
+impl LengthResult {
+    /// The results over a length `l` (m) at the gradient `g` (Pa/m) and flow rate `q` (m³/s),
+    /// with the entrance lengths `lh` and `lt` (m): Δp = G·L, Δp/Q.
+    pub fn new(l: f64, g: f64, q: f64, lh: f64, lt: Option<f64>) -> LengthResult {
+        LengthResult {
+            length_m: l,
+            pressure_drop_pa: g * l,
+            entrance_length_hydrodynamic_m: lh,
+            entrance_length_thermal_m: lt,
+            hydraulic_resistance_pa_s_m3: g * l / q,
+        }
+    }
+}
+
 /// Scales the unit solution to an operating point. In laminar flow (every passage below the
 /// lower threshold at the laminar gradient): u = (G/μ)·ũ, Q = (G/μ)·I, τ = G·τ̃. Otherwise the
 /// pressure gradient (or flow rate), mean wall shear and film coefficients come from the
@@ -349,13 +363,7 @@ pub fn operating_point(
                 ),
                 _ => {}
             }
-            Some(LengthResult {
-                length_m: l,
-                pressure_drop_pa: g * l,
-                entrance_length_hydrodynamic_m: lh,
-                entrance_length_thermal_m: lt,
-                hydraulic_resistance_pa_s_m3: g * l / q,
-            })
+            Some(LengthResult::new(l, g, q, lh, lt))
         }
     };
     let passages = regime::laminar_passages(passages, &channels, g, &fluid, spec.length, warnings);

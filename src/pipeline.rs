@@ -553,6 +553,17 @@ pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outc
     Ok(outcome)
 }
 
+/// The fully developed flow of a unit solution, as the entrance march takes it.
+fn flow_of(unit: &UnitSolution) -> Flow<'_> {
+    Flow {
+        classified: &unit.classified,
+        u: &unit.u,
+        passages: &unit.passages,
+        walls: &unit.walls,
+        shear: &unit.shear,
+    }
+}
+
 /// Longer march steps of the coarse march of [`entrance_uncertainty`].
 const ENTRANCE_CHEAP_STEP_RATIO: f64 = 2.0;
 
@@ -587,13 +598,7 @@ fn entrance_uncertainty(
     }
     let coarse_run = run_once(&flow_config, monitor)?;
     let unit = &coarse_run.unit;
-    let flow = Flow {
-        classified: &unit.classified,
-        u: &unit.u,
-        passages: &unit.passages,
-        walls: &unit.walls,
-        shear: &unit.shear,
-    };
+    let flow = flow_of(unit);
     monitor.stage("estimating the thermal entrance's numerical error");
     let coarse = thermal_entrance(
         &flow,
@@ -708,13 +713,7 @@ fn run_entrance(
         (Some(h), 1) => Some(vec![(h.nusselt_t, h.nusselt_h1)]),
         _ => None,
     };
-    let flow = Flow {
-        classified: &unit.classified,
-        u: &unit.u,
-        passages: &unit.passages,
-        walls: &unit.walls,
-        shear: &unit.shear,
-    };
+    let flow = flow_of(unit);
     monitor.stage("marching the thermal entrance");
     let thermal = thermal_entrance(
         &flow,

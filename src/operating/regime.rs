@@ -562,13 +562,7 @@ pub fn beyond_laminar(
                     format_significant(lh, 0.1)
                 ));
             }
-            Some(LengthResult {
-                length_m: l,
-                pressure_drop_pa: g * l,
-                entrance_length_hydrodynamic_m: lh,
-                entrance_length_thermal_m: lt,
-                hydraulic_resistance_pa_s_m3: g * l / q,
-            })
+            Some(LengthResult::new(l, g, q, lh, lt))
         }
     };
 
