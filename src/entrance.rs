@@ -151,6 +151,39 @@ pub struct PassageEntrance {
 }
 
 impl PassageEntrance {
+    /// The stations' local and mean values and the entrance lengths from every march point's
+    /// local values (x*, Nu_x,T, Nu_x,H1), the head near the inlet already in `curve`; `fd`
+    /// the fully developed (Nu_T, Nu_H1) the entrance lengths refer to.
+    pub(crate) fn from_curve(
+        curve: Vec<[f64; 3]>,
+        stations: &[f64],
+        fd: (f64, f64),
+        leveque: Leveque,
+    ) -> PassageEntrance {
+        let at = |x: f64| -> [f64; 3] {
+            *curve
+                .iter()
+                .find(|q| (q[0] - x).abs() <= 1e-9 * x)
+                .unwrap_or(&[x, f64::NAN, f64::NAN])
+        };
+        let means: Vec<(f64, f64)> = stations
+            .iter()
+            .map(|&x| means_at(&curve, x).unwrap_or((f64::NAN, f64::NAN)))
+            .collect();
+        PassageEntrance {
+            leveque,
+            nusselt_t_local: stations.iter().map(|&x| at(x)[1]).collect(),
+            nusselt_t_mean: means.iter().map(|m| m.0).collect(),
+            nusselt_h1_local: stations.iter().map(|&x| at(x)[2]).collect(),
+            nusselt_h1_mean: means.iter().map(|m| m.1).collect(),
+            nusselt_t_fully_developed: fd.0,
+            nusselt_h1_fully_developed: fd.1,
+            length_star_t: entrance_length(&curve, 1, fd.0),
+            length_star_h1: entrance_length(&curve, 2, fd.1),
+            curve,
+        }
+    }
+
     /// Mean Nusselt numbers (T, H1) over 0..x*, interpolated between march points (the same
     /// integration as the stations'); None beyond the march.
     pub fn means_at(&self, x: f64) -> Option<(f64, f64)> {
@@ -601,28 +634,7 @@ pub fn thermal_entrance(
                     }
                 })
                 .collect();
-            let at = |x: f64| -> [f64; 3] {
-                *curve
-                    .iter()
-                    .find(|q| (q[0] - x).abs() <= 1e-9 * x)
-                    .unwrap_or(&[x, f64::NAN, f64::NAN])
-            };
-            let means: Vec<(f64, f64)> = stations
-                .iter()
-                .map(|&x| means_at(&curve, x).unwrap_or((f64::NAN, f64::NAN)))
-                .collect();
-            PassageEntrance {
-                leveque: l,
-                nusselt_t_local: stations.iter().map(|&x| at(x)[1]).collect(),
-                nusselt_t_mean: means.iter().map(|m| m.0).collect(),
-                nusselt_h1_local: stations.iter().map(|&x| at(x)[2]).collect(),
-                nusselt_h1_mean: means.iter().map(|m| m.1).collect(),
-                nusselt_t_fully_developed: fd_t,
-                nusselt_h1_fully_developed: fd_h1,
-                length_star_t: entrance_length(&curve, 1, fd_t),
-                length_star_h1: entrance_length(&curve, 2, fd_h1),
-                curve,
-            }
+            PassageEntrance::from_curve(curve, stations, (fd_t, fd_h1), l)
         })
         .collect();
     Ok(ThermalEntrance {

@@ -82,6 +82,10 @@ pub enum Solve {
     HeatH1,
     /// The Nu_T eigenproblem −∇²f = λ·(ũ/ū)·f.
     HeatT,
+    /// A step of the developing-flow march (axial momentum).
+    DevelopingFlow,
+    /// The cross-flow potential of a developing-flow step.
+    CrossFlow,
 }
 
 impl std::fmt::Display for Solve {
@@ -91,6 +95,8 @@ impl std::fmt::Display for Solve {
             Solve::CorrectedFlow => "wall-corrected flow solve",
             Solve::HeatH1 => "H1 heat-transfer solve",
             Solve::HeatT => "Nu_T eigen-solve",
+            Solve::DevelopingFlow => "developing-flow momentum solve",
+            Solve::CrossFlow => "developing-flow cross-flow solve",
         })
     }
 }

@@ -33,6 +33,7 @@ pub mod fluids;
 pub mod geometry;
 pub mod grid;
 pub mod heat;
+pub mod hydrodynamic;
 pub mod input;
 pub mod multigrid;
 pub mod operating;

@@ -200,11 +200,18 @@ struct SolveArgs {
     /// one coarser grid.
     #[arg(long, value_name = "TOL", allow_hyphen_values = true)]
     accuracy: Option<f64>,
-    /// Add the thermal entrance of the passage to the report: local and mean Nusselt numbers
-    /// (uniform wall temperature T, uniform heat input H1) against x* = x/(D_h·Re·Pr) from 1e-5
-    /// to 1, with fully developed velocity, and the thermal entrance lengths.
+    /// Add the entrance regions of the passage to the report: the thermal entrance (local and
+    /// mean Nusselt numbers for uniform wall temperature T and uniform heat input H1 against
+    /// x* = x/(D_h·Re·Pr) from 1e-5 to 1, fully developed velocity, entrance lengths) and the
+    /// hydrodynamic entrance from a uniform inlet velocity (apparent f·Re and K(x) against
+    /// x+ = x/(D_h·Re), K(∞), entrance length).
     #[arg(long)]
     entrance: bool,
+    /// Prandtl number of the simultaneously developing flow (velocity and temperature developing
+    /// together from a uniform inlet), e.g. 0.7; implies --entrance. Without it a fluid with
+    /// known Pr gives it.
+    #[arg(long, value_name = "PR", allow_hyphen_values = true)]
+    prandtl: Option<f64>,
     /// Cells across the grid of the entrance march at most [default: 300]; a finer --cells grid
     /// is solved again at this resolution for the march.
     #[arg(long, value_name = "N")]
@@ -337,7 +344,8 @@ fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
     if let Some(m) = &a.max_memory {
         c.memory_limit = parse_bytes(m)?;
     }
-    if a.entrance || a.entrance_cells.is_some() {
+    c.prandtl = a.prandtl;
+    if a.entrance || a.entrance_cells.is_some() || a.prandtl.is_some() {
         c.entrance = Some(pipeline::EntranceOptions {
             cells: a.entrance_cells.unwrap_or(pipeline::ENTRANCE_CELLS),
         });

@@ -11,6 +11,7 @@ use crate::entrance::ThermalEntrance;
 use crate::geometry::Walls;
 use crate::grid::Classified;
 use crate::heat::HeatFigures;
+use crate::hydrodynamic::HydrodynamicEntrance;
 use crate::operating::OperatingResult;
 use crate::operator::Numbering;
 use crate::post::{self, Figures, ShearSample};
@@ -77,6 +78,8 @@ pub struct Outcome {
 #[derive(Debug, Clone)]
 pub struct EntranceOutcome {
     pub thermal: ThermalEntrance,
+    /// The developing velocity from a uniform inlet (None where the march was not run).
+    pub hydrodynamic: Option<HydrodynamicEntrance>,
     /// The entrance values' numerical uncertainty (None without an error estimate, and for a
     /// mask's fixed grid).
     pub uncertainty: Option<EntranceUncertainty>,

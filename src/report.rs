@@ -5,6 +5,7 @@
 
 use crate::correlations::Regime;
 use crate::entrance::PassageEntrance;
+use crate::hydrodynamic::{Combined, HydrodynamicEntrance, PassageDeveloping};
 use crate::operating::OperatingResult;
 use crate::outcome::{EntranceOutcome, Outcome};
 use crate::rating::{PassageRating, Rating};
@@ -255,7 +256,98 @@ fn entrance_json(e: &EntranceOutcome) -> Value {
             "seconds": th.seconds,
         }),
     );
-    json!({ "thermal": Value::Object(t) })
+    let mut out = Map::new();
+    out.insert("thermal".into(), Value::Object(t));
+    if let Some(h) = &e.hydrodynamic {
+        out.insert("hydrodynamic".into(), hydrodynamic_json(h));
+        if let Some(c) = &h.combined {
+            out.insert("combined".into(), combined_json(c));
+        }
+    }
+    Value::Object(out)
+}
+
+/// Which model gave the combined-entry figures.
+const COMBINED_MODEL: &str = "simultaneously developing velocity and temperature from a \
+    uniform inlet: the developing-flow march with the energy equation (no axial conduction, \
+    constant properties); flat-plate limit (Pohlhausen) below the resolved thermal layer";
+
+/// The `entrance.combined` object: `prandtl`, then the thermal entrance's keys (the first
+/// passage's; each passage's under `passages` when there are several) and `model`.
+fn combined_json(c: &Combined) -> Value {
+    let th = &c.thermal;
+    let mut m = match th.passages.first() {
+        Some(p) => thermal_passage_json(&th.x_star, p, None),
+        None => Map::new(),
+    };
+    m.insert("prandtl".into(), finite(c.prandtl));
+    if th.passages.len() > 1 {
+        m.insert(
+            "passages".into(),
+            Value::Array(
+                th.passages
+                    .iter()
+                    .map(|p| Value::Object(thermal_passage_json(&th.x_star, p, None)))
+                    .collect(),
+            ),
+        );
+    }
+    m.insert("model".into(), json!(COMBINED_MODEL));
+    Value::Object(m)
+}
+
+/// The keys of one passage's hydrodynamic entrance (../shared/INTERFACE.md, "Developing
+/// flow"), with `fanning_f_re` (the fully developed value it tends to) and `blasius_limit_below`
+/// (X below which the pressure is the thin-layer limit's) as extensions.
+fn hydrodynamic_passage_json(x: &[f64], p: &PassageDeveloping) -> Map<String, Value> {
+    let arr = |v: &[f64]| Value::Array(v.iter().map(|&a| finite(a)).collect());
+    let mut m = Map::new();
+    m.insert("x_plus".into(), arr(x));
+    m.insert("apparent_f_re".into(), arr(&p.apparent_f_re));
+    m.insert(
+        "incremental_pressure_drop".into(),
+        arr(&p.incremental_pressure_drop),
+    );
+    m.insert("k_infinity".into(), finite(p.k_infinity));
+    m.insert(
+        "length_plus".into(),
+        p.length_plus.map_or(Value::Null, finite),
+    );
+    m.insert("fanning_f_re".into(), finite(p.fanning_f_re));
+    m.insert("blasius_limit_below".into(), finite(p.resolved_from));
+    m
+}
+
+/// The `entrance.hydrodynamic` object: the first passage's keys, each passage's under
+/// `passages` when there are several, the model and the march's cost.
+fn hydrodynamic_json(h: &HydrodynamicEntrance) -> Value {
+    let mut m = match h.passages.first() {
+        Some(p) => hydrodynamic_passage_json(&h.x_plus, p),
+        None => Map::new(),
+    };
+    if h.passages.len() > 1 {
+        m.insert(
+            "passages".into(),
+            Value::Array(
+                h.passages
+                    .iter()
+                    .map(|p| Value::Object(hydrodynamic_passage_json(&h.x_plus, p)))
+                    .collect(),
+            ),
+        );
+    }
+    m.insert("model".into(), json!(crate::hydrodynamic::MODEL));
+    m.insert(
+        "march".into(),
+        json!({
+            "steps": h.steps,
+            "solves": h.solves,
+            "iterations": h.iterations,
+            "seconds": h.seconds,
+            "settled": h.settled,
+        }),
+    );
+    Value::Object(m)
 }
 
 /// The `rating` object (../shared/INTERFACE.md: `x_star`, `x_plus`, `nusselt_mean`,
@@ -872,8 +964,57 @@ fn join(v: &[usize]) -> String {
         .join(", ")
 }
 
-/// The summary's table of the thermal entrance: a few stations of the 1–2–5 series.
+/// The summary's table of the thermal entrance: a few stations of the 1–2–5 series; then the
+/// hydrodynamic entrance's.
 fn entrance_summary(s: &mut String, e: &EntranceOutcome) {
+    thermal_summary(s, e);
+    if let Some(h) = &e.hydrodynamic {
+        hydrodynamic_summary(s, h);
+    }
+}
+
+/// The summary's table of the hydrodynamic entrance.
+fn hydrodynamic_summary(s: &mut String, h: &HydrodynamicEntrance) {
+    use std::fmt::Write;
+    let several = h.passages.len() > 1;
+    for (k, p) in h.passages.iter().enumerate() {
+        let which = if several {
+            format!(", passage {}", k + 1)
+        } else {
+            String::new()
+        };
+        let _ = writeln!(
+            s,
+            "Hydrodynamic entrance (laminar, uniform inlet velocity, parabolised{which})"
+        );
+        let _ = writeln!(s, "  {:>8}  {:>11}  {:>9}", "x+", "f_app·Re", "K(x)");
+        for (i, &x) in h.x_plus.iter().enumerate() {
+            let m = x / 10f64.powf(x.log10().floor());
+            if !((m - 1.0).abs() < 1e-9 || i + 1 == h.x_plus.len()) {
+                continue;
+            }
+            let _ = writeln!(
+                s,
+                "  {:>8}  {:>11}  {:>9}",
+                format!("{x:.0e}"),
+                sig(p.apparent_f_re[i], 4),
+                sig(p.incremental_pressure_drop[i], 3)
+            );
+        }
+        let len = p
+            .length_plus
+            .map_or("beyond x+ = 1".to_string(), |x| sig(x, 3));
+        let _ = writeln!(
+            s,
+            "  K(∞) = {}; entrance length x+ = {} (u_max within 1 % of fully developed)",
+            sig(p.k_infinity, 3),
+            len
+        );
+    }
+}
+
+/// The summary's table of the thermal entrance.
+fn thermal_summary(s: &mut String, e: &EntranceOutcome) {
     use std::fmt::Write;
     let th = &e.thermal;
     let several = th.passages.len() > 1;

@@ -18,8 +18,8 @@ use crate::multigrid::Multigrid;
 use crate::operator::{assemble, GridOperator};
 use crate::problem::{Field, Numbering, Problem};
 use crate::solver::{
-    pcg_in, smallest_eigenpair, CgInfo, CgParams, CgWorkspace, EigenInfo, EigenParams, Identity,
-    InnerCg, Jacobi, LinearOperator, Monitor, Preconditioner, Silent,
+    bicgstab, pcg_in, smallest_eigenpair, BicgWorkspace, CgInfo, CgParams, CgWorkspace, EigenInfo,
+    EigenParams, Identity, InnerCg, Jacobi, LinearOperator, Monitor, Preconditioner, Silent,
 };
 use sprs::CsMat;
 use std::time::Instant;
@@ -73,6 +73,7 @@ pub struct System<'a> {
     method: Method,
     operators: Operators,
     work: CgWorkspace,
+    bicg: BicgWorkspace,
     /// Whole-grid right-hand side and solution of the multigrid path (empty otherwise).
     grid_b: Vec<f64>,
     grid_x: Vec<f64>,
@@ -97,6 +98,7 @@ impl<'a> System<'a> {
                 jacobi: None,
             },
             work: CgWorkspace::default(),
+            bicg: BicgWorkspace::default(),
             grid_b: Vec::new(),
             grid_x: Vec::new(),
             current: None,
@@ -267,6 +269,37 @@ impl<'a> System<'a> {
         }
     }
 
+    /// Solves (A + B)·x = b (unknown order) by BiCGStab ([`bicgstab`]), starting from x, for a
+    /// nonsymmetric perturbation B given on vectors of unknowns (a march's cross-flow
+    /// convection); the preconditioner is A's (the multigrid V-cycle of the symmetric part,
+    /// Jacobi or none).
+    pub fn solve_perturbed(
+        &mut self,
+        perturbation: &dyn LinearOperator,
+        b: &[f64],
+        x: &mut [f64],
+        params: &CgParams,
+    ) -> Result<CgInfo> {
+        let name = "BiCGStab preconditioned by the symmetric part";
+        match &self.operators {
+            Operators::Matrix { a, jacobi } => {
+                let pre: &dyn Preconditioner = match jacobi {
+                    Some(j) => j,
+                    None => &Identity,
+                };
+                let sum = Sum(a, perturbation);
+                bicgstab(&mut self.bicg, &sum, pre, b, x, params, name)
+            }
+            Operators::Grid(mg) => {
+                let op = self.current.as_ref().unwrap_or(mg.operator());
+                let on_op = OnUnknowns::new(op, mg.as_ref(), &self.numbering);
+                let on_pre = OnUnknowns::new(op, mg.as_ref(), &self.numbering);
+                let sum = Sum(&on_op, perturbation);
+                bicgstab(&mut self.bicg, &sum, &on_pre, b, x, params, name)
+            }
+        }
+    }
+
     /// The smallest eigenpair of A·f = λ·W·f, W = diag(`weights`) (unknown order, scaled
     /// like the rows of A), by LOBPCG ([`smallest_eigenpair`]) preconditioned by the
     /// multigrid V-cycle, or on the reference paths by an inner CG of the method to a relative
@@ -301,6 +334,36 @@ impl<'a> System<'a> {
                 smallest_eigenpair(&on, &on, weights, x, &[], params, name)
             }
         }
+    }
+}
+
+/// The sum of two operators on the same vectors.
+struct Sum<'a>(&'a dyn LinearOperator, &'a dyn LinearOperator);
+
+impl LinearOperator for Sum<'_> {
+    fn dim(&self) -> usize {
+        self.0.dim()
+    }
+
+    fn apply(&self, x: &[f64], y: &mut [f64]) {
+        let mut z = vec![0.0; y.len()];
+        self.0.apply(x, y);
+        self.1.apply(x, &mut z);
+        for (y, z) in y.iter_mut().zip(&z) {
+            *y += z;
+        }
+    }
+
+    fn diagonal(&self) -> Vec<f64> {
+        let mut d = self.0.diagonal();
+        for (d, e) in d.iter_mut().zip(self.1.diagonal()) {
+            *d += e;
+        }
+        d
+    }
+
+    fn abs_product_norm(&self, x: &[f64]) -> f64 {
+        self.0.abs_product_norm(x) + self.1.abs_product_norm(x)
     }
 }
 
