@@ -207,6 +207,10 @@ struct SolveArgs {
     /// x+ = x/(D_h·Re), K(∞), entrance length).
     #[arg(long)]
     entrance: bool,
+    /// Minor-loss coefficient K (inlet, outlet, bends: the sum of the ones you know), added to
+    /// the pressure drop over --length as K·ρ·ū²/2, reported as minor_loss_pa.
+    #[arg(long, value_name = "K", allow_hyphen_values = true)]
+    minor_loss: Option<f64>,
     /// Prandtl number of the simultaneously developing flow (velocity and temperature developing
     /// together from a uniform inlet), e.g. 0.7; implies --entrance. Without it a fluid with
     /// known Pr gives it.
@@ -345,6 +349,7 @@ fn config(a: &SolveArgs) -> Result<SolveConfig, Error> {
         c.memory_limit = parse_bytes(m)?;
     }
     c.prandtl = a.prandtl;
+    c.minor_loss = a.minor_loss;
     if a.entrance || a.entrance_cells.is_some() || a.prandtl.is_some() {
         c.entrance = Some(pipeline::EntranceOptions {
             cells: a.entrance_cells.unwrap_or(pipeline::ENTRANCE_CELLS),

@@ -22,6 +22,7 @@ use crate::error::{Error, Result};
 use crate::fluids::{self, FluidProperties};
 use crate::geometry::Walls;
 use crate::heat::HeatFigures;
+use crate::hydrodynamic::HydrodynamicEntrance;
 use crate::post::{Figures, PassageFigures};
 
 /// What drives the flow.
@@ -253,7 +254,15 @@ pub struct PassageResult {
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct LengthResult {
     pub length_m: f64,
+    /// Over the length: the entrance region included where the developing-flow march gives it
+    /// ([`LengthResult::with_entrance`]), the minor losses added ([`LengthResult::with_minor_loss`]).
     pub pressure_drop_pa: f64,
+    /// G·L: fully developed friction over the whole length.
+    pub pressure_drop_fully_developed_pa: f64,
+    /// K·ρ·ū²/2 of `--minor-loss K`.
+    pub minor_loss_pa: Option<f64>,
+    /// Which model gave `pressure_drop_pa` when not G·L.
+    pub pressure_drop_model: Option<&'static str>,
     /// Laminar: L_h ≈ 0.05·Re·D_h (common practice for round tubes, no source); turbulent:
     /// [`crate::correlations::turbulent_entrance_length_hydrodynamic`].
     pub entrance_length_hydrodynamic_m: f64,
@@ -271,10 +280,62 @@ impl LengthResult {
         LengthResult {
             length_m: l,
             pressure_drop_pa: g * l,
+            pressure_drop_fully_developed_pa: g * l,
+            minor_loss_pa: None,
+            pressure_drop_model: None,
             entrance_length_hydrodynamic_m: lh,
             entrance_length_thermal_m: lt,
             hydraulic_resistance_pa_s_m3: g * l / q,
         }
+    }
+
+    /// The pressure drop with the entrance region, from the developing-flow march: per passage
+    /// Δp = ½ρū²·4·f_app·L/D_h = 2ρū²·(f_app·Re)·x+, x+ = L/(D_h·Re) (beyond the march's last
+    /// station the fully developed rate, f·Re + K(∞)/(4x+)); with several passages the
+    /// flow-weighted mean at the fully developed flow split (`warnings` says so). `passages`:
+    /// each passage's (flow rate, mean velocity, Re, D_h) in the march's order.
+    pub fn with_entrance(
+        &mut self,
+        hydro: &HydrodynamicEntrance,
+        passages: &[(f64, f64, f64, f64)],
+        density: f64,
+        warnings: &mut Vec<String>,
+    ) {
+        let l = self.length_m;
+        let total_q: f64 = passages.iter().map(|p| p.0).sum();
+        let mut dp = 0.0;
+        for (&(q, u, re, d), p) in passages.iter().zip(&hydro.passages) {
+            let x = l / (d * re);
+            let f_app_re = match p.at(x) {
+                Some((f, _)) => f,
+                None => p.fanning_f_re + p.k_infinity / (4.0 * x),
+            };
+            dp += q / total_q * 2.0 * density * u * u * f_app_re * x;
+        }
+        if passages.len() > 1 {
+            warnings.push(
+                "the pressure drop with the entrance region averages the passages' own at the \
+                 fully developed flow split (the entrance regions shift the split a little)"
+                    .into(),
+            );
+        }
+        let q = self.pressure_drop_fully_developed_pa / self.hydraulic_resistance_pa_s_m3;
+        self.pressure_drop_pa = dp + self.minor_loss_pa.unwrap_or(0.0);
+        self.hydraulic_resistance_pa_s_m3 = self.pressure_drop_pa / q;
+        self.pressure_drop_model = Some(
+            "laminar apparent friction of the developing-flow march (uniform inlet velocity, \
+             entrance region included)",
+        );
+    }
+
+    /// Adds the minor losses K·ρ·ū²/2 (inlet, outlet, bends the user knows; common practice,
+    /// no source) at the mean velocity ū.
+    pub fn with_minor_loss(&mut self, k: f64, density: f64, mean_velocity: f64) {
+        let q = self.pressure_drop_pa / self.hydraulic_resistance_pa_s_m3;
+        let minor = 0.5 * k * density * mean_velocity * mean_velocity;
+        self.pressure_drop_pa += minor - self.minor_loss_pa.unwrap_or(0.0);
+        self.minor_loss_pa = Some(minor);
+        self.hydraulic_resistance_pa_s_m3 = self.pressure_drop_pa / q;
     }
 }
 
@@ -343,7 +404,9 @@ pub fn operating_point(
         Some(l) => {
             let lh = 0.05 * re * f.hydraulic_diameter;
             let lt = prandtl.map(|pr| lh * pr);
-            if l < lh {
+            // The pressure drop includes the entrance region (`LengthResult::with_entrance`),
+            // except where the flow rate is found from a given pressure drop.
+            if l < lh && matches!(spec.drive, Drive::PressureDrop(_)) {
                 warnings.push(format!(
                     "the passage ({l:.4} m) is shorter than the hydrodynamic entrance length \
                      ≈ 0.05·Re·D_h = {lh:.4} m (common practice for round tubes, no source): the \

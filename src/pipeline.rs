@@ -21,6 +21,7 @@ use crate::operating::{operating_point, OperatingSpec};
 use crate::outcome::{EntranceOutcome, EntranceUncertainty, Outcome, Timings, UnitSolution};
 use crate::post::{self, WallKind};
 use crate::problem::{Field, Problem};
+use crate::rating::LAMINAR_THERMAL_MODEL;
 use crate::rating::{rate, RatingSpec};
 use crate::solver::{CgInfo, CgParams, Monitor, Silent};
 use crate::study::{self, runs};
@@ -234,6 +235,9 @@ pub struct SolveConfig {
     /// The Prandtl number of the simultaneously developing heat transfer (`--prandtl`); without
     /// it the operating point's fluid's, when known.
     pub prandtl: Option<f64>,
+    /// Minor-loss coefficient K of `--minor-loss` (inlet, outlet, bends), added to the
+    /// pressure drop over `--length` as K·ρ·ū²/2.
+    pub minor_loss: Option<f64>,
     /// Rate the passage thermally over the operating point's length (`--inlet-temperature` with
     /// `--wall-temperature`, `--heat-load` or `--heat-flux`); implies the entrance march.
     pub rating: Option<RatingSpec>,
@@ -290,6 +294,7 @@ impl SolveConfig {
             error_estimate: ErrorEstimate::default(),
             entrance: None,
             prandtl: None,
+            minor_loss: None,
             rating: None,
             warnings: Vec::new(),
         }
@@ -373,6 +378,21 @@ impl SolveConfig {
                 return Err(Error::param(
                     "--entrance-cells",
                     format!("{} cells are too few; give at least {MIN_CELLS}", e.cells),
+                ));
+            }
+        }
+        if let Some(k) = self.minor_loss {
+            if !(k.is_finite() && k >= 0.0) {
+                return Err(Error::param(
+                    "--minor-loss",
+                    format!("{k} is not a loss coefficient; give K ≥ 0, e.g. 1.5"),
+                ));
+            }
+            if self.operating.as_ref().and_then(|o| o.length).is_none() {
+                return Err(Error::param(
+                    "--minor-loss",
+                    "minor losses add to the pressure drop over a length: add an operating \
+                     point with --length",
                 ));
             }
         }
@@ -547,6 +567,7 @@ pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outc
         monitor.stage("marching the thermal entrance");
         outcome.entrance = Some(run_entrance(config, &outcome, options, monitor)?);
     }
+    finish_pressure_drop(config, &mut outcome, monitor)?;
     if let (Some(spec), Some(op), Some(point), Some(e)) = (
         &config.rating,
         &config.operating,
@@ -555,15 +576,29 @@ pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outc
     ) {
         let length = op.length.expect("validated: a rating has a length");
         let mut warnings = Vec::new();
-        let rating = rate(
+        // With a fluid whose Pr is known the velocity develops with the temperature: the
+        // combined entry's values (at the operating point's Pr), else the thermal entrance's.
+        let combined = e.hydrodynamic.as_ref().and_then(|h| h.combined.as_ref());
+        let mut rating = rate(
             spec,
             &op.fluid,
             point.flow_rate_m3_s,
             length,
             &outcome.unit.passages,
-            &e.thermal,
+            combined.map_or(&e.thermal, |c| &c.thermal),
             &mut warnings,
         )?;
+        if let Some(c) = combined {
+            rating.thermal_model = rating.thermal_model.replace(
+                LAMINAR_THERMAL_MODEL,
+                &format!(
+                    "laminar simultaneously developing flow of this cross-section (uniform \
+                     inlet velocity and temperature, marched at Pr = {}, the operating \
+                     point's; the properties of the rating are at the mean bulk temperature)",
+                    crate::units::format_significant(c.prandtl, 1e-3)
+                ),
+            );
+        }
         outcome.warnings.extend(warnings);
         outcome.rating = Some(rating);
     }
@@ -706,29 +741,8 @@ fn run_entrance(
     options: EntranceOptions,
     monitor: &dyn Monitor,
 ) -> Result<EntranceOutcome> {
-    let (cx, cy) = outcome.unit.classified.grid.cells();
-    let coarser;
-    let unit = if outcome.fixed_grid || cx.max(cy) <= options.cells {
-        &outcome.unit
-    } else {
-        let flow = SolveConfig {
-            cells: Some(options.cells),
-            operating: None,
-            error_estimate: ErrorEstimate::Off,
-            entrance: None,
-            rating: None,
-            ..config.clone()
-        };
-        // The entrance grid must pass the resolution check too; where it does not, the march
-        // takes the run's own grid, which did.
-        match check_resolution(&flow) {
-            Ok(None) => {
-                coarser = run_once(&flow, monitor)?;
-                &coarser.unit
-            }
-            _ => &outcome.unit,
-        }
-    };
+    let mut coarser = None;
+    let unit = entrance_unit(config, outcome, options.cells, monitor, &mut coarser)?;
     let heat = unit.heat.as_ref();
     let fully_developed: Option<Vec<(f64, f64)>> = match (heat, unit.passages.len()) {
         (Some(h), 1) => Some(vec![(h.nusselt_t, h.nusselt_h1)]),
@@ -788,6 +802,146 @@ fn run_entrance(
         unknowns: unit.numbering.len(),
     })
 }
+
+/// The unit solution an entrance march runs on: the run's own, or the flow solved again on a
+/// grid of `cells` across when the run's is finer (and that grid passes the resolution
+/// check; otherwise the run's own), kept in `holder`.
+fn entrance_unit<'a>(
+    config: &SolveConfig,
+    outcome: &'a Outcome,
+    cells: usize,
+    monitor: &dyn Monitor,
+    holder: &'a mut Option<Outcome>,
+) -> Result<&'a UnitSolution> {
+    let (cx, cy) = outcome.unit.classified.grid.cells();
+    if outcome.fixed_grid || cx.max(cy) <= cells {
+        return Ok(&outcome.unit);
+    }
+    let flow = SolveConfig {
+        cells: Some(cells),
+        operating: None,
+        error_estimate: ErrorEstimate::Off,
+        entrance: None,
+        rating: None,
+        ..config.clone()
+    };
+    // The entrance grid must pass the resolution check too; where it does not, the march
+    // takes the run's own grid, which did.
+    match check_resolution(&flow) {
+        Ok(None) => {
+            *holder = Some(run_once(&flow, monitor)?);
+            Ok(&holder.as_ref().expect("just set").unit)
+        }
+        _ => Ok(&outcome.unit),
+    }
+}
+
+/// The pressure drop over `--length` at a laminar operating point with the entrance region
+/// (the developing-flow march: the `--entrance` run's, or one marched here to the outlet),
+/// and the minor losses of `--minor-loss` in any regime. With `--pressure-drop` the flow
+/// rate stays the fully developed one's (said in a warning).
+fn finish_pressure_drop(
+    config: &SolveConfig,
+    outcome: &mut Outcome,
+    monitor: &dyn Monitor,
+) -> Result<()> {
+    let (Some(op), Some(point)) = (&config.operating, &outcome.operating) else {
+        return Ok(());
+    };
+    let Some(mut length) = point.length else {
+        return Ok(());
+    };
+    let mut warnings = Vec::new();
+    let density = point.fluid.density_kg_m3;
+    if point.regime == crate::correlations::Regime::Laminar {
+        if matches!(op.drive, crate::operating::Drive::PressureDrop(_)) {
+            warnings.push(
+                "with --pressure-drop the flow rate is that of fully developed friction over \
+                 the whole length: the entrance region, whose friction is higher, is not \
+                 included"
+                    .into(),
+            );
+        } else {
+            let passages: Vec<(f64, f64, f64, f64)> = point
+                .passages
+                .iter()
+                .zip(&outcome.unit.passages)
+                .map(|(r, f)| {
+                    (
+                        r.flow_rate_m3_s,
+                        r.mean_velocity_m_s,
+                        r.reynolds,
+                        f.hydraulic_diameter,
+                    )
+                })
+                .collect();
+            let standalone;
+            let hydro = match outcome
+                .entrance
+                .as_ref()
+                .and_then(|e| e.hydrodynamic.as_ref())
+            {
+                Some(h) => h,
+                None => {
+                    // March to the furthest outlet x+ (at most to the last standard station,
+                    // beyond which the fully developed rate holds).
+                    let x_end = passages
+                        .iter()
+                        .map(|p| length.length_m / (p.3 * p.2))
+                        .fold(0.0f64, f64::max);
+                    let mut stations: Vec<f64> = standard_stations()
+                        .into_iter()
+                        .filter(|&x| x < x_end)
+                        .collect();
+                    stations.push(x_end.min(1.0));
+                    stations.dedup();
+                    let mut holder = None;
+                    let unit =
+                        entrance_unit(config, outcome, ENTRANCE_CELLS, monitor, &mut holder)?;
+                    monitor.stage("marching the developing velocity");
+                    let decay = 4.0
+                        * unit
+                            .heat
+                            .as_ref()
+                            .map_or(HYDRO_DEFAULT_NU_T, |h| h.nusselt_t);
+                    standalone = hydrodynamic_entrance(
+                        &flow_of(unit),
+                        &stations,
+                        decay,
+                        config.unit.method,
+                        &HydroParams::default(),
+                        None,
+                    )?;
+                    &standalone
+                }
+            };
+            length.with_entrance(hydro, &passages, density, &mut warnings);
+            if let Some(re) = passages.iter().map(|p| p.2).reduce(f64::min) {
+                if re < MIN_PARABOLISED_RE {
+                    warnings.push(format!(
+                        "Re = {re:.3} is below about {MIN_PARABOLISED_RE}: the parabolised \
+                         entrance model neglects axial diffusion, which matters near the inlet \
+                         at such low Re, so the entrance part of the pressure drop is less \
+                         certain (Shah & London 1978, from memory)"
+                    ));
+                }
+            }
+        }
+    }
+    if let Some(k) = config.minor_loss {
+        length.with_minor_loss(k, density, point.mean_velocity_m_s);
+    }
+    if let Some(p) = outcome.operating.as_mut() {
+        p.length = Some(length);
+    }
+    outcome.warnings.extend(warnings);
+    Ok(())
+}
+
+/// Below this Reynolds number axial diffusion near the inlet matters and the parabolised
+/// entrance march loses accuracy (Shah & London 1978, from memory: their entrance solutions
+/// for Re above about 50 neglect it).
+pub const MIN_PARABOLISED_RE: f64 = 50.0;
 
 /// Nu_T standing for the step bound of the developing-flow march when heat transfer was not
 /// solved (the round tube's 3.66, common practice, no source: the bound only sets the step).

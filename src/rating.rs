@@ -318,10 +318,7 @@ fn rate_at(
     let thermal_model = models
         .iter()
         .map(|m| match m {
-            crate::correlations::Model::Laminar => {
-                "laminar thermal entrance of this cross-section (fully developed velocity)"
-                    .to_string()
-            }
+            crate::correlations::Model::Laminar => LAMINAR_THERMAL_MODEL.to_string(),
             m => m.name().to_string(),
         })
         .collect::<Vec<_>>()
@@ -338,6 +335,10 @@ fn rate_at(
         iterations: 0,
     })
 }
+
+/// The laminar model's name in `thermal_model`.
+pub const LAMINAR_THERMAL_MODEL: &str =
+    "laminar thermal entrance of this cross-section (fully developed velocity)";
 
 /// The local Nu_x,H1 at x* from the march (the fully developed value beyond it).
 fn local_h1(e: &crate::entrance::PassageEntrance, x: f64) -> f64 {

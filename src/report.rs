@@ -15,8 +15,9 @@ use serde_json::{json, Map, Value};
 
 /// The cautions every human-readable summary ends with.
 pub const CAUTION: &str = "Fully developed laminar flow of a Newtonian fluid with constant \
-properties; entrance effects and heating are not modelled, nor, in the laminar solution, \
-transition to turbulence and roughness (an operating point beyond the laminar range uses the \
+properties (the entrance regions only where shown: the laminar pressure drop over a length, \
+--entrance, a thermal rating; property changes with temperature are not modelled), nor, in \
+the laminar solution, transition to turbulence and roughness (an operating point beyond the laminar range uses the \
 correlations named above). Not a substitute for local codes and licensed engineering practice: pressure containment and \
 coolant temperatures must be checked by a qualified engineer.";
 
@@ -25,7 +26,13 @@ pub const ENTRANCE_CAUTION: &str = "The thermal entrance table assumes a fully d
 velocity profile from the inlet (a hydrodynamically developed inlet, or a fluid whose velocity \
 develops much faster than its temperature, Pr ≫ 1), constant properties and no axial \
 conduction (Re·Pr well above 100). With a uniform inlet velocity at low Pr the heat transfer \
-near the inlet is higher than shown.";
+near the inlet is higher than shown (see the combined entry with --prandtl).";
+
+/// The caution printed with a hydrodynamic entrance table.
+pub const HYDRODYNAMIC_CAUTION: &str = "The hydrodynamic entrance assumes a uniform velocity at \
+a smooth, well-rounded inlet and a parabolised flow (no axial diffusion: Re well above 50); a \
+sharp-edged or disturbed inlet adds losses of its own (give them with --minor-loss), and \
+the cross-flow is the irrotational one continuity requires (see `model`).";
 
 /// The caution added when an operating point leaves the laminar range.
 pub const CAUTION_CORRELATIONS: &str = "Beyond the laminar range the pressure drop, wall shear \
@@ -134,6 +141,16 @@ pub fn json_report(o: &Outcome) -> Value {
         if let Some(l) = &op.length {
             m.insert("length_m".into(), json!(l.length_m));
             m.insert("pressure_drop_pa".into(), json!(l.pressure_drop_pa));
+            m.insert(
+                "pressure_drop_fully_developed_pa".into(),
+                json!(l.pressure_drop_fully_developed_pa),
+            );
+            if let Some(v) = l.minor_loss_pa {
+                m.insert("minor_loss_pa".into(), finite(v));
+            }
+            if let Some(model) = l.pressure_drop_model {
+                m.insert("pressure_drop_model".into(), json!(model));
+            }
             m.insert(
                 "entrance_length_hydrodynamic_m".into(),
                 json!(l.entrance_length_hydrodynamic_m),
@@ -809,6 +826,18 @@ pub fn summary(o: &Outcome) -> String {
     if o.entrance.is_some() {
         let _ = writeln!(s, "Note: {ENTRANCE_CAUTION}");
     }
+    let entrance_drop = o
+        .operating
+        .as_ref()
+        .and_then(|op| op.length.as_ref())
+        .is_some_and(|l| l.pressure_drop_model.is_some());
+    if entrance_drop
+        || o.entrance
+            .as_ref()
+            .is_some_and(|e| e.hydrodynamic.is_some())
+    {
+        let _ = writeln!(s, "Note: {HYDRODYNAMIC_CAUTION}");
+    }
     if o.operating
         .as_ref()
         .is_some_and(|op| op.regime != Regime::Laminar)
@@ -927,6 +956,25 @@ fn operating_summary(o: &Outcome, op: &OperatingResult, s: &mut String) {
                 n(l.hydraulic_resistance_pa_s_m3)
             ),
         );
+        if l.pressure_drop_model.is_some() || l.minor_loss_pa.is_some() {
+            let minor = l
+                .minor_loss_pa
+                .map(|v| format!(", minor losses {} Pa", n(v)))
+                .unwrap_or_default();
+            let entrance = if l.pressure_drop_model.is_some() {
+                "entrance region included; "
+            } else {
+                ""
+            };
+            line(
+                s,
+                "",
+                format!(
+                    "({entrance}fully developed friction alone {} Pa{minor})",
+                    n(l.pressure_drop_fully_developed_pa)
+                ),
+            );
+        }
         let lt = l
             .entrance_length_thermal_m
             .map(|v| format!(", thermal ≈ {}", length(v, 0.1)))
