@@ -1,6 +1,9 @@
 //! Self-checks of the independent round-tube hydrodynamic-entrance reference
 //! (tests/reference/pipe_developing.rs): its own convergence and consistency, and
-//! agreement with published values.
+//! agreement with published values; and of the simultaneously developing (velocity and
+//! temperature) reference built on it (tests/reference/pipe_combined.rs): convergence,
+//! energy balance, the fully developed and flat-plate limits, the Graetz values at large Pr
+//! (tests/reference/graetz.rs) and physical trends at Pr = 0.7.
 //! Run: cargo test --release --test pipe_developing_check -- --nocapture
 //! (the three-level convergence study: add `-- --ignored`).
 
@@ -248,7 +251,9 @@ fn convergence_three_levels() {
 // temperature both uniform at the inlet, T and H wall conditions.
 // ---------------------------------------------------------------------------------------
 
-use pipe_combined::{combined, plate_limit, standard_thermal, ThermalPoint, ThermalSolution};
+use pipe_combined::{
+    combined, plate_limit, standard_thermal, ThermalPoint, ThermalSolution, THERMAL_RESOLUTION,
+};
 
 /// x* = 1e-4, 2e-4, 5e-4, …, 0.5, 1.
 fn thermal_stations() -> Vec<f64> {
@@ -459,17 +464,25 @@ fn combined_energy_balance() {
         // (Measured ≈ 1e-7: round-off of the wall-cell fluxes, whose conductances are ≈ 5e8
         // with the 1e-9 wall spacing, against Θ ≈ 4.)
         assert!(s.h_balance_error < 1e-6, "H balance {}", s.h_balance_error);
-        // T: −ln θ_b/(4x*) (the discrete energy balance) against the integrated local Nu_x,T
-        // from the wall gradient (the rule that gives Nu_m,H).
-        let mut worst: f64 = 0.0;
+        // T: Nu_m,T as used (the integrated local Nu_x,T, the rule that also gives Nu_m,H)
+        // against −ln θ_b/(4x*) from the conserved θ_b: equal in the exact problem; the
+        // difference is discretisation error (at small X mostly the start-up error of θ_b,
+        // ∝ X^{−½}; far downstream the BDF2 error of the decay of θ_b).
+        let (mut w6, mut w4): (f64, f64) = (0.0, 0.0);
         for i in 1..s.x_star.len() {
-            if s.x_star[i] * pr >= 1e-7 {
-                let m = s.nu_t_integral[i] / s.x_star[i];
-                worst = worst.max(rel(m, s.nu_t_mean_at(i)));
+            let d = rel(s.nu_t_integral[i] / s.x_star[i], s.nu_t_mean_balance(i));
+            if s.x_star[i] >= 1e-6 {
+                w6 = w6.max(d);
+            }
+            if s.x_star[i] >= 1e-4 {
+                w4 = w4.max(d);
             }
         }
-        println!("  integrated local vs −ln θ_b/(4x*), X ≥ 1e-7: {worst:.1e}");
-        assert!(worst < 5e-5, "mean Nu_T: {worst}");
+        println!(
+            "  Nu_m,T: integrated local vs −ln θ_b/(4x*): ≤ {w6:.1e} for x* ≥ 1e-6, \
+             ≤ {w4:.1e} for x* ≥ 1e-4"
+        );
+        assert!(w6 < 5e-5 && w4 < 3e-5, "mean Nu_T: {w6}, {w4}");
         // No significant over/undershoot from the central convection differences.
         assert!(s.theta_min > -1e-6 && s.theta_max < 1.0 + 1e-6);
     }
@@ -486,6 +499,14 @@ fn combined_inlet_plate_limit() {
     println!("plate limit Pr = 1: c_T = {t1:.6}, c_H = {h1:.6}");
     assert!((t1 - 0.33206).abs() < 2e-5);
     assert!(h1 / t1 > 1.3 && h1 / t1 < 1.42);
+    let (t4, h4) = plate_limit(1e4);
+    let q = combined(1e4, &[1e-8 / 1e4])[0];
+    println!(
+        "Pr = 1e4: c_T = {t4:.5}, c_H = {h4:.5}; at X = 1e-8: Nu_x,T·√X = {:.5}, Nu_x,H·√X = {:.5}",
+        q.nu_t_local * 1e-4,
+        q.nu_h_local * 1e-4
+    );
+    assert!(rel(q.nu_t_local * 1e-4, t4) < 5e-3 && rel(q.nu_h_local * 1e-4, h4) < 5e-3);
     let pr = 0.7;
     let (ct, ch) = plate_limit(pr);
     println!("plate limit Pr = 0.7: c_T = {ct:.6}, c_H = {ch:.6}");
@@ -533,7 +554,7 @@ fn thermal_changes(a: &ThermalSolution, b: &ThermalSolution) -> Vec<(f64, [f64; 
 #[test]
 fn combined_grid_and_step_convergence() {
     // Halving the radial spacing and the logarithmic step (target: changes < 0.2 %).
-    let (_, fine) = ThermalSolution::solve(Resolution::STANDARD.refined(), &[0.7, 1e4], 1.0);
+    let (_, fine) = ThermalSolution::solve(THERMAL_RESOLUTION.refined(), &[0.7, 1e4], 1.0);
     for f in &fine {
         let s = standard_thermal(f.pr);
         println!(
@@ -554,30 +575,6 @@ fn combined_grid_and_step_convergence() {
                     c[k]
                 );
             }
-        }
-    }
-}
-
-#[test]
-fn zz_debug() {
-    for pr in [0.7, 1e4] {
-        let s = standard_thermal(pr);
-        let n = s.x_star.len();
-        let mut worst = (0.0f64, 0usize);
-        for i in 1..n {
-            let e = (s.h_bulk[i] / (4.0 * s.x_star[i]) - 1.0).abs();
-            if e > worst.0 {
-                worst = (e, i);
-            }
-        }
-        println!(
-            "Pr {pr}: stations {n}, worst H balance {:.2e} at i = {} x* = {:e}",
-            worst.0, worst.1, s.x_star[worst.1]
-        );
-        for i in (1..n).step_by(n / 40) {
-            println!("  i {i} x* {:.3e} Hbal {:+.2e} trapT/exact-1 {:+.2e} θb {:.3e} Nu_t {:.5} num_h {:.5}", s.x_star[i],
-              s.h_bulk[i] / (4.0 * s.x_star[i]) - 1.0, s.nu_t_integral[i] / s.x_star[i] / s.nu_t_mean_at(i) - 1.0,
-              1.0 - s.one_minus_theta_b[i], s.nu_t_local[i], s.nu_h_integral[i]/s.x_star[i]);
         }
     }
 }

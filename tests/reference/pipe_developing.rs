@@ -100,7 +100,9 @@
 //! cached, [`standard`]); [`Solution::solve`]`(`[`Resolution`]`)` for other resolutions
 //! ([`Resolution::refined`] halves the radial spacing and the logarithmic step), with
 //! [`Solution::at`], [`Solution::k_infinity`], [`Solution::length_plus`] and the raw station
-//! data.
+//! data; [`Solution::solve_observed`] runs the same march and hands every converged step
+//! ([`Step`]: X, ΔX, the scheme, U of the new and the previous station) to an observer (the
+//! energy march of `pipe_combined.rs` for simultaneously developing flow).
 //!
 //! Sources of the model (cited from memory; no code or tables copied): the boundary-layer
 //! (parabolised) form of the entrance problem as solved numerically by R. W. Hornbeck (1964,
@@ -216,17 +218,13 @@ pub struct Step<'a> {
     /// The new station X_{n+1} and the step ΔX = X_{n+1} − X_n.
     pub x: f64,
     pub dx: f64,
-    /// The previous step ΔX_n (0 for the first step).
-    pub dx_prev: f64,
     /// Whether this step is BDF2 (otherwise backward Euler).
     pub bdf2: bool,
     /// The radial nodes.
     pub r: &'a [f64],
-    /// U at X_{n+1} (converged), X_n and X_{n−1} (for the first step both are the inlet
-    /// profile).
+    /// U at X_{n+1} (converged) and at X_n (for the first step the inlet profile).
     pub u: &'a [f64],
     pub u_n: &'a [f64],
-    pub u_nm1: &'a [f64],
 }
 
 impl Solution {
@@ -467,12 +465,10 @@ impl Solution {
                 index: step,
                 x: x_new,
                 dx,
-                dx_prev,
                 bdf2,
                 r: &r,
                 u: &u,
                 u_n: &u_n,
-                u_nm1: &u_nm1,
             });
 
             // Shift levels.
