@@ -242,6 +242,11 @@ fn march_points(first: f64, ratio: f64, last: f64) -> Vec<f64> {
 /// ∫ from a to b of Nu(x) dx with Nu = α + β·x^(−1/3) through (a, na) and (b, nb): exact for the
 /// Lévêque behaviour near the inlet (α = 0) and for the constant fully developed value (β = 0).
 fn segment_integral(a: f64, b: f64, na: f64, nb: f64) -> f64 {
+    if b - a <= 1e-9 * b {
+        // A sliver (a station a round-off past a march point): the trapezoid, without the
+        // 0/0 of equal cube roots.
+        return 0.5 * (na + nb) * (b - a);
+    }
     let (ta, tb) = (a.cbrt().recip(), b.cbrt().recip());
     let beta = (na - nb) / (ta - tb);
     let alpha = na - beta * ta;
@@ -266,12 +271,19 @@ fn means_at(curve: &[[f64; 3]], x: f64) -> Option<(f64, f64)> {
         if p[0] >= x {
             break;
         }
+        if q[0] <= p[0] {
+            // A repeated point adds nothing (and would divide by zero below).
+            continue;
+        }
         let b = q[0].min(x);
         for (i, t) in total.iter_mut().enumerate() {
             // The value at b on the same two-term curve through p and q.
             let (ta, tq, tb) = (p[0].cbrt().recip(), q[0].cbrt().recip(), b.cbrt().recip());
-            let beta = (p[i + 1] - q[i + 1]) / (ta - tq);
-            let nb = p[i + 1] + beta * (tb - ta);
+            let nb = if ta == tq {
+                q[i + 1]
+            } else {
+                p[i + 1] + (p[i + 1] - q[i + 1]) / (ta - tq) * (tb - ta)
+            };
             *t += segment_integral(p[0], b, p[i + 1], nb);
         }
     }

@@ -330,6 +330,10 @@ impl LinearOperator for Convection {
 /// duct's terms Nu_x = a·Pr^(−1/6)/√x*: the combined entry's head below its resolved layer.
 const PLATE_T: f64 = 0.332;
 const PLATE_H: f64 = 0.453;
+/// Head points before the first march point (ratio 1.25: the first one 1.25^−60 ≈ 1.5e-6 of
+/// the way in).
+const HEAD_POINTS: usize = 60;
+const HEAD_RATIO: f64 = 1.25;
 
 /// The energy equation marched with the developing velocity (simultaneously developing flow):
 ///
@@ -861,8 +865,23 @@ pub fn hydrodynamic_entrance(
                         .unwrap_or(0.0)
                         .max(resolved_from[p] * spec.prandtl.powf(-1.0 / 3.0));
                     let k = spec.prandtl.powf(-1.0 / 6.0);
-                    let curve: Vec<[f64; 3]> = curve
+                    // The flat-plate head Nu ∝ x*^(−1/2) from far closer to the inlet than the
+                    // first march point, so that the means (which integrate the local values
+                    // piecewise as α + β·x*^(−1/3), see `entrance`) integrate its steeper
+                    // law too (the head from 0 to the first point would otherwise be taken as
+                    // Lévêque's x*^(−1/3), 25 % short).
+                    let first = curve.first().map_or(1e-7, |q| q[0]);
+                    let lead: Vec<[f64; 3]> = (1..=HEAD_POINTS)
+                        .rev()
+                        .map(|i| {
+                            let x = first * HEAD_RATIO.powi(-(i as i32));
+                            let r = x.sqrt();
+                            [x, PLATE_T * k / r, PLATE_H * k / r]
+                        })
+                        .collect();
+                    let curve: Vec<[f64; 3]> = lead
                         .into_iter()
+                        .chain(curve)
                         .map(|q| {
                             if q[0] < from {
                                 let r = q[0].sqrt();
@@ -945,6 +964,14 @@ impl<'s> Stepper<'s> {
         if !self.started {
             self.started = true;
             return Some(self.x);
+        }
+        // Stations within round-off of the point reached count as reached.
+        while self
+            .stations
+            .get(self.next)
+            .is_some_and(|&t| t <= self.x * (1.0 + 1e-12))
+        {
+            self.next += 1;
         }
         let target = *self.stations.get(self.next)?;
         let d = (self.delta * self.ratio).min(cap);

@@ -11,6 +11,14 @@ mod graetz;
 #[path = "reference/rect_graetz.rs"]
 mod rect_graetz;
 
+#[path = "reference/pipe_developing.rs"]
+#[allow(dead_code)]
+mod pipe_developing;
+
+#[path = "reference/pipe_combined.rs"]
+#[allow(dead_code)]
+mod pipe_combined;
+
 use canalis::input::Input;
 use canalis::pipeline::{self, EntranceOptions, SolveConfig, ENTRANCE_CELLS};
 use common::{rel_err, Sandbox};
@@ -252,10 +260,12 @@ fn cli_reports_the_thermal_entrance() {
     );
 }
 
-/// The thermal rating of a round tube with constant properties against the exact Graetz
-/// values at the outlet's x* (tests/reference/graetz.rs): the outlet temperature from the
-/// log-mean balance of the T condition, and for a uniform heat flux the energy balance
-/// (exact) and the outlet wall temperature from the local Nu_x,H (issue 16, item 3).
+/// The thermal rating of a round tube with constant properties: with the fluid's Pr known the
+/// velocity develops with the temperature (issue 17), so against the independent radial march
+/// of simultaneously developing flow at the outlet's x* (tests/reference/pipe_combined.rs):
+/// the outlet temperature from the log-mean balance of the T condition, and for a uniform heat
+/// flux the energy balance (exact) and the outlet wall temperature from the local Nu_x,H
+/// (issue 16, item 3).
 #[test]
 fn rating_of_a_round_tube() {
     let sb = Sandbox::new();
@@ -265,7 +275,7 @@ fn rating_of_a_round_tube() {
     let q = mean * std::f64::consts::PI * d * d / 4.0;
     let (re, pr) = (rho * mean * d / mu, mu * cp / k);
     let x_star = length / (d * re * pr);
-    let reference = &graetz::circle(&[x_star])[0];
+    let reference = &pipe_combined::combined(pr, &[x_star])[0];
     let flow = format!("{}m3/s", q);
     let base = [
         "solve",
@@ -298,11 +308,12 @@ fn rating_of_a_round_tube() {
         rating["nusselt_mean"], reference.nu_t_mean
     );
     assert!(rel_err(rating["x_star"].as_f64().unwrap(), x_star) < 1e-9);
+    // The combined march at x* ≈ 2e-3 (tests/hydrodynamic.rs: about 1 % at Pr = 0.7).
     assert!(
         rel_err(
             rating["nusselt_mean"].as_f64().unwrap(),
             reference.nu_t_mean
-        ) < 3e-3
+        ) < 1.5e-2
     );
     assert!((got - t_out).abs() < 0.01 * (t_out - 20.0));
     let heat = rating["heat_rate_w"].as_f64().unwrap();
@@ -323,7 +334,11 @@ fn rating_of_a_round_tube() {
     let wall = rating["wall_temperature_outlet_c"].as_f64().unwrap();
     let wall_ref = t_out + 2000.0 * d / (k * reference.nu_h_local);
     println!("H: outlet {got:.4} °C, wall {wall:.4} °C vs {wall_ref:.4} °C");
-    assert!((wall - wall_ref).abs() < 3e-3 * (wall_ref - t_out));
+    assert!((wall - wall_ref).abs() < 1.5e-2 * (wall_ref - t_out));
+    assert!(rating["thermal_model"]
+        .as_str()
+        .unwrap()
+        .contains("simultaneously developing"));
 }
 
 /// Boiling water is warned about; every incomplete set of rating options is refused naming the
