@@ -16,7 +16,6 @@ mod rect_graetz;
 mod pipe_developing;
 
 #[path = "reference/pipe_combined.rs"]
-#[allow(dead_code)]
 mod pipe_combined;
 
 use canalis::input::Input;

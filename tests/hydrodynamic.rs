@@ -10,7 +10,6 @@ mod common;
 mod pipe_developing;
 
 #[path = "reference/pipe_combined.rs"]
-#[allow(dead_code)]
 mod pipe_combined;
 
 use canalis::input::Input;

@@ -413,8 +413,8 @@ fn combined_large_pr_vs_graetz() {
     let lo = combined(0.7, &thermal_stations());
     for (p, q) in lo.iter().zip(&c) {
         if p.x_star <= 0.1 {
-            for k in 0..4 {
-                assert!(nus(p)[k] > nus(q)[k], "{} at x* = {}", NAMES[k], p.x_star);
+            for (k, name) in NAMES.iter().enumerate() {
+                assert!(nus(p)[k] > nus(q)[k], "{name} at x* = {}", p.x_star);
             }
         }
     }

@@ -593,7 +593,7 @@ impl ThermalSolution {
 pub fn standard_thermal(pr: f64) -> &'static ThermalSolution {
     static CACHE: OnceLock<Mutex<HashMap<u64, &'static OnceLock<ThermalSolution>>>> =
         OnceLock::new();
-    let cell: &'static OnceLock<ThermalSolution> = *CACHE
+    let cell: &'static OnceLock<ThermalSolution> = CACHE
         .get_or_init(|| Mutex::new(HashMap::new()))
         .lock()
         .unwrap()
