@@ -24,22 +24,24 @@
 //!   from memory, define both means this way).
 //!
 //! # The march
-//! Implicit in x*: one backward-Euler step from the inlet (the inlet profile jumps at the
-//! wall), then variable-step BDF2 (second order; its step-ratio limit 1 + √2 is never
-//! approached, the steps grow by at most [`MarchParams::ratio`]). A step of length Δ with
-//! step ratio ω = Δ/Δ_prev is the shifted problem
+//! Implicit in x*: a three-stage, L-stable, stiffly accurate SDIRK of order 3 (`Sdirk`;
+//! the L-stability damps the jump of the inlet profile at the wall). Every stage of a step of
+//! length Δ is the shifted problem
 //!
 //! ```text
-//!   (a₀·w/(Δ·D²))·θⁿ⁺¹ − ∇²θⁿ⁺¹ = (w/(Δ·D²))·((1 + ω)·θⁿ − ω²/(1 + ω)·θⁿ⁻¹),
-//!   a₀ = (1 + 2ω)/(1 + ω),
+//!   (w/(γ·Δ·D²))·Y − ∇²Y = (w/(γ·Δ·D²))·θⁿ + (1/γ)·Σ_(j<i) a_ij·F_j,
 //! ```
 //!
 //! one solve on [`System`] (the shift per unknown, the same cut-cell operator as the flow
 //! problem). The H1 wall value is one more unknown per passage (a bordered system), found by
-//! superposition: Θ = Θ_p + Θ_w·Φ, with Θ_p the step's solution for walls at 0 and Φ the
-//! solution of the homogeneous step for walls at 1 (two solves per step); the constraint
-//! Θ_b = 4·xⁿ⁺¹ of each passage then gives its Θ_w. The steps start at
-//! [`MarchParams::first`] and grow geometrically, landing on every station.
+//! superposition: Θ = Θ_p + Θ_w·Φ, with Θ_p the stage's solution for walls at 0 and Φ the
+//! solution of the homogeneous stage for walls at 1, solved as Φ = 1 − χ with a right-hand
+//! side free of wall terms (two solves per stage); the constraint Θ_b = 4·x* of each passage
+//! then gives its Θ_w. The steps start at [`MarchParams::first`] and grow geometrically,
+//! landing on every station: the base sequence at most [`MarchParams::ratio`] apart, each of
+//! its steps split into 2^[`MarchParams::halvings`] (so that the march of one halving less has
+//! exactly every other point, for the step-error estimate of `study::entrance`), and no step
+//! longer than the slowest mode allows (see the cap in [`thermal_entrance`]).
 //!
 //! # The Nusselt numbers
 //! The local Nu_x,T is evaluated at each station from the field, not by differencing θ_b

@@ -236,7 +236,7 @@ fn thermal_passage_json(
 
 /// How the entrance values' uncertainty was found.
 const ENTRANCE_UNCERTAINTY_METHOD: &str = "relative, per station: a grid part (a march with \
-    the same steps on a grid of cells / 1.75 at another offset, or the previous grid of an \
+    the same steps on a grid of cells / 1.5 at another offset, or the previous grid of an \
     --accuracy refinement; order 2 assumed, safety factor 3) plus a step part (a march on the \
     same grid with every step twice as long; order 3 assumed, safety factor 3); means at least \
     the weighted average of the local values' uncertainty upstream";
