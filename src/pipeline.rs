@@ -673,6 +673,11 @@ struct FineMarch {
 /// when the target was not met and when stations closer to the inlet are above it. Returns
 /// the (possibly refined) fine march with its uncertainty; no uncertainty when a coarser grid
 /// does not pass the resolution check.
+///
+/// Measured on the round tube against the exact Graetz series, from x* = 1e-4 on (largest
+/// error, largest uncertainty): default 300 cells, 8 steps per decade: 2.1e-3, 9.6e-3;
+/// `--accuracy 5e-3`: 486 cells, 8 steps: 1.4e-3, 3.8e-3 (32 s on two threads);
+/// `--accuracy 1e-3`: 1094 cells, 16 steps: 5.4e-4, 8.7e-4 (about 10 minutes).
 fn entrance_estimate(
     config: &SolveConfig,
     first_unit: &UnitSolution,
