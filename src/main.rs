@@ -196,8 +196,10 @@ struct SolveArgs {
     quiet: bool,
     /// Refine the grid until the relative numerical uncertainty (Grid Convergence Index) of f·Re
     /// and of the Nusselt numbers is below TOL, e.g. 1e-4; grids of ratio 1.5 from 64 cells (or
-    /// from --cells), up to --max-memory. Without it the report carries a cheap estimate from
-    /// one coarser grid.
+    /// from --cells), up to --max-memory. With --entrance also the entrance march (its grid
+    /// from --entrance-cells up to 1200 cells, its steps up to 32 per decade) until the entrance
+    /// values from x* = 1e-4 on meet TOL. Without it the report carries a cheap estimate from
+    /// one coarser grid (and for the entrance one coarser grid and one march of longer steps).
     #[arg(long, value_name = "TOL", allow_hyphen_values = true)]
     accuracy: Option<f64>,
     /// Add the entrance regions of the passage to the report: the thermal entrance (local and

@@ -88,12 +88,20 @@ pub struct EntranceOutcome {
     pub unknowns: usize,
 }
 
-/// The relative numerical uncertainty of the entrance values (see
-/// `pipeline::entrance_uncertainty`): per passage, for Nu_x,T, Nu_m,T, Nu_x,H1, Nu_m,H1 in that
-/// order, one value per station.
+/// The relative numerical uncertainty of the entrance values (`study::entrance`): per passage,
+/// for Nu_x,T, Nu_m,T, Nu_x,H1, Nu_m,H1 in that order, one value per station; the sum of a
+/// grid part and a step part.
 #[derive(Debug, Clone)]
 pub struct EntranceUncertainty {
-    /// Cells across and down of the coarser grid.
+    /// Cells across and down of the coarser grid of the grid part.
     pub coarse_cells: (usize, usize),
+    /// Steps per decade of x* of the fine march and of the march of the step part (the base
+    /// sequence's segments from 1 to 10, before the slowest-mode cap).
+    pub steps_per_decade: (usize, usize),
+    /// The total, U_grid + U_step.
     pub passages: Vec<[Vec<f64>; 4]>,
+    pub parts: crate::study::entrance::Parts,
+    /// `--accuracy`: the target (applied from x* = `study::entrance::ACCURACY_FROM` on) and
+    /// whether every value there met it.
+    pub target: Option<(f64, bool)>,
 }

@@ -260,7 +260,7 @@ pub struct EntranceOptions {
 pub const MAX_PRANDTL: f64 = 1e5;
 
 /// Default of `--entrance-cells`: measured on the round tube against the exact Graetz series
-/// (tests/entrance.rs), 300 cells keep every local and mean Nusselt number within 0.2 % from
+/// (tests/entrance.rs), 300 cells keep every local and mean Nusselt number within 0.21 % from
 /// x* = 1e-4 on, inside the 1 % and 0.3 % asked for, at a quarter of the cost of 600 cells
 /// (BENCHMARKS.md).
 pub const ENTRANCE_CELLS: usize = 300;
@@ -565,7 +565,15 @@ pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outc
     };
     if let Some(options) = entrance {
         monitor.stage("marching the thermal entrance");
-        outcome.entrance = Some(run_entrance(config, &outcome, options, monitor)?);
+        let mut warnings = Vec::new();
+        outcome.entrance = Some(run_entrance(
+            config,
+            &outcome,
+            options,
+            &mut warnings,
+            monitor,
+        )?);
+        outcome.warnings.extend(warnings);
     }
     finish_pressure_drop(config, &mut outcome, monitor)?;
     if let (Some(spec), Some(op), Some(point), Some(e)) = (
@@ -620,143 +628,294 @@ fn flow_of(unit: &UnitSolution) -> Flow<'_> {
     }
 }
 
-/// Longer march steps of the coarse march of [`entrance_uncertainty`].
-const ENTRANCE_CHEAP_STEP_RATIO: f64 = 2.0;
+/// Finest entrance grid `--accuracy` refines to (cells across; a march there takes about
+/// 15 times one at the default 300 cells).
+pub const ENTRANCE_MAX_CELLS: usize = 1200;
+/// Most halvings of the base step sequence `--accuracy` refines to (32 steps per decade).
+pub const ENTRANCE_MAX_HALVINGS: u32 = 3;
+/// Ratio of the coarser grid of the entrance estimate's grid part to the fine one: 1.5 rather
+/// than the 1.75 of the fully developed figures, so that the thermal layer is resolved on
+/// both grids from x* = 1e-5 on at the default 300 cells of a round tube (below four cells
+/// across, the thin-layer limit stands in on the coarser grid, and the pair then measures
+/// that limit's error rather than the grid's; measured: 3.2e-2 at x* = 1e-5 with 171 cells,
+/// carried into the means up to x* = 1e-3). A coarse march costs about 0.45 of the fine one.
+const ENTRANCE_COARSE: f64 = 1.5;
+/// Refinement ratio of the entrance grid per round of `--accuracy`.
+const ENTRANCE_REFINE: f64 = 1.5;
 
-/// The entrance values' numerical uncertainty, in the way of the cheap estimate of the flow
-/// figures ([`study`]: one coarser grid, cells/1.75 at another offset, order 2 assumed, safety
-/// factor 3), with the coarse march also taking longer steps (ratio 2 instead of 1.5): the
-/// difference then holds the grid's and the steps' errors together, each larger on the coarse
-/// march, so the bound errs on the safe side for both. Per station and quantity:
-/// U = 3·|v_fine − v_coarse|/(1.75² − 1)/|v_fine|.
-fn entrance_uncertainty(
-    config: &SolveConfig,
-    fine_cells: usize,
-    fine: &crate::entrance::ThermalEntrance,
-    monitor: &dyn Monitor,
-) -> Result<Option<EntranceUncertainty>> {
-    let cells = study::cheap_cells(fine_cells);
-    let flow_config = SolveConfig {
+/// The march's control for a run with `halvings` of the base step sequence: the default, and
+/// for `--accuracy TOL` solves tight enough that their error stays well below the target
+/// (TOL·1e-4 at most). Measured on the round tube at 300 cells and 8 steps per decade:
+/// tolerances of 1e-7 (the default) and 1e-8 give the same Nusselt numbers within 2e-5.
+fn march_params(estimate: ErrorEstimate, halvings: u32) -> MarchParams {
+    let default = MarchParams::default();
+    let tolerance = match estimate {
+        ErrorEstimate::Accuracy(tol) => (tol * 1e-4).min(default.tolerance),
+        _ => default.tolerance,
+    };
+    MarchParams {
+        halvings,
+        tolerance,
+        ..default
+    }
+}
+
+/// The configuration that solves the flow of an entrance march on `cells` cells at `offset`.
+fn entrance_flow_config(config: &SolveConfig, cells: usize, offset: [f64; 2]) -> SolveConfig {
+    SolveConfig {
         cells: Some(cells),
         operating: None,
         error_estimate: ErrorEstimate::Off,
         entrance: None,
         rating: None,
-        offset: [
-            (config.offset[0] + study::CHEAP_OFFSET[0]).fract(),
-            (config.offset[1] + study::CHEAP_OFFSET[1]).fract(),
-        ],
+        offset,
         ..config.clone()
-    };
-    // A coarser grid that cannot resolve the section gives no estimate.
-    if !matches!(check_resolution(&flow_config), Ok(None)) {
-        return Ok(None);
     }
-    let coarse_run = run_once(&flow_config, monitor)?;
-    let unit = &coarse_run.unit;
-    let flow = flow_of(unit);
-    monitor.stage("estimating the thermal entrance's numerical error");
-    let coarse = thermal_entrance(
-        &flow,
-        None,
-        &fine.x_star,
-        config.unit.method,
-        &MarchParams {
-            ratio: ENTRANCE_CHEAP_STEP_RATIO,
-            ..MarchParams::default()
-        },
-    )?;
-    if coarse.passages.len() != fine.passages.len() {
-        return Err(Error::Numerical(format!(
-            "the coarser grid of the entrance estimate ({cells} cells) has {} passages, the \
-             fine one {}: refine --entrance-cells",
-            coarse.passages.len(),
-            fine.passages.len()
-        )));
-    }
-    let factor = study::SAFETY_FACTOR_CAUTIOUS / (study::CHEAP_RATIO.powi(2) - 1.0);
-    let bound = |f: &[f64], c: &[f64]| -> Vec<f64> {
-        f.iter()
-            .zip(c)
-            .map(|(a, b)| factor * (a - b).abs() / a.abs())
-            .collect()
-    };
-    let passages = fine
-        .passages
-        .iter()
-        .zip(&coarse.passages)
-        .map(|(f, c)| {
-            let t_local = bound(&f.nusselt_t_local, &c.nusselt_t_local);
-            let h1_local = bound(&f.nusselt_h1_local, &c.nusselt_h1_local);
-            // A mean over 0..x* averages the local values upstream, whose errors near the inlet
-            // both grids share in part: it is given at least the average of the local
-            // uncertainties upstream, weighted as the mean weighs the local values (Nu_x·Δx*
-            // between stations, 1.5·Nu_x·x* over the first, where Nu_x ∝ x*^(−1/3)). Measured on
-            // the round tube: the H1 mean at x* = 1e-4 was 2.0e-3 off where the two grids
-            // differed by an estimate of 1.2e-3.
-            let mean = |own: Vec<f64>, local_u: &[f64], local: &[f64], means: &[f64]| {
-                let mut sum = 0.0;
-                let mut x_prev = 0.0;
-                own.iter()
-                    .enumerate()
-                    .map(|(i, &m)| {
-                        let x = fine.x_star[i];
-                        let w = if i == 0 { 1.5 * x } else { x - x_prev };
-                        sum += local_u[i] * local[i] * w;
-                        x_prev = x;
-                        m.max(sum / (means[i] * x))
-                    })
-                    .collect::<Vec<f64>>()
-            };
-            [
-                t_local.clone(),
-                mean(
-                    bound(&f.nusselt_t_mean, &c.nusselt_t_mean),
-                    &t_local,
-                    &f.nusselt_t_local,
-                    &f.nusselt_t_mean,
-                ),
-                h1_local.clone(),
-                mean(
-                    bound(&f.nusselt_h1_mean, &c.nusselt_h1_mean),
-                    &h1_local,
-                    &f.nusselt_h1_local,
-                    &f.nusselt_h1_mean,
-                ),
-            ]
-        })
-        .collect();
-    Ok(Some(EntranceUncertainty {
-        coarse_cells: unit.classified.grid.cells(),
-        passages,
-    }))
 }
 
-/// The thermal entrance of a run's cross-section ([`crate::entrance`]): on the run's own unit
-/// solution when its grid has at most `options.cells` cells across (or is a mask's pixel grid),
-/// otherwise on the flow solved again on a grid of that many cells.
-fn run_entrance(
+/// The flow of an entrance march on `cells` cells at `offset`; None when that grid does not
+/// pass the resolution check.
+fn entrance_flow(
     config: &SolveConfig,
-    outcome: &Outcome,
-    options: EntranceOptions,
+    cells: usize,
+    offset: [f64; 2],
     monitor: &dyn Monitor,
-) -> Result<EntranceOutcome> {
-    let mut coarser = None;
-    let unit = entrance_unit(config, outcome, options.cells, monitor, &mut coarser)?;
-    let heat = unit.heat.as_ref();
-    let fully_developed: Option<Vec<(f64, f64)>> = match (heat, unit.passages.len()) {
+) -> Result<Option<Outcome>> {
+    let flow = entrance_flow_config(config, cells, offset);
+    if !matches!(check_resolution(&flow), Ok(None)) {
+        return Ok(None);
+    }
+    run_once(&flow, monitor).map(Some)
+}
+
+/// The thermal entrance marched on `unit`'s flow, at the standard stations, with the fully
+/// developed values of a connected section for the entrance lengths.
+fn march(
+    config: &SolveConfig,
+    unit: &UnitSolution,
+    params: &MarchParams,
+) -> Result<crate::entrance::ThermalEntrance> {
+    let fully_developed: Option<Vec<(f64, f64)>> = match (unit.heat.as_ref(), unit.passages.len()) {
         (Some(h), 1) => Some(vec![(h.nusselt_t, h.nusselt_h1)]),
         _ => None,
     };
-    let flow = flow_of(unit);
-    monitor.stage("marching the thermal entrance");
-    let thermal = thermal_entrance(
-        &flow,
+    thermal_entrance(
+        &flow_of(unit),
         fully_developed.as_deref(),
         &standard_stations(),
         config.unit.method,
-        &MarchParams::default(),
-    )?;
+        params,
+    )
+}
+
+/// The fine march of an entrance estimate with what it was marched on.
+struct FineMarch {
+    thermal: crate::entrance::ThermalEntrance,
+    cells: (usize, usize),
+    unknowns: usize,
+}
+
+/// The entrance values' numerical uncertainty ([`crate::study::entrance`]): the step part from
+/// a march on the same grid with every step twice as long (one halving less), the grid part
+/// from a march with the same steps on a grid of cells / [`ENTRANCE_COARSE`] at another
+/// offset (as the cheap estimate of the fully developed figures, shifted by
+/// [`study::CHEAP_OFFSET`]); U = U_grid + U_step per station and quantity.
+///
+/// With `--accuracy TOL` the part that dominates at the stations from x* =
+/// [`crate::study::entrance::ACCURACY_FROM`] on is refined until U meets TOL there: the steps
+/// by halving them (the old fine march becomes the step part's partner), the grid by
+/// [`ENTRANCE_REFINE`] (the old fine march becomes the grid part's partner, same offset), up
+/// to [`ENTRANCE_MAX_HALVINGS`], [`ENTRANCE_MAX_CELLS`] and the memory limit; a warning says
+/// when the target was not met and when stations closer to the inlet are above it. Returns
+/// the (possibly refined) fine march with its uncertainty; no uncertainty when a coarser grid
+/// does not pass the resolution check.
+///
+/// Measured on the round tube against the exact Graetz series, from x* = 1e-4 on (largest
+/// error, largest uncertainty): default 300 cells, 8 steps per decade: 2.1e-3, 9.6e-3;
+/// `--accuracy 5e-3`: 486 cells, 8 steps: 1.4e-3, 3.8e-3 (32 s on two threads);
+/// `--accuracy 1e-3`: 1094 cells, 16 steps: 5.4e-4, 8.7e-4 (about 10 minutes).
+fn entrance_estimate(
+    config: &SolveConfig,
+    first_unit: &UnitSolution,
+    first: crate::entrance::ThermalEntrance,
+    params: MarchParams,
+    warnings: &mut Vec<String>,
+    monitor: &dyn Monitor,
+) -> Result<(FineMarch, Option<EntranceUncertainty>)> {
+    use crate::study::entrance::{parts, ACCURACY_FROM};
+    let target = match config.error_estimate {
+        ErrorEstimate::Accuracy(tol) => Some(tol),
+        _ => None,
+    };
+    let mut params = params;
+    let mut refined: Option<Outcome> = None;
+    let mut fine = first;
+    let mut steps: Option<crate::entrance::ThermalEntrance> = None;
+    // The grid part's march, its spacing and cells.
+    let mut coarse: Option<(crate::entrance::ThermalEntrance, f64, (usize, usize))> = None;
+    loop {
+        let unit = refined.as_ref().map_or(first_unit, |o| &o.unit);
+        let grid = &unit.classified.grid;
+        let (cx, cy) = grid.cells();
+        let fine_march = |thermal| FineMarch {
+            thermal,
+            cells: (cx, cy),
+            unknowns: unit.numbering.len(),
+        };
+        if steps.is_none() {
+            monitor.stage("estimating the thermal entrance's step error");
+            let p = MarchParams {
+                halvings: params.halvings.saturating_sub(1),
+                ..params
+            };
+            steps = Some(march(config, unit, &p)?);
+        }
+        if coarse.is_none() {
+            let cells = (cx.max(cy) as f64 / ENTRANCE_COARSE).round() as usize;
+            let offset = [
+                (config.offset[0] + study::CHEAP_OFFSET[0]).fract(),
+                (config.offset[1] + study::CHEAP_OFFSET[1]).fract(),
+            ];
+            // A coarser grid that cannot resolve the section gives no estimate.
+            let Some(o) = entrance_flow(config, cells, offset, monitor)? else {
+                return Ok((fine_march(fine), None));
+            };
+            monitor.stage("estimating the thermal entrance's grid error");
+            let c = march(config, &o.unit, &params)?;
+            coarse = Some((c, o.unit.classified.grid.h, o.unit.classified.grid.cells()));
+        }
+        let (Some(step_march), Some((coarse_march, coarse_h, coarse_cells))) = (&steps, &coarse)
+        else {
+            unreachable!("both marches were just made");
+        };
+        if coarse_march.passages.len() != fine.passages.len() {
+            return Err(Error::Numerical(format!(
+                "the coarser grid of the entrance estimate ({} cells) has {} passages, the \
+                 fine one {}: refine --entrance-cells",
+                coarse_cells.0.max(coarse_cells.1),
+                coarse_march.passages.len(),
+                fine.passages.len()
+            )));
+        }
+        let split = parts(&fine, step_march, coarse_march, coarse_h / grid.h);
+        let worst = split.worst_from(&fine.x_star, ACCURACY_FROM);
+        let spd = |halvings| MarchParams { halvings, ..params }.steps_per_decade();
+        let uncertainty = |reached: bool| EntranceUncertainty {
+            coarse_cells: *coarse_cells,
+            steps_per_decade: (
+                params.steps_per_decade(),
+                spd(params.halvings.saturating_sub(1)),
+            ),
+            passages: split.total(),
+            parts: split.clone(),
+            target: target.map(|t| (t, reached)),
+        };
+        let Some(tol) = target else {
+            let u = uncertainty(false);
+            return Ok((fine_march(fine), Some(u)));
+        };
+        let reached = worst.total <= tol;
+        // Which part to refine: the larger, or the other when the larger cannot be.
+        let next_cells = (cx.max(cy) as f64 * ENTRANCE_REFINE).round() as usize;
+        let next_bytes = grid.len() as f64 * ENTRANCE_REFINE.powi(2) * BYTES_PER_NODE as f64;
+        let can_grid = next_cells <= ENTRANCE_MAX_CELLS && next_bytes <= config.memory_limit as f64;
+        let can_step = params.halvings < ENTRANCE_MAX_HALVINGS;
+        let refine_step = match (can_step, can_grid) {
+            _ if reached => None,
+            (true, true) => Some(worst.step >= worst.grid),
+            (true, false) => Some(true),
+            (false, true) => Some(false),
+            (false, false) => None,
+        };
+        match refine_step {
+            Some(true) => {
+                monitor.stage("refining the thermal entrance's steps");
+                params = march_params(config.error_estimate, params.halvings + 1);
+                let finer = march(config, unit, &params)?;
+                steps = Some(std::mem::replace(&mut fine, finer));
+                coarse = None;
+            }
+            Some(false) => {
+                monitor.stage("refining the thermal entrance's grid");
+                let Some(o) = entrance_flow(config, next_cells, config.offset, monitor)? else {
+                    warnings.push(entrance_target_note(tol, &worst, (cx, cy), &params, false));
+                    return Ok((fine_march(fine), Some(uncertainty(false))));
+                };
+                let finer = march(config, &o.unit, &params)?;
+                coarse = Some((std::mem::replace(&mut fine, finer), grid.h, (cx, cy)));
+                steps = None;
+                refined = Some(o);
+            }
+            None => {
+                if !reached {
+                    warnings.push(entrance_target_note(tol, &worst, (cx, cy), &params, true));
+                }
+                let u = uncertainty(reached);
+                // The stations closer to the inlet than the target applies to.
+                let total = &u.passages;
+                let upstream = total
+                    .iter()
+                    .flat_map(|q| q.iter())
+                    .flat_map(|v| fine.x_star.iter().zip(v))
+                    .filter(|(x, _)| **x < ACCURACY_FROM * (1.0 - 1e-9))
+                    .fold(0.0f64, |a, (_, &b)| {
+                        a.max(if b.is_nan() { f64::INFINITY } else { b })
+                    });
+                if upstream > tol {
+                    warnings.push(format!(
+                        "entrance values closer to the inlet than x* = {ACCURACY_FROM:e} are not \
+                         held to --accuracy {tol:e}: the thermal layer there is only a few grid \
+                         cells thick; their relative uncertainty is up to {upstream:.1e}"
+                    ));
+                }
+                return Ok((fine_march(fine), Some(u)));
+            }
+        }
+    }
+}
+
+/// The warning of an entrance estimate that stopped short of `--accuracy`.
+fn entrance_target_note(
+    tol: f64,
+    worst: &crate::study::entrance::Worst,
+    cells: (usize, usize),
+    params: &MarchParams,
+    at_limit: bool,
+) -> String {
+    format!(
+        "the thermal entrance did not reach --accuracy {tol:e}: its largest relative \
+         uncertainty from x* = {:e} on is {:.1e} (grid part {:.1e}, step part {:.1e}) on {} × {} \
+         cells with {} steps per decade{}",
+        crate::study::entrance::ACCURACY_FROM,
+        worst.total,
+        worst.grid,
+        worst.step,
+        cells.0,
+        cells.1,
+        params.steps_per_decade(),
+        if at_limit {
+            format!(
+                ", as far as the entrance march is refined ({ENTRANCE_MAX_CELLS} cells, {} \
+                 steps per decade, or --max-memory)",
+                march_params(ErrorEstimate::Off, ENTRANCE_MAX_HALVINGS).steps_per_decade()
+            )
+        } else {
+            " (a finer grid did not pass the resolution check)".to_string()
+        }
+    )
+}
+
+/// The developing flow of a run's cross-section from a uniform inlet ([`crate::hydrodynamic`])
+/// on the thermal entrance's grid, with the energy equation when the Prandtl number is known
+/// (`--prandtl`, or the operating point's fluid): the thermal march's thin-layer limits and
+/// fully developed values go with it.
+fn march_developing(
+    config: &SolveConfig,
+    outcome: &Outcome,
+    unit: &UnitSolution,
+    thermal: &crate::entrance::ThermalEntrance,
+    monitor: &dyn Monitor,
+) -> Result<crate::hydrodynamic::HydrodynamicEntrance> {
     monitor.stage("marching the developing velocity");
     // The slowest thermal mode's rate 4·Nu_T bounds the developing flow's steps.
     let decay = 4.0
@@ -780,26 +939,62 @@ fn run_entrance(
             .map(|p| (p.nusselt_t_fully_developed, p.nusselt_h1_fully_developed))
             .collect(),
     });
-    let hydrodynamic = hydrodynamic_entrance(
-        &flow,
+    hydrodynamic_entrance(
+        &flow_of(unit),
         &standard_stations(),
         decay,
         config.unit.method,
         &HydroParams::default(),
         combined.as_ref(),
-    )?;
-    let fine_cells = unit.classified.grid.cells();
-    let uncertainty = if outcome.fixed_grid || config.error_estimate == ErrorEstimate::Off {
-        None
+    )
+}
+
+/// The thermal entrance of a run's cross-section ([`crate::entrance`]): on the run's own unit
+/// solution when its grid has at most `options.cells` cells across (or is a mask's pixel grid),
+/// otherwise on the flow solved again on a grid of that many cells; with its uncertainty
+/// ([`entrance_estimate`]) unless the run has none, refined under `--accuracy`.
+fn run_entrance(
+    config: &SolveConfig,
+    outcome: &Outcome,
+    options: EntranceOptions,
+    warnings: &mut Vec<String>,
+    monitor: &dyn Monitor,
+) -> Result<EntranceOutcome> {
+    let (cx, cy) = outcome.unit.classified.grid.cells();
+    let coarser;
+    let unit = if outcome.fixed_grid || cx.max(cy) <= options.cells {
+        &outcome.unit
     } else {
-        entrance_uncertainty(config, fine_cells.0.max(fine_cells.1), &thermal, monitor)?
+        // The entrance grid must pass the resolution check too; where it does not, the march
+        // takes the run's own grid, which did.
+        match entrance_flow(config, options.cells, config.offset, monitor)? {
+            Some(o) => {
+                coarser = o;
+                &coarser.unit
+            }
+            None => &outcome.unit,
+        }
     };
+    monitor.stage("marching the thermal entrance");
+    let params = march_params(config.error_estimate, MarchParams::default().halvings);
+    let thermal = march(config, unit, &params)?;
+    let hydrodynamic = march_developing(config, outcome, unit, &thermal, monitor)?;
+    if outcome.fixed_grid || config.error_estimate == ErrorEstimate::Off {
+        return Ok(EntranceOutcome {
+            thermal,
+            hydrodynamic: Some(hydrodynamic),
+            uncertainty: None,
+            cells: unit.classified.grid.cells(),
+            unknowns: unit.numbering.len(),
+        });
+    }
+    let (fine, uncertainty) = entrance_estimate(config, unit, thermal, params, warnings, monitor)?;
     Ok(EntranceOutcome {
-        thermal,
+        thermal: fine.thermal,
         hydrodynamic: Some(hydrodynamic),
         uncertainty,
-        cells: unit.classified.grid.cells(),
-        unknowns: unit.numbering.len(),
+        cells: fine.cells,
+        unknowns: fine.unknowns,
     })
 }
 

@@ -7,8 +7,9 @@ use crate::correlations::Regime;
 use crate::entrance::PassageEntrance;
 use crate::hydrodynamic::{Combined, HydrodynamicEntrance, PassageDeveloping};
 use crate::operating::OperatingResult;
-use crate::outcome::{EntranceOutcome, Outcome};
+use crate::outcome::{EntranceOutcome, EntranceUncertainty, Outcome};
 use crate::rating::{PassageRating, Rating};
+use crate::study::entrance::ACCURACY_FROM;
 use crate::study::{Kind, Uncertainty};
 use crate::units::format_significant;
 use serde_json::{json, Map, Value};
@@ -193,7 +194,7 @@ pub fn json_report(o: &Outcome) -> Value {
 fn thermal_passage_json(
     x_star: &[f64],
     p: &PassageEntrance,
-    uncertainty: Option<&[Vec<f64>; 4]>,
+    uncertainty: Option<(&EntranceUncertainty, usize)>,
 ) -> Map<String, Value> {
     let arr = |v: &[f64]| Value::Array(v.iter().map(|&x| finite(x)).collect());
     let opt = |v: Option<f64>| v.map_or(Value::Null, finite);
@@ -213,32 +214,57 @@ fn thermal_passage_json(
         "nusselt_h1_fully_developed".into(),
         finite(p.nusselt_h1_fully_developed),
     );
-    if let Some(u) = uncertainty {
-        t.insert(
-            "uncertainty".into(),
+    if let Some((u, k)) = uncertainty {
+        let four = |v: &[Vec<f64>; 4]| {
             json!({
-                "method": ENTRANCE_UNCERTAINTY_METHOD,
-                "nusselt_t_local": arr(&u[0]),
-                "nusselt_t_mean": arr(&u[1]),
-                "nusselt_h1_local": arr(&u[2]),
-                "nusselt_h1_mean": arr(&u[3]),
-            }),
-        );
+                "nusselt_t_local": arr(&v[0]),
+                "nusselt_t_mean": arr(&v[1]),
+                "nusselt_h1_local": arr(&v[2]),
+                "nusselt_h1_mean": arr(&v[3]),
+            })
+        };
+        if let (Some(total), Some(grid), Some(step)) =
+            (u.passages.get(k), u.parts.grid.get(k), u.parts.step.get(k))
+        {
+            let mut m = match four(total) {
+                Value::Object(m) => m,
+                _ => Map::new(),
+            };
+            m.insert("method".into(), json!(ENTRANCE_UNCERTAINTY_METHOD));
+            m.insert("grid_part".into(), four(grid));
+            m.insert("step_part".into(), four(step));
+            m.insert(
+                "coarse_grid".into(),
+                json!({ "cells_x": u.coarse_cells.0, "cells_y": u.coarse_cells.1 }),
+            );
+            m.insert(
+                "steps_per_decade".into(),
+                json!({ "fine": u.steps_per_decade.0, "step_part": u.steps_per_decade.1 }),
+            );
+            if let Some((target, reached)) = u.target {
+                m.insert("target".into(), finite(target));
+                m.insert("target_from_x_star".into(), finite(ACCURACY_FROM));
+                m.insert("target_reached".into(), json!(reached));
+            }
+            t.insert("uncertainty".into(), Value::Object(m));
+        }
     }
     t
 }
 
 /// How the entrance values' uncertainty was found.
-const ENTRANCE_UNCERTAINTY_METHOD: &str = "relative, per station: one coarser march (cells / \
-    1.75 at another grid offset, steps of ratio 2 instead of 1.5), order 2 assumed, safety \
-    factor 3 (the cheap estimate of the fully developed figures, Roache 1994)";
+const ENTRANCE_UNCERTAINTY_METHOD: &str = "relative, per station: a grid part (a march with \
+    the same steps on a grid of cells / 1.5 at another offset, or the previous grid of an \
+    --accuracy refinement; order 2 assumed, safety factor 3) plus a step part (a march on the \
+    same grid with every step twice as long; order 3 assumed, safety factor 3); means at least \
+    the weighted average of the local values' uncertainty upstream";
 
 /// The `entrance` object: `thermal` with the contract's keys for the first passage (the only
 /// one of a connected cross-section), each passage's own under `thermal.passages` when there
 /// are several, and as extensions the model, the march's grid and its cost.
 fn entrance_json(e: &EntranceOutcome) -> Value {
     let th = &e.thermal;
-    let unc = |k: usize| e.uncertainty.as_ref().and_then(|u| u.passages.get(k));
+    let unc = |k: usize| e.uncertainty.as_ref().map(|u| (u, k));
     let mut t = match th.passages.first() {
         Some(p) => thermal_passage_json(&th.x_star, p, unc(0)),
         None => Map::new(),
@@ -1099,8 +1125,12 @@ fn thermal_summary(s: &mut String, e: &EntranceOutcome) {
             );
         }
         if let Some(u) = e.uncertainty.as_ref().and_then(|u| u.passages.get(k)) {
-            // The largest relative uncertainty of the four quantities from x* = 1e-4 on.
-            let from = th.x_star.iter().position(|&x| x >= 1e-4 * (1.0 - 1e-9));
+            // The largest relative uncertainty of the four quantities from x* = 1e-4 on (where
+            // `--accuracy` applies).
+            let from = th
+                .x_star
+                .iter()
+                .position(|&x| x >= ACCURACY_FROM * (1.0 - 1e-9));
             let worst = from.map_or(f64::NAN, |i0| {
                 u.iter()
                     .flat_map(|v| v[i0..].iter())
@@ -1108,7 +1138,8 @@ fn thermal_summary(s: &mut String, e: &EntranceOutcome) {
             });
             let _ = writeln!(
                 s,
-                "  numerical uncertainty: at most {} (relative, x* ≥ 1e-4; one coarser march)",
+                "  numerical uncertainty: at most {} (relative, x* ≥ {ACCURACY_FROM:e}; grid and \
+                 steps)",
                 sig(worst, 2)
             );
         }

@@ -49,6 +49,7 @@
 //!   1994, for two-grid studies).
 //! - Changes at the level of round-off give the floor [`ROUND_OFF_FLOOR`] instead of zero.
 
+pub mod entrance;
 pub mod runs;
 
 /// Formal order of accuracy of the cut-cell scheme for the figures of merit (Gibou et al. 2002,
