@@ -88,7 +88,9 @@ struct SolveArgs {
     /// velocity.png, wall_shear.png, temperature_h1.png (the H1 temperature field),
     /// velocity.csv, wall_shear.csv, velocity.vti (VTK) and report.json; with --entrance (or a
     /// thermal rating) also entrance.png (local and mean Nu_T, Nu_H1 against x*, the outlet
-    /// marked with --length) and entrance.csv (those curves at every march point).
+    /// marked with --length) and entrance.csv (those curves at every march point), and
+    /// hydrodynamic.png (apparent f·Re, u_max/ū and K(x) against x+ from a uniform inlet, the
+    /// outlet marked with --length) and hydrodynamic.csv (those curves at every march point).
     #[arg(long, value_name = "DIR")]
     out: Option<PathBuf>,
     /// Width of the pictures written by --out, pixels (400 to 8000).

@@ -456,7 +456,8 @@ fn image_width_out_of_range_is_refused() {
     assert!(!sb.path("o").exists(), "nothing is written after a refusal");
 }
 
-/// The `canalis:plot` chunk of entrance.png: one map per panel, key → value.
+/// The `canalis:plot` chunk of entrance.png or hydrodynamic.png: one map per panel, key →
+/// value (the numeric ones; `scale`, `y`, … are words).
 fn plot_maps(bytes: &[u8]) -> Vec<HashMap<String, f64>> {
     let reader = png::Decoder::new(std::io::Cursor::new(bytes))
         .read_info()
@@ -475,8 +476,7 @@ fn plot_maps(bytes: &[u8]) -> Vec<HashMap<String, f64>> {
             panel
                 .split_whitespace()
                 .filter_map(|kv| kv.split_once('='))
-                .filter(|(k, _)| *k != "scale")
-                .map(|(k, v)| (k.to_string(), num(v)))
+                .filter_map(|(k, v)| Some((k.to_string(), v.parse::<f64>().ok()?)))
                 .collect()
         })
         .collect()
@@ -626,6 +626,7 @@ fn issue_16_entrance_files_only_with_the_entrance() {
     let out = sb.path("o");
     std::fs::create_dir_all(&out).unwrap();
     std::fs::write(out.join("entrance.csv"), "keep me").unwrap();
+    std::fs::write(out.join("hydrodynamic.png"), "keep me").unwrap();
     solve_into(&sb, "o", &["circle:d=8mm", "--cells", "40"]);
     let mut names: Vec<String> = std::fs::read_dir(&out)
         .unwrap()
@@ -635,7 +636,7 @@ fn issue_16_entrance_files_only_with_the_entrance() {
     let mut want: Vec<String> = canalis::output::FILES
         .iter()
         .map(|s| s.to_string())
-        .chain(["entrance.csv".to_string()])
+        .chain(["entrance.csv".to_string(), "hydrodynamic.png".to_string()])
         .collect();
     want.sort();
     assert_eq!(names, want, "the files of --out without --entrance");
@@ -715,4 +716,252 @@ fn issue_16_entrance_plot_marks_the_outlet() {
     // Well away from it, no such line.
     let away = m["left_px"] + 0.5 * (px - m["left_px"]);
     assert!(((dark(away as u32)) as f64) < 0.2 * (bottom - top) as f64);
+}
+
+/// Issue 17, item 5: `--entrance --out` adds hydrodynamic.png (f_app·Re, u_max/ū and K(x)
+/// against x+) and hydrodynamic.csv (those curves at every march point); the CSV's rows at the
+/// stations are the report's `entrance.hydrodynamic` arrays, and a hydrodynamic file in the way
+/// stops an entrance run before the solve.
+#[test]
+fn issue_17_hydrodynamic_plot_and_curves() {
+    let sb = Sandbox::new();
+    let report = solve_into(
+        &sb,
+        "o",
+        &[
+            "circle:d=8mm",
+            "--cells",
+            "80",
+            "--entrance",
+            "--entrance-cells",
+            "80",
+            "--image-width",
+            "900",
+        ],
+    );
+    let out = sb.path("o");
+    let mut expected: Vec<PathBuf> = files(&out);
+    expected.extend(canalis::output::entrance::FILES.iter().map(|f| out.join(f)));
+    expected.extend(
+        canalis::output::hydrodynamic::FILES
+            .iter()
+            .map(|f| out.join(f)),
+    );
+    assert_eq!(
+        canalis::output::hydrodynamic::FILES,
+        ["hydrodynamic.png", "hydrodynamic.csv"]
+    );
+    for f in &expected {
+        assert!(f.exists(), "{} is written", f.display());
+    }
+
+    // The table: every march point, x+ rising from below the axis to 1.
+    let (header, rows) = csv(&out.join("hydrodynamic.csv"));
+    assert_eq!(
+        header,
+        [
+            "passage",
+            "x_plus",
+            "apparent_f_re",
+            "incremental_pressure_drop",
+            "max_to_mean_velocity"
+        ]
+    );
+    let values: Vec<Vec<f64>> = rows
+        .iter()
+        .map(|r| r.iter().map(|s| num(s)).collect())
+        .collect();
+    assert!(values.len() > 30, "{} rows", values.len());
+    assert!(values.iter().all(|r| r[0] == 1.0), "a single passage");
+    assert!(values.iter().all(|r| r[1..].iter().all(|v| v.is_finite())));
+    assert!(values[0][1] <= 1e-5, "first x+ {}", values[0][1]);
+    assert_eq!(values.last().unwrap()[1], 1.0);
+    assert!(values.windows(2).all(|w| w[1][1] > w[0][1]), "x+ increases");
+    // u_max/ū: uniform at the inlet, the section's fully developed value at the end (the
+    // march's grid is coarser than nothing else here: both grids have 80 cells).
+    assert!(
+        values[0][4] >= 1.0 && values[0][4] < 1.1,
+        "{}",
+        values[0][4]
+    );
+    let developed = num_at(&report, "max_to_mean_velocity");
+    let last = values.last().unwrap()[4];
+    assert!(
+        (last - developed).abs() < 0.02 * developed,
+        "u_max/ū at x+ = 1: {last}, fully developed {developed}"
+    );
+
+    // The report's stations are rows of the table with the same values.
+    let hy = &report["entrance"]["hydrodynamic"];
+    let arr = |k: &str| -> Vec<f64> {
+        hy[k]
+            .as_array()
+            .unwrap_or_else(|| panic!("entrance.hydrodynamic.{k}"))
+            .iter()
+            .map(|v| v.as_f64().unwrap())
+            .collect()
+    };
+    let xs = arr("x_plus");
+    assert!(xs.len() > 5);
+    for (key, col) in [("apparent_f_re", 2), ("incremental_pressure_drop", 3)] {
+        for (x, v) in xs.iter().zip(arr(key)) {
+            let row = values
+                .iter()
+                .find(|r| (r[1] - x).abs() <= 1e-9 * x)
+                .unwrap_or_else(|| panic!("station {x} is a row"));
+            assert!(
+                (row[col] - v).abs() <= 1e-12 * v.abs().max(1.0),
+                "{key} at {x}: {} vs {v}",
+                row[col]
+            );
+        }
+    }
+
+    // The picture: a PNG of the requested width, two panels for the one passage, the
+    // friction's above the development's.
+    let bytes = std::fs::read(out.join("hydrodynamic.png")).unwrap();
+    let reader = png::Decoder::new(std::io::Cursor::new(&bytes))
+        .read_info()
+        .expect("hydrodynamic.png has a PNG header");
+    assert_eq!(reader.info().width, 900);
+    let img = image::load_from_memory(&bytes)
+        .expect("hydrodynamic.png decodes")
+        .to_rgb8();
+    let maps = plot_maps(&bytes);
+    assert_eq!(maps.len(), 2, "one passage, two panels");
+    for (k, m) in maps.iter().enumerate() {
+        assert_eq!(m["panel"], (k + 1) as f64);
+        assert_eq!(m["passage"], 1.0);
+        assert_eq!((m["x_min"], m["x_max"]), (1e-5, 1.0));
+        assert!(m["left_px"] < m["right_px"] && m["right_px"] <= 900.0);
+        assert!(m["top_px"] < m["bottom_px"] && m["bottom_px"] <= img.height() as f64);
+        assert!(m["y_min"] < m["y_max"]);
+    }
+    assert!(maps[0]["bottom_px"] < maps[1]["top_px"]);
+    let chunk = String::from_utf8_lossy(&bytes).into_owned();
+    assert!(chunk.contains("y=apparent_f_re") && chunk.contains("y_scale=linear"));
+
+    // At x+ = 0.3 the curves are drawn where the maps put the table's values: f_app·Re in
+    // Okabe–Ito blue (log axis, top), K(x) in vermillion and u_max/ū in bluish green (linear
+    // axis, bottom).
+    let row = values
+        .iter()
+        .min_by(|a, b| (a[1] - 0.3).abs().total_cmp(&(b[1] - 0.3).abs()))
+        .unwrap();
+    let px_of = |m: &HashMap<String, f64>, x: f64| {
+        m["left_px"]
+            + (m["right_px"] - m["left_px"]) * (x / m["x_min"]).ln()
+                / (m["x_max"] / m["x_min"]).ln()
+    };
+    let py_log = |m: &HashMap<String, f64>, y: f64| {
+        m["bottom_px"]
+            - (m["bottom_px"] - m["top_px"]) * (y / m["y_min"]).ln()
+                / (m["y_max"] / m["y_min"]).ln()
+    };
+    let py_lin = |m: &HashMap<String, f64>, y: f64| {
+        m["bottom_px"]
+            - (m["bottom_px"] - m["top_px"]) * (y - m["y_min"]) / (m["y_max"] - m["y_min"])
+    };
+    let near = |px: f64, py: f64, c: [i32; 3]| {
+        (-3..=3).any(|dy| {
+            (-3..=3).any(|dx| {
+                let p = img
+                    .get_pixel((px as i32 + dx) as u32, (py as i32 + dy) as u32)
+                    .0;
+                (0..3).map(|k| (p[k] as i32 - c[k]).abs()).max().unwrap() < 40
+            })
+        })
+    };
+    let (top, bottom) = (&maps[0], &maps[1]);
+    assert!(
+        near(px_of(top, row[1]), py_log(top, row[2]), [0, 114, 178]),
+        "f_app·Re = {} at x+ = {}",
+        row[2],
+        row[1]
+    );
+    assert!(
+        near(px_of(bottom, row[1]), py_lin(bottom, row[3]), [213, 94, 0]),
+        "K = {} at x+ = {}",
+        row[3],
+        row[1]
+    );
+    assert!(
+        near(px_of(bottom, row[1]), py_lin(bottom, row[4]), [0, 158, 115]),
+        "u_max/ū = {} at x+ = {}",
+        row[4],
+        row[1]
+    );
+
+    // A hydrodynamic file in the way stops the next entrance run before the solve.
+    let args = [
+        "solve",
+        "circle:d=8mm",
+        "--cells",
+        "40",
+        "--entrance",
+        "--out",
+        "o2",
+        "--quiet",
+    ];
+    std::fs::create_dir_all(sb.path("o2")).unwrap();
+    std::fs::write(sb.path("o2").join("hydrodynamic.csv"), "keep me").unwrap();
+    sb.input_error(&args, &["hydrodynamic.csv already exists", "--force"]);
+    assert_eq!(std::fs::read_dir(sb.path("o2")).unwrap().count(), 1);
+    assert_eq!(
+        std::fs::read_to_string(sb.path("o2").join("hydrodynamic.csv")).unwrap(),
+        "keep me"
+    );
+}
+
+/// With a length at an operating point each passage's outlet x+ = L/(D_h·Re) is marked by a
+/// vertical dark line in both panels of hydrodynamic.png.
+#[test]
+fn issue_17_hydrodynamic_plot_marks_the_outlet() {
+    let sb = Sandbox::new();
+    let report = solve_into(
+        &sb,
+        "o",
+        &[
+            "circle:d=8mm",
+            "--cells",
+            "60",
+            "--entrance",
+            "--entrance-cells",
+            "60",
+            "--flow",
+            "0.5L/min",
+            "--fluid",
+            "water",
+            "--temperature",
+            "20C",
+            "--length",
+            "100mm",
+        ],
+    );
+    let re = num_at(&report, "reynolds");
+    let dh = num_at(&report, "hydraulic_diameter_m");
+    let x_out = 0.1 / (dh * re);
+    assert!((1e-4..0.5).contains(&x_out), "outlet x+ {x_out}");
+    let bytes = std::fs::read(sb.path("o").join("hydrodynamic.png")).unwrap();
+    let img = image::load_from_memory(&bytes).unwrap().to_rgb8();
+    for m in &plot_maps(&bytes) {
+        let px = m["left_px"]
+            + (m["right_px"] - m["left_px"]) * (x_out / m["x_min"]).ln()
+                / (m["x_max"] / m["x_min"]).ln();
+        let (top, bottom) = (m["top_px"] as u32 + 2, m["bottom_px"] as u32 - 2);
+        let dark = |x: u32| {
+            (top..bottom)
+                .filter(|&y| img.get_pixel(x, y).0.iter().all(|&c| c < 110))
+                .count()
+        };
+        let best = (px as u32 - 2..=px as u32 + 2).map(dark).max().unwrap();
+        assert!(
+            best as f64 > 0.5 * (bottom - top) as f64,
+            "{best} dark pixels of {} at x+ = {x_out} in panel {}",
+            bottom - top,
+            m["panel"]
+        );
+        let away = m["left_px"] + 0.5 * (px - m["left_px"]);
+        assert!(((dark(away as u32)) as f64) < 0.2 * (bottom - top) as f64);
+    }
 }

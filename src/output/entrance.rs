@@ -20,35 +20,31 @@
 //!   `px = left_px + (right_px − left_px)·log(x*/x_min)/log(x_max/x_min)`, likewise
 //!   `py = bottom_px − (bottom_px − top_px)·log(Nu/nu_min)/log(nu_max/nu_min)`.
 //!
-//! Drawn with `plotters` (bitmap backend into an RGB buffer, the embedded DejaVu Sans font
-//! registered with its `ab_glyph` text, so no system font) at twice the size and box-filtered
-//! down 2 × 2, which antialiases plotters' lines; encoded by [`png::encode_rgb`], the encoder of
-//! every picture. Colours: Okabe–Ito (see [`png`]), T the blue family (blue local, sky blue
-//! mean), H1 the vermillion family (vermillion local, orange mean).
+//! Drawn with `plotters` on the page of [`super::plot`] (embedded DejaVu Sans, twice the size
+//! box-filtered down 2 × 2, encoded by `png::encode_rgb`, the encoder of every picture; the
+//! axis helpers and the outlet marker are shared with `hydrodynamic.png` there). Colours:
+//! Okabe–Ito (see [`super::png`]), T the blue family (blue local, sky blue mean), H1 the
+//! vermillion family (vermillion local, orange mean).
 //!
 //! Invariant: computes no physics; every number is a value of the outcome's entrance (or
 //! rating), the means by the entrance's own [`PassageEntrance::means_at`].
 
-use super::png::{self, length_text, metrics, sig4, INK, SERIES};
+use super::plot::{
+    fitted, font, log_axis, note_lines, outlet, pixels_text, plot_error, power_of_ten,
+    register_font, render, rgb, round_label, stroke, text, title_lines, x_text, x_ticks, LogAxis,
+    Page, GREY, X_MAX, X_MIN,
+};
+use super::png::{length_text, sig4, INK, SERIES};
 use crate::entrance::{PassageEntrance, ThermalEntrance};
-use crate::error::{Error, Result};
+use crate::error::Result;
 use crate::outcome::Outcome;
 use plotters::coord::Shift;
 use plotters::element::DashedPathElement;
 use plotters::prelude::*;
-use plotters::style::{FontStyle, RGBColor, ShapeStyle, TextStyle};
 use std::fmt::Write;
 
 /// The files of this module, in the order [`files`] returns them.
 pub const FILES: [&str; 2] = ["entrance.png", "entrance.csv"];
-
-/// The x* axis: 1e-5 to 1, the stations' range (INTERFACE.md).
-const X_MIN: f64 = 1e-5;
-const X_MAX: f64 = 1.0;
-/// Drawn at this many times the final size, then box-filtered down.
-const SUPERSAMPLE: u32 = 2;
-/// The font family name the embedded font is registered under (plotters' default family).
-const FAMILY: &str = "sans-serif";
 
 /// The bytes of [`FILES`] (in that order), or nothing when the run has no thermal entrance.
 pub fn files(o: &Outcome, width: u32) -> Result<Vec<Option<Vec<u8>>>> {
@@ -78,31 +74,11 @@ pub fn entrance_csv(e: &ThermalEntrance) -> String {
 // ---------------------------------------------------------------------------------------------
 // The plot.
 
-fn rgb(c: [u8; 3]) -> RGBColor {
-    RGBColor(c[0], c[1], c[2])
-}
-
 /// Okabe–Ito pairs: T (blue, sky blue), H1 (vermillion, orange); [local, mean].
 const T_COLOURS: [[u8; 3]; 2] = [SERIES[0], SERIES[5]];
 const H1_COLOURS: [[u8; 3]; 2] = [SERIES[1], SERIES[4]];
-const GREY: [u8; 3] = [95, 95, 95];
 
-/// Registers the embedded DejaVu Sans with plotters once per process.
-fn register_font() -> Result<()> {
-    static DONE: std::sync::OnceLock<bool> = std::sync::OnceLock::new();
-    let ok = *DONE.get_or_init(|| {
-        plotters::style::register_font(FAMILY, FontStyle::Normal, dejavu::sans::regular()).is_ok()
-    });
-    if ok {
-        Ok(())
-    } else {
-        Err(Error::param("--out", "the embedded font is unusable"))
-    }
-}
-
-fn plot_error(e: impl std::fmt::Display) -> Error {
-    Error::param("--out", format!("entrance.png could not be drawn: {e}"))
-}
+const FILE: &str = FILES[0];
 
 /// What one panel shows: a passage's curves and, with a rating, its outlet.
 struct Panel<'a> {
@@ -124,91 +100,6 @@ fn plotted(p: &PassageEntrance) -> Vec<[f64; 5]> {
             row.iter().all(|v| v.is_finite() && *v > 0.0).then_some(row)
         })
         .collect()
-}
-
-/// The round values m·10^k, m in `mantissas`, from below `lo` to above `hi` (inclusive).
-fn decade_values(lo: f64, hi: f64, mantissas: &[f64]) -> Vec<f64> {
-    let mut v = Vec::new();
-    let (k0, k1) = (lo.log10().floor() as i32 - 1, hi.log10().ceil() as i32 + 1);
-    for k in k0..=k1 {
-        for m in mantissas {
-            v.push(m * 10f64.powi(k));
-        }
-    }
-    v
-}
-
-/// The Nu axis: bounds on the 1, 1.5, 2, 3, 5, 7 × 10^k series with room around the data,
-/// labelled ticks and light grid lines.
-fn nu_axis(lo: f64, hi: f64) -> (f64, f64, Vec<f64>, Vec<f64>) {
-    let bounds = decade_values(lo, hi, &[1.0, 1.5, 2.0, 3.0, 5.0, 7.0]);
-    let a = bounds
-        .iter()
-        .copied()
-        .filter(|&v| v <= 0.87 * lo)
-        .fold(f64::NAN, f64::max);
-    let b = bounds
-        .iter()
-        .copied()
-        .filter(|&v| v >= 1.12 * hi)
-        .fold(f64::NAN, f64::min);
-    let within = |v: &f64| *v >= a * (1.0 - 1e-9) && *v <= b * (1.0 + 1e-9);
-    let labelled: &[f64] = if (b / a).log10() <= 2.5 {
-        &[1.0, 2.0, 3.0, 5.0]
-    } else {
-        &[1.0, 2.0, 5.0]
-    };
-    let bold = decade_values(a, b, labelled)
-        .into_iter()
-        .filter(within)
-        .collect();
-    let light = decade_values(a, b, &[1.0, 2.0, 3.0, 4.0, 5.0, 6.0, 7.0, 8.0, 9.0])
-        .into_iter()
-        .filter(within)
-        .collect();
-    (a, b, bold, light)
-}
-
-/// 10^k with a superscript exponent ("1" for 10⁰).
-fn power_of_ten(v: f64) -> String {
-    let k = v.log10().round() as i32;
-    if k == 0 {
-        return "1".into();
-    }
-    let sup = |c: char| match c {
-        '-' => '⁻',
-        '0' => '⁰',
-        '1' => '¹',
-        '2' => '²',
-        '3' => '³',
-        '4' => '⁴',
-        '5' => '⁵',
-        '6' => '⁶',
-        '7' => '⁷',
-        '8' => '⁸',
-        _ => '⁹',
-    };
-    format!("10{}", k.to_string().chars().map(sup).collect::<String>())
-}
-
-/// A Nu tick label: the round value as written (0.5, 3, 20, 150).
-fn nu_label(v: f64) -> String {
-    let r = (v * 1e6).round() / 1e6;
-    format!("{r}")
-}
-
-/// x* with three significant digits, plainly written from 1e-3 up, else with a power of ten.
-fn x_text(v: f64) -> String {
-    if !(v.is_finite() && v > 0.0) {
-        return format!("{v}");
-    }
-    if v >= 1e-3 {
-        let d = (2 - v.log10().floor() as i32).max(0) as usize;
-        format!("{v:.d$}")
-    } else {
-        let k = v.log10().floor();
-        format!("{:.2}×{}", v / 10f64.powf(k), power_of_ten(10f64.powf(k)))
-    }
 }
 
 /// `entrance.png`: see the module documentation.
@@ -256,158 +147,56 @@ pub fn entrance_png(o: &Outcome, e: &ThermalEntrance, width: u32) -> Result<Vec<
     if !(lo.is_finite() && hi > 0.0) {
         (lo, hi) = (1.0, 100.0);
     }
-    let axis = nu_axis(lo, hi);
+    let axis = log_axis(lo, hi);
 
-    let ss = SUPERSAMPLE;
-    let (fs1, margin1) = metrics(width);
-    let (fs, margin) = (fs1 * ss as f64, margin1 * ss as f64);
-    let w = width * ss;
-    let avail = w as f64 - 2.0 * margin;
-    let (title, header) = title_lines(o, fs, margin, avail);
-    let (note, footer) = footer_lines(o, e, fs, avail);
-    let (header, footer) = (
-        header.round() as u32,
-        (footer + 0.5 * margin).round() as u32,
+    let page = Page::new(width);
+    let (fs, margin) = (page.fs, page.margin);
+    let (title, title_h) = title_lines(
+        &o.name,
+        &[
+            (
+                "Thermal entrance: local and mean Nusselt numbers, T (uniform wall temperature) \
+                 and H1 (uniform heat input)",
+                fs,
+                INK,
+            ),
+            (
+                "Model: fully developed laminar velocity, uniform inlet temperature, constant \
+                 properties, no axial conduction",
+                0.9 * fs,
+                GREY,
+            ),
+        ],
+        fs,
+        margin,
+        page.avail,
     );
-    let panel_h = (0.5 * w as f64 + if several { 2.2 * fs } else { 0.0 }).round() as u32;
-    let h = header + panel_h * panels.len() as u32 + footer;
-    let mut buf = vec![255u8; (w * h * 3) as usize];
-    let mut maps = String::new();
-    {
-        let root = BitMapBackend::with_buffer(&mut buf, (w, h)).into_drawing_area();
-        root.fill(&WHITE).map_err(plot_error)?;
-        let (head, rest) = root.split_vertically(header);
-        draw_lines(&head, &title, margin)?;
-        let mut rest = rest;
-        for (k, panel) in panels.iter().enumerate() {
-            let (area, below) = rest.split_vertically(panel_h);
-            let map = draw_panel(&area, panel, &axis, fs, margin)?;
-            let _ = write!(
-                maps,
-                "{}panel={} left_px={} right_px={} top_px={} bottom_px={} x_min={X_MIN} \
-                 x_max={X_MAX} nu_min={} nu_max={} scale=log10",
-                if k == 0 { "" } else { "; " },
+    let (note, note_h) = note_lines(&footer_text(o, e), fs, page.avail);
+    let panel_h = (0.5 * page.w as f64 + if several { 2.2 * fs } else { 0.0 }).round() as u32;
+    let heights = vec![panel_h; panels.len()];
+    render(
+        &page,
+        &title,
+        title_h,
+        &heights,
+        &note,
+        note_h,
+        FILE,
+        |k, area| {
+            let map = draw_panel(area, &panels[k], &axis, fs, margin)?;
+            Ok(format!(
+                "panel={} {} x_min={X_MIN} x_max={X_MAX} nu_min={} nu_max={} scale=log10",
                 k + 1,
-                map.0 as f64 / ss as f64,
-                map.1 as f64 / ss as f64,
-                map.2 as f64 / ss as f64,
-                map.3 as f64 / ss as f64,
+                pixels_text(map),
                 axis.0,
                 axis.1
-            );
-            rest = below;
-        }
-        draw_lines(&rest, &note, margin)?;
-        root.present().map_err(plot_error)?;
-    }
-    let small = downsample(&buf, w as usize, h as usize, ss as usize);
-    png::encode_rgb(w / ss, h / ss, &small, &[("canalis:plot", maps)])
-}
-
-/// The mean of each `f` × `f` block of RGB pixels.
-fn downsample(buf: &[u8], w: usize, h: usize, f: usize) -> Vec<u8> {
-    let (sw, sh) = (w / f, h / f);
-    let mut out = vec![0u8; sw * sh * 3];
-    for y in 0..sh {
-        for x in 0..sw {
-            for c in 0..3 {
-                let mut sum = 0u32;
-                for dy in 0..f {
-                    for dx in 0..f {
-                        sum += buf[((y * f + dy) * w + x * f + dx) * 3 + c] as u32;
-                    }
-                }
-                out[(y * sw + x) * 3 + c] = ((sum as f64) / (f * f) as f64).round() as u8;
-            }
-        }
-    }
-    out
-}
-
-fn font(size: f64, c: [u8; 3]) -> TextStyle<'static> {
-    (FAMILY, size).into_font().color(&rgb(c))
-}
-
-fn text<DB: DrawingBackend>(
-    area: &DrawingArea<DB, Shift>,
-    s: &str,
-    at: (f64, f64),
-    style: TextStyle,
-) -> Result<()> {
-    area.draw(&Text::new(
-        s.to_string(),
-        (at.0.round() as i32, at.1.round() as i32),
-        style,
-    ))
-    .map_err(plot_error)
-}
-
-/// Lines of text: (text, size, colour, baseline-free top y), laid out top down.
-type Lines = Vec<(String, f64, [u8; 3], f64)>;
-
-/// Width of `s` at `size` pixels in the embedded font.
-fn text_width(s: &str, size: f64) -> f64 {
-    (FAMILY, size)
-        .into_font()
-        .box_size(s)
-        .map_or(0.0, |(w, _)| w as f64)
-}
-
-/// The largest size up to `size` at which `s` fits in `max_w` pixels.
-fn fitted(s: &str, size: f64, max_w: f64) -> f64 {
-    let tw = text_width(s, size);
-    if tw > max_w && tw > 0.0 {
-        size * max_w / tw
-    } else {
-        size
-    }
-}
-
-/// `s` broken at spaces into lines no wider than `max_w` (a single long word stays whole).
-fn wrap(s: &str, size: f64, max_w: f64) -> Vec<String> {
-    let mut lines: Vec<String> = Vec::new();
-    for word in s.split(' ') {
-        match lines.last_mut() {
-            Some(line) if text_width(&format!("{line} {word}"), size) <= max_w => {
-                line.push(' ');
-                line.push_str(word);
-            }
-            _ => lines.push(word.to_string()),
-        }
-    }
-    lines
-}
-
-/// The title block: the shape's name, what is plotted and the model, wrapped to the width.
-fn title_lines(o: &Outcome, fs: f64, margin: f64, avail: f64) -> (Lines, f64) {
-    let mut lines = Vec::new();
-    let size = fitted(&o.name, 1.3 * fs, avail);
-    lines.push((o.name.clone(), size, INK, margin));
-    let mut y = margin + 2.0 * fs;
-    for (s, size, c) in [
-        (
-            "Thermal entrance: local and mean Nusselt numbers, T (uniform wall temperature) \
-             and H1 (uniform heat input)",
-            fs,
-            INK,
-        ),
-        (
-            "Model: fully developed laminar velocity, uniform inlet temperature, constant \
-             properties, no axial conduction",
-            0.9 * fs,
-            GREY,
-        ),
-    ] {
-        for line in wrap(s, size, avail) {
-            lines.push((line, size, c, y));
-            y += 1.45 * size;
-        }
-    }
-    (lines, y + 0.4 * fs)
+            ))
+        },
+    )
 }
 
 /// The note under the panels: the march's grid and steps, and what the shading means.
-fn footer_lines(o: &Outcome, e: &ThermalEntrance, fs: f64, avail: f64) -> (Lines, f64) {
+fn footer_text(o: &Outcome, e: &ThermalEntrance) -> String {
     let cells = o
         .entrance
         .as_ref()
@@ -424,35 +213,18 @@ fn footer_lines(o: &Outcome, e: &ThermalEntrance, fs: f64, avail: f64) -> (Lines
              thin-layer (Lévêque) limit stands for the local values.",
         );
     }
-    let size = 0.8 * fs;
-    let mut y = 0.9 * fs;
-    let mut lines = Vec::new();
-    for line in wrap(&s, size, avail) {
-        lines.push((line, size, GREY, y));
-        y += 1.4 * size;
-    }
-    (lines, y)
-}
-
-fn draw_lines<DB: DrawingBackend>(
-    area: &DrawingArea<DB, Shift>,
-    lines: &Lines,
-    x: f64,
-) -> Result<()> {
-    for (s, size, c, y) in lines {
-        text(area, s, (x, *y), font(*size, *c))?;
-    }
-    Ok(())
+    s
 }
 
 /// Draws one passage's panel; returns the plotting area in pixels (left, right, top, bottom).
-fn draw_panel<DB: DrawingBackend>(
-    area: &DrawingArea<DB, Shift>,
+fn draw_panel(
+    area: &DrawingArea<BitMapBackend, Shift>,
     panel: &Panel,
-    axis: &(f64, f64, Vec<f64>, Vec<f64>),
+    axis: &LogAxis,
     fs: f64,
     margin: f64,
 ) -> Result<(i32, i32, i32, i32)> {
+    let err = plot_error(FILE);
     let (nu_lo, nu_hi, nu_bold, nu_light) = axis;
     let w = area.dim_in_pixel().0 as f64;
     let legend_w = (0.27 * w).round();
@@ -463,15 +235,10 @@ fn draw_panel<DB: DrawingBackend>(
     );
     let mut top = 0.6 * fs;
     if let Some(hd) = &panel.heading {
-        text(&chart_area, hd, (0.0, 0.9 * fs), font(1.05 * fs, INK))?;
+        text(&chart_area, hd, (0.0, 0.9 * fs), font(1.05 * fs, INK), FILE)?;
         top += 2.2 * fs;
     }
-    let x_bold: Vec<f64> = (-5..=0).map(|k| 10f64.powi(k)).collect();
-    let x_light: Vec<f64> =
-        decade_values(X_MIN, X_MAX, &[1.0, 2.0, 3.0, 4.0, 5.0, 6.0, 7.0, 8.0, 9.0])
-            .into_iter()
-            .filter(|v| *v >= X_MIN * (1.0 - 1e-9) && *v <= X_MAX * (1.0 + 1e-9))
-            .collect();
+    let (x_bold, x_light) = x_ticks();
     let mut chart = ChartBuilder::on(&chart_area)
         .margin_top(top.round() as i32)
         .margin_right((0.8 * fs).round() as i32)
@@ -487,15 +254,10 @@ fn draw_panel<DB: DrawingBackend>(
                 .with_key_points(nu_bold.clone())
                 .with_light_points(nu_light.clone()),
         )
-        .map_err(plot_error)?;
-    let stroke = |c: [u8; 3], width: f64| ShapeStyle {
-        color: rgb(c).to_rgba(),
-        filled: false,
-        stroke_width: width.round().max(1.0) as u32,
-    };
+        .map_err(&err)?;
     let line_w = (fs / 7.0).max(2.0);
     let x_fmt = |v: &f64| power_of_ten(*v);
-    let y_fmt = |v: &f64| nu_label(*v);
+    let y_fmt = |v: &f64| round_label(*v);
     chart
         .configure_mesh()
         .x_desc("x* = x / (D_h·Re·Pr)")
@@ -509,7 +271,7 @@ fn draw_panel<DB: DrawingBackend>(
         .axis_style(stroke(INK, 0.12 * fs))
         .set_all_tick_mark_size((0.35 * fs).round() as i32)
         .draw()
-        .map_err(plot_error)?;
+        .map_err(&err)?;
 
     let p = panel.entrance;
     // The inlet region where the Lévêque limit stands for the local values.
@@ -520,7 +282,7 @@ fn draw_panel<DB: DrawingBackend>(
                 [(X_MIN, *nu_lo), (lev.min(X_MAX), *nu_hi)],
                 rgb([120, 120, 120]).mix(0.09).filled(),
             )))
-            .map_err(plot_error)?;
+            .map_err(&err)?;
     }
     // Asymptotes, dashed, under the curves.
     let dash = (0.9 * fs).round() as i32;
@@ -536,7 +298,7 @@ fn draw_panel<DB: DrawingBackend>(
                     (0.6 * fs).round() as i32,
                     stroke(c, 0.6 * line_w),
                 ))
-                .map_err(plot_error)?;
+                .map_err(&err)?;
         }
     }
     // The curves: means first, so the local values lie on top.
@@ -552,7 +314,7 @@ fn draw_panel<DB: DrawingBackend>(
                 rows.iter().map(|r| (r[0], r[col].clamp(*nu_lo, *nu_hi))),
                 stroke(c, line_w),
             ))
-            .map_err(plot_error)?;
+            .map_err(&err)?;
     }
     // A frame around the data (the mesh draws the left and bottom axes only).
     chart
@@ -560,46 +322,22 @@ fn draw_panel<DB: DrawingBackend>(
             [(X_MIN, *nu_lo), (X_MAX, *nu_hi)],
             stroke(INK, 0.12 * fs),
         )))
-        .map_err(plot_error)?;
+        .map_err(&err)?;
     let (xr, yr) = chart.plotting_area().get_pixel_range();
     let plot_px = (xr.start, xr.end, yr.start, yr.end);
-    // The outlet.
     if let Some((x_out, _, _)) = panel.outlet {
         if (X_MIN..=X_MAX).contains(&x_out) {
-            chart
-                .draw_series(DashedLineSeries::new(
-                    [(x_out, *nu_lo), (x_out, *nu_hi)],
-                    (1.2 * fs).round() as i32,
-                    (0.35 * fs).round() as i32,
-                    stroke(INK, 0.7 * line_w),
-                ))
-                .map_err(plot_error)?;
             let label = format!("outlet x* = {}", x_text(x_out));
-            let (px, _) = chart.backend_coord(&(x_out, *nu_hi));
-            let base = chart_area.get_base_pixel();
-            let px = (px - base.0) as f64;
-            let style = font(0.9 * fs, INK);
-            let tw = chart_area
-                .estimate_text_size(&label, &style)
-                .map(|s| s.0 as f64)
-                .unwrap_or(0.0);
-            // Right of the line unless that leaves the plot, then left of it.
-            let x = if px + 0.4 * fs + tw <= (plot_px.1 - base.0) as f64 {
-                px + 0.4 * fs
-            } else {
-                px - 0.4 * fs - tw
-            };
-            let y = (plot_px.2 - base.1) as f64 + 0.5 * fs;
-            chart_area
-                .draw(&Rectangle::new(
-                    [
-                        ((x - 0.2 * fs) as i32, (y - 0.15 * fs) as i32),
-                        ((x + tw + 0.2 * fs) as i32, (y + 1.15 * fs) as i32),
-                    ],
-                    WHITE.mix(0.85).filled(),
-                ))
-                .map_err(plot_error)?;
-            text(&chart_area, &label, (x, y), style)?;
+            outlet(
+                &mut chart,
+                &chart_area,
+                x_out,
+                (*nu_lo, *nu_hi),
+                &label,
+                fs,
+                line_w,
+                FILE,
+            )?;
         }
     }
     draw_legend(&legend_area, panel, top + 0.2 * fs, fs, line_w)?;
@@ -607,8 +345,8 @@ fn draw_panel<DB: DrawingBackend>(
 }
 
 /// The legend and the passage's figures, right of its panel.
-fn draw_legend<DB: DrawingBackend>(
-    area: &DrawingArea<DB, Shift>,
+fn draw_legend(
+    area: &DrawingArea<BitMapBackend, Shift>,
     panel: &Panel,
     top: f64,
     fs: f64,
@@ -621,21 +359,16 @@ fn draw_legend<DB: DrawingBackend>(
     let tx = x0 + sample + 0.6 * fs;
     let mut y = top;
     let step = 1.55 * fs;
-    let stroke = |c: [u8; 3], w: f64| ShapeStyle {
-        color: rgb(c).to_rgba(),
-        filled: false,
-        stroke_width: w.round().max(1.0) as u32,
-    };
     let put = |s: &str, y: f64, size: f64, c: [u8; 3], x: f64| -> Result<()> {
         let size = fitted(s, size, avail - x);
-        text(area, s, (x, y - 0.5 * size), font(size, c))
+        text(area, s, (x, y - 0.5 * size), font(size, c), FILE)
     };
     let solid = |y: f64, c: [u8; 3]| {
         area.draw(&PathElement::new(
             vec![(x0 as i32, y as i32), ((x0 + sample) as i32, y as i32)],
             stroke(c, line_w),
         ))
-        .map_err(plot_error)
+        .map_err(plot_error(FILE))
     };
     let dashed = |y: f64, c: [u8; 3], w: f64, dash: f64, gap: f64| {
         area.draw(&DashedPathElement::new(
@@ -644,7 +377,7 @@ fn draw_legend<DB: DrawingBackend>(
             gap.round() as i32,
             stroke(c, w),
         ))
-        .map_err(plot_error)
+        .map_err(plot_error(FILE))
     };
     for (label, c) in [
         ("Nu_x,T   local", T_COLOURS[0]),
@@ -699,28 +432,4 @@ fn draw_legend<DB: DrawingBackend>(
         put(&model, y, 0.85 * fs, GREY, x0)?;
     }
     Ok(())
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn nu_axis_rounds_outward_on_the_decade_series() {
-        let (a, b, bold, light) = nu_axis(3.66, 90.6);
-        assert_eq!((a, b), (3.0, 150.0));
-        assert_eq!(bold.first().copied(), Some(3.0));
-        assert_eq!(bold.last().copied(), Some(100.0));
-        assert!(light.contains(&4.0) && light.contains(&90.0));
-    }
-
-    #[test]
-    fn labels_read_as_written() {
-        assert_eq!(power_of_ten(1e-5), "10⁻⁵");
-        assert_eq!(power_of_ten(1.0), "1");
-        assert_eq!(nu_label(150.0), "150");
-        assert_eq!(nu_label(0.5), "0.5");
-        assert_eq!(x_text(0.0312345), "0.0312");
-        assert_eq!(x_text(3.2e-5), "3.20×10⁻⁵");
-    }
 }

@@ -11,13 +11,19 @@
 //!   fonts needed);
 //! * [`fields`]: `velocity.csv`, `wall_shear.csv` and `velocity.vti` (VTK XML ImageData);
 //! * [`entrance`]: `entrance.png` and `entrance.csv` (the thermal entrance curves), only when
-//!   the run marched the thermal entrance ([`entrance::FILES`], after [`FILES`]).
+//!   the run marched the thermal entrance ([`entrance::FILES`], after [`FILES`]);
+//! * [`hydrodynamic`]: `hydrodynamic.png` and `hydrodynamic.csv` (the developing-flow curves:
+//!   apparent f·Re, K(x), u_max/ū), when the run marched the developing velocity, which it does
+//!   whenever it marches the thermal entrance ([`hydrodynamic::FILES`], after the entrance's);
+//! * `plot` (private): the page, text and axes the two line plots share.
 //!
 //! Invariant: consumes an [`Outcome`] and computes no physics; every number it writes is a
 //! value of the outcome times a scale factor stated above.
 
 pub mod entrance;
 pub mod fields;
+pub mod hydrodynamic;
+mod plot;
 pub mod png;
 
 use crate::error::{Error, Result};
@@ -61,15 +67,25 @@ impl Default for OutputOptions {
     }
 }
 
-/// The paths `--out dir` writes: [`FILES`], then [`entrance::FILES`] when the run marches the
-/// thermal entrance (`entrance`).
+/// The paths `--out dir` writes: [`FILES`], then [`entrance::FILES`] and
+/// [`hydrodynamic::FILES`] when the run marches the entrance (`entrance`: the thermal march and
+/// the developing velocity run together).
 pub fn targets(dir: &Path, entrance: bool) -> Vec<PathBuf> {
-    let extra: &[&str] = if entrance { &entrance::FILES } else { &[] };
+    let extra: &[&str] = if entrance {
+        &[
+            entrance::FILES[0],
+            entrance::FILES[1],
+            hydrodynamic::FILES[0],
+            hydrodynamic::FILES[1],
+        ]
+    } else {
+        &[]
+    };
     FILES.iter().chain(extra).map(|f| dir.join(f)).collect()
 }
 
 /// Refuses when any target file exists and `force` is not set, naming the first one in the way
-/// (`entrance`: the run marches the thermal entrance, see [`targets`]).
+/// (`entrance`: the run marches the entrance, see [`targets`]).
 pub fn check_targets(dir: &Path, force: bool, entrance: bool) -> Result<()> {
     check_targets_protecting(dir, force, entrance, &[])
 }
@@ -233,6 +249,7 @@ pub fn write_all_protecting(
         png::temperature_h1_png(outcome, opts.image_width)?,
     ];
     contents.extend(entrance::files(outcome, opts.image_width)?);
+    contents.extend(hydrodynamic::files(outcome, opts.image_width)?);
     std::fs::create_dir_all(dir).map_err(|source| Error::Io {
         path: dir.to_path_buf(),
         source,
