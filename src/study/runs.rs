@@ -39,14 +39,28 @@ fn study_quantities(o: &Outcome) -> Values {
 }
 
 /// [`study_quantities`] of one unit solution.
+///
+/// At a re-entrant corner the largest wall shear is unbounded: its uncertainty is that of the
+/// largest one away from the corners instead; at a convex sharp corner the smallest is exactly
+/// 0 and has none.
 fn unit_quantities(unit: &UnitSolution) -> Values {
     let f = &unit.figures;
     let mut q = vec![
         ("fanning_f_re", f.fanning_f_re, true),
         ("max_to_mean_velocity", f.max_to_mean_velocity, false),
-        ("wall_shear_max_to_mean", f.wall_shear_max_to_mean, false),
-        ("wall_shear_min_to_mean", f.wall_shear_min_to_mean, false),
     ];
+    if f.singular_corners.is_empty() {
+        q.push(("wall_shear_max_to_mean", f.wall_shear_max_to_mean, false));
+    } else {
+        q.push((
+            "wall_shear_max_to_mean_away_from_corners",
+            f.wall_shear_max_away_to_mean,
+            false,
+        ));
+    }
+    if f.wall_shear_min_corner.is_none() {
+        q.push(("wall_shear_min_to_mean", f.wall_shear_min_to_mean, false));
+    }
     if let Some(h) = &unit.heat {
         q.push(("nusselt_h1", h.nusselt_h1, true));
         q.push(("nusselt_t", h.nusselt_t, true));
@@ -54,15 +68,22 @@ fn unit_quantities(unit: &UnitSolution) -> Values {
     q
 }
 
-/// The per-quantity estimates of a sequence of runs, coarse to fine.
-fn estimates(runs: &[(f64, Values)]) -> Vec<study::Quantity> {
-    estimates_with(runs, study::estimate)
+/// The per-quantity estimates of a sequence of runs, coarse to fine, for a grid of formal
+/// order `formal` ([`formal_order`]).
+fn estimates(runs: &[(f64, Values)], formal: f64) -> Vec<study::Quantity> {
+    estimates_with(runs, |s| study::estimate_of_order(s, formal))
+}
+
+/// The formal order of a grid study of this outcome's cross-section: 2, or what its
+/// re-entrant corners allow ([`study::corner_formal_order`]).
+fn formal_order(o: &Outcome) -> f64 {
+    study::corner_formal_order(o.unit.figures.corner_order)
 }
 
 /// [`estimates`] with the estimator `estimate` (e.g. [`study::image_estimate`]).
 fn estimates_with(
     runs: &[(f64, Values)],
-    estimate: fn(&[Sample]) -> Option<study::Estimate>,
+    estimate: impl Fn(&[Sample]) -> Option<study::Estimate>,
 ) -> Vec<study::Quantity> {
     let Some((_, finest)) = runs.last() else {
         return Vec::new();
@@ -111,6 +132,7 @@ fn unavailable(o: &Outcome, why: String) -> Uncertainty {
             .collect(),
         images: Vec::new(),
         image_size: [0, 0],
+        formal_order: formal_order(o),
     }
 }
 
@@ -163,9 +185,10 @@ pub(crate) fn with_cheap_estimate(
                     study::CHEAP_OFFSET[0],
                     study::CHEAP_OFFSET[1]
                 ),
-                quantities: estimates(&runs),
+                quantities: estimates(&runs, formal_order(&fine)),
                 images: Vec::new(),
                 image_size: [0, 0],
+                formal_order: formal_order(&fine),
             });
         }
         Err(e) => {
@@ -264,7 +287,7 @@ pub(crate) fn run_study(config: &SolveConfig, tol: f64, monitor: &dyn Monitor) -
         grids.push(cells);
         finest = Some(o);
         if runs.len() >= 3 {
-            let q = estimates(&runs);
+            let q = estimates(&runs, formal_order(finest.as_ref().expect("just set")));
             reached = q
                 .iter()
                 .filter(|q| q.targeted)
@@ -293,7 +316,8 @@ pub(crate) fn run_study(config: &SolveConfig, tol: f64, monitor: &dyn Monitor) -
             ),
         ));
     }
-    let quantities = estimates(&runs);
+    let formal = formal_order(&o);
+    let quantities = estimates(&runs, formal);
     let uncertainty = Uncertainty {
         kind: study::Kind::Study {
             target: tol,
@@ -309,6 +333,7 @@ pub(crate) fn run_study(config: &SolveConfig, tol: f64, monitor: &dyn Monitor) -
         quantities,
         images: Vec::new(),
         image_size: [0, 0],
+        formal_order: formal,
     };
     if !reached {
         let worst = targeted_summary(&uncertainty);
@@ -319,8 +344,9 @@ pub(crate) fn run_study(config: &SolveConfig, tol: f64, monitor: &dyn Monitor) -
             uncertainty.grids.len()
         ));
         if uncertainty.grids.len() < 3 {
-            o.warnings
-                .push("only two grids: the formal order 2 is assumed, with safety factor 3".into());
+            o.warnings.push(format!(
+                "only two grids: the formal order {formal:.2} is assumed, with safety factor 3"
+            ));
         }
     }
     o.warnings.extend(uncertainty.warnings());
@@ -468,6 +494,7 @@ pub(crate) fn run_image_study(
         quantities,
         images,
         image_size,
+        formal_order: study::FORMAL_ORDER,
     };
     if let (Some(tol), false) = (target, reached) {
         let worst = targeted_summary(&uncertainty);
