@@ -21,6 +21,7 @@ use crate::outcome::{EntranceOutcome, EntranceUncertainty, Outcome, Timings, Uni
 use crate::post::{self, WallKind};
 use crate::problem::{Field, Problem};
 use crate::rating::{rate, RatingSpec};
+use crate::singular;
 use crate::solver::{CgInfo, CgParams, Monitor, Silent};
 use crate::study::{self, runs};
 pub use crate::system::Method;
@@ -43,6 +44,12 @@ use std::time::Instant;
 /// against a reported uncertainty of 2 % there.
 const FIRST_PASS_TOLERANCE: f64 = 1e-3;
 
+/// Most passes of the enriched flow solve (`singular::Enrichment`): measured, the
+/// coefficients settle to [`ENRICHMENT_SETTLED`] in two or three.
+const ENRICHMENT_PASSES: usize = 4;
+/// Relative change of the corner coefficients at which the enrichment's fixed point stops.
+const ENRICHMENT_SETTLED: f64 = 1e-7;
+
 /// How to solve the unit problem.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct UnitOptions {
@@ -50,6 +57,9 @@ pub struct UnitOptions {
     pub cg: CgParams,
     /// Apply the deferred wall correction ([`post::add_wall_correction`]) on exact walls.
     pub wall_correction: bool,
+    /// Treat the re-entrant corners of an exact geometry by singular-function enrichment
+    /// (`singular::Enrichment`); off, they converge at the reduced order h^(2π/α).
+    pub corner_treatment: bool,
     /// Also solve the two heat-transfer problems (Nu_H1, Nu_T).
     pub heat: bool,
 }
@@ -60,6 +70,7 @@ impl Default for UnitOptions {
             method: Method::default(),
             cg: CgParams::default(),
             wall_correction: true,
+            corner_treatment: true,
             heat: true,
         }
     }
@@ -131,14 +142,78 @@ fn solve_unit_on_worker(
     } else {
         *params
     };
+    // The re-entrant corners treated by singular-function enrichment (singular::Enrichment):
+    // known from the exact geometry, straight-walled, their cut-off resolved by the grid.
+    let corners = domain.corners();
+    let walls = domain.walls(0.5 * grid.h);
+    let dh = 4.0 * walls.area / walls.perimeter;
+    let treatable = match (&corners, options.corner_treatment) {
+        (Some(k), true) => singular::Enrichment::treatable(k, grid.h, dh),
+        _ => Vec::new(),
+    };
+    let first = if treatable.is_empty() {
+        first
+    } else {
+        CgParams {
+            tolerance: params.tolerance.max(FIRST_PASS_TOLERANCE),
+            ..*params
+        }
+    };
     let mut info = solve(&mut system, &b, &mut u, &first).map_err(|e| e.in_solve(Solve::Flow))?;
     let mut passes = vec![info];
+    let mut enrichment = None;
+    if !treatable.is_empty() {
+        // u = Σ a·χ·S + w: the fixed point of singular::Enrichment, from the first solution's
+        // coefficients; each pass solves for w (with the wall correction of w) from the
+        // last u.
+        let weights = post::quadrature_weights(&classified, system.numbering());
+        let mut e = singular::Enrichment {
+            a: vec![0.0; treatable.len()],
+            corners: treatable,
+        };
+        e.a = e.extract(&classified, system.numbering(), &u, &weights);
+        for _ in 0..ENRICHMENT_PASSES {
+            let source: Vec<f64> = e
+                .source(&classified, system.numbering())
+                .into_iter()
+                .map(|v| 1.0 + v)
+                .collect();
+            let mut rhs = system.problem().rhs_from(system.numbering(), &source);
+            let singular_part = e.values(&classified, system.numbering());
+            let mut w: Vec<f64> = u.iter().zip(&singular_part).map(|(u, s)| u - s).collect();
+            if correct {
+                post::add_wall_correction(system.problem(), system.numbering(), &w, &mut rhs);
+            }
+            let more = solve(&mut system, &rhs, &mut w, params)
+                .map_err(|e| e.in_solve(Solve::CorrectedFlow))?;
+            passes.push(more);
+            info = CgInfo {
+                iterations: info.iterations + more.iterations,
+                relative_residual: more.relative_residual,
+                round_off_limited: info.round_off_limited || more.round_off_limited,
+            };
+            for (u, (w, s)) in u.iter_mut().zip(w.iter().zip(&singular_part)) {
+                *u = w + s;
+            }
+            let next = e.extract(&classified, system.numbering(), &u, &weights);
+            let scale = e.a.iter().fold(0.0f64, |m, a| m.max(a.abs()));
+            let change = next
+                .iter()
+                .zip(&e.a)
+                .fold(0.0f64, |m, (x, y)| m.max((x - y).abs()));
+            if change <= ENRICHMENT_SETTLED * scale {
+                break;
+            }
+            e.a = next;
+        }
+        enrichment = Some(e);
+    }
     // Deferred correction of the wall truncation error (post::add_wall_correction): the matrix is
     // kept, the right-hand side gains the curvature term of each cut link, and the solve
     // restarts from the first solution.
     // Only for exact walls: a mask's staircase has a re-entrant corner at every step, where the
     // smooth local fit behind the correction does not hold.
-    if correct {
+    if correct && enrichment.is_none() {
         // b + correction, formed in b's own vector (one vector fewer to fault in).
         post::add_wall_correction(system.problem(), system.numbering(), &u, &mut b);
         let more =
@@ -151,10 +226,21 @@ fn solve_unit_on_worker(
         };
     }
     let t3 = Instant::now();
-    let walls = domain.walls(0.5 * grid.h);
-    let corners = domain.corners();
     let numbering = system.numbering();
-    let shear = post::wall_shear(&classified, numbering, &u, &walls, wall_kind);
+    let shear = match &enrichment {
+        None => post::wall_shear(&classified, numbering, &u, &walls, wall_kind),
+        Some(e) => {
+            // The fits see the smooth part w; the singular part's gradient is exact.
+            let part = e.values(&classified, numbering);
+            let w: Vec<f64> = u.iter().zip(&part).map(|(u, s)| u - s).collect();
+            let mut shear = post::wall_shear(&classified, numbering, &w, &walls, wall_kind);
+            for (s, smp) in shear.iter_mut().zip(&walls.samples) {
+                let g = e.gradient(smp.point);
+                s.tau -= g[0] * smp.normal[0] + g[1] * smp.normal[1];
+            }
+            shear
+        }
+    };
     let figures = post::figures(
         &classified,
         numbering,
@@ -162,6 +248,7 @@ fn solve_unit_on_worker(
         &walls,
         &shear,
         corners.as_deref(),
+        enrichment.as_ref(),
     );
     let passages = post::passages(&classified, numbering, &u, &walls);
     let t4 = Instant::now();

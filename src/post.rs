@@ -12,7 +12,7 @@ use crate::geometry::{Point, WallSample, Walls};
 use crate::grid::{Classified, Dir};
 use crate::operator::{Numbering, NO_UNKNOWN};
 use crate::problem::Problem;
-use crate::singular::{self, Singular};
+use crate::singular::{self, Enrichment, Singular};
 use nalgebra::{DMatrix, DVector};
 
 /// What the walls of a domain are to the local fits near them ([`wall_shear`], and whether the
@@ -66,12 +66,15 @@ pub struct Figures {
     pub corner_radius: f64,
     /// The convex sharp corner where the smallest wall shear (0) sits, if any.
     pub wall_shear_min_corner: Option<Corner>,
-    /// Order of convergence the corners allow the figures (f·Re, u_max/ū, the Nusselt
-    /// numbers, the wall-shear extremes away from corners) on this grid's scheme: 2 without
-    /// re-entrant corners, else min(2, 2π/α) over the untreated ones (the error of a
+    /// Order of convergence the corners allow the flow figures (f·Re, u_max/ū, the wall-shear
+    /// extremes away from corners) on this grid's scheme: 2 without re-entrant corners, else
+    /// min(2, 2π/α) over the untreated ones (the error of a
     /// second-order scheme near a corner of angle α pollutes the whole solution at
     /// O(h^(2π/α)); Fix, Gulati & Wakoff 1973). None when the corners are unknown (a mask).
     pub corner_order: Option<f64>,
+    /// The same for the heat-transfer figures (Nu_H1, Nu_T), whose problems have the same
+    /// corner exponents and are not enriched: every re-entrant corner counts.
+    pub heat_corner_order: Option<f64>,
 }
 
 /// A re-entrant corner as reported: where it is, its angle, the exponent of its wall shear
@@ -90,6 +93,9 @@ pub struct SingularCorner {
     /// Both walls straight (the coefficient is exact up to the grid's error; on a curved wall it
     /// is indicative, see [`crate::singular`]).
     pub straight: bool,
+    /// The solve treated the corner by singular-function enrichment
+    /// ([`crate::singular::Enrichment`]): the figures converge at second order despite it.
+    pub treated: bool,
 }
 
 /// Radius around a singular corner, as a share of D_h, beyond which the largest wall shear
@@ -705,7 +711,11 @@ pub fn figures(
     walls: &Walls,
     shear: &[ShearSample],
     corners: Option<&[Corner]>,
+    enrichment: Option<&Enrichment>,
 ) -> Figures {
+    let treated: Vec<Point> = enrichment
+        .map(|e| e.corners.iter().map(|s| s.corner.position).collect())
+        .unwrap_or_default();
     let area = walls.area;
     let perimeter = walls.perimeter;
     let dh = 4.0 * area / perimeter;
@@ -716,7 +726,11 @@ pub fn figures(
     let weights = quadrature_weights(c, num);
     let mut singular_corners = Vec::new();
     let mut balance: Vec<(Point, f64, f64)> = Vec::new(); // (position, ρ, 2aρ^λ)
-    for k in corners.unwrap_or(&[]).iter().filter(|k| k.is_reentrant()) {
+    for k in corners
+        .unwrap_or(&[])
+        .iter()
+        .filter(|k| k.is_reentrant() && !treated.contains(&k.position))
+    {
         let s = Singular::new(*k, dh);
         let a = if s.r1 > 2.0 * h {
             singular::coefficient(&s, c, num, u, &weights)
@@ -733,6 +747,30 @@ pub fn figures(
             coefficient: a * l * dh.powf(l - 1.0) / tau_mean_exact,
             a,
             straight: k.straight,
+            treated: false,
+        });
+    }
+    // The treated corners: their coefficient is the enrichment's, and their singular part's
+    // wall shear is integrated exactly (Singular::wall_flux) instead of sampled.
+    let mut exact_flux = 0.0;
+    if let Some(e) = enrichment {
+        for (s, &a) in e.corners.iter().zip(&e.a) {
+            let l = s.lambda;
+            exact_flux += a * s.wall_flux();
+            singular_corners.push(SingularCorner {
+                position: s.corner.position,
+                angle: s.corner.angle,
+                exponent: l - 1.0,
+                coefficient: a * l * dh.powf(l - 1.0) / tau_mean_exact,
+                a,
+                straight: s.corner.straight,
+                treated: true,
+            });
+        }
+        singular_corners.sort_by(|a, b| {
+            a.position[0]
+                .total_cmp(&b.position[0])
+                .then(a.position[1].total_cmp(&b.position[1]))
         });
     }
     let dist = |p: Point, q: Point| (p[0] - q[0]).hypot(p[1] - q[1]);
@@ -742,13 +780,22 @@ pub fn figures(
     let mut total = 0.0;
     let mut balanced = 0.0;
     let mut len = 0.0;
-    for s in &valid {
+    for (s, smp) in shear.iter().zip(&walls.samples) {
+        if !s.tau.is_finite() {
+            continue;
+        }
         len += s.ds;
         total += s.tau * s.ds;
         if balance.iter().all(|&(p, rho, _)| dist(s.point, p) >= rho) {
-            balanced += s.tau * s.ds;
+            // Less the treated corners' singular part, which exact_flux holds.
+            let singular = enrichment.map_or(0.0, |e| {
+                let g = e.gradient(smp.point);
+                -(g[0] * smp.normal[0] + g[1] * smp.normal[1])
+            });
+            balanced += (s.tau - singular) * s.ds;
         }
     }
+    balanced += exact_flux;
     balanced += balance
         .iter()
         .map(|b| b.2)
@@ -777,6 +824,12 @@ pub fn figures(
         .find(|k| k.angle < std::f64::consts::PI - SMOOTH_TOLERANCE)
         .copied();
     let corner_order = corners.map(|ks| {
+        ks.iter()
+            .filter(|k| k.is_reentrant() && !treated.contains(&k.position))
+            .map(|k| 2.0 * k.lambda())
+            .fold(2.0, f64::min)
+    });
+    let heat_corner_order = corners.map(|ks| {
         ks.iter()
             .filter(|k| k.is_reentrant())
             .map(|k| 2.0 * k.lambda())
@@ -808,6 +861,7 @@ pub fn figures(
         corner_radius,
         wall_shear_min_corner: min_corner,
         corner_order,
+        heat_corner_order,
     }
 }
 

@@ -192,6 +192,7 @@ fn corners_json(o: &Outcome, m: &mut Map<String, Value>) {
                 "exponent": k.exponent,
                 "coefficient": finite(k.coefficient),
                 "walls_straight": k.straight,
+                "treated": k.treated,
             })
         })
         .collect();

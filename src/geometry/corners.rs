@@ -438,7 +438,7 @@ pub fn corners(shape: &Shape) -> Vec<Corner> {
                     angle,
                     start: dirs[s].0,
                     straight: dirs[s].1 && dirs[end].1,
-                    clear_radius: clear_radius(c, &segs, &buckets),
+                    clear_radius: clear_radius(c, &segs, &buckets, &index, tol),
                 });
             }
             k += m;
@@ -453,11 +453,39 @@ pub fn corners(shape: &Shape) -> Vec<Corner> {
     out
 }
 
-/// Distance from the candidate to the nearest segment that does not pass through it: within it
-/// the walls through the point are the only ones.
-fn clear_radius(c: &Candidate, segs: &[Seg], buckets: &Buckets) -> f64 {
+/// The clear radius of a corner on a curved wall is at most this share of the wall's smallest
+/// radius of curvature (canalis's choice: there the wall is within 2 % of the radius off its
+/// tangent).
+const CURVED_SHARE: f64 = 0.2;
+
+/// Distance from the candidate to the nearest wall on a segment that does not pass through
+/// it: within it the walls through the point are the only ones. Pieces of boundary inside the
+/// fluid (where two regions overlap) are no walls and do not count.
+fn clear_radius(
+    c: &Candidate,
+    segs: &[Seg],
+    buckets: &Buckets,
+    index: &ShapeIndex,
+    tol: f64,
+) -> f64 {
     let through: Vec<usize> = c.on.iter().map(|&(k, _)| k).collect();
-    let mut best = f64::INFINITY;
+    // A curved wall through the point departs from its tangent by r²/(2ρ): the sector is a
+    // fair picture of the fluid only within a fraction of the radius of curvature ρ (and a
+    // closed curve through the point comes back to it).
+    let mut best =
+        c.on.iter()
+            .map(|&(k, _)| match segs[k].seg {
+                Segment::Line { .. } => f64::INFINITY,
+                Segment::Arc { radius, .. } => CURVED_SHARE * radius,
+                Segment::Ellipse { semi_axes, .. } => {
+                    let (a, b) = (
+                        semi_axes[0].max(semi_axes[1]),
+                        semi_axes[0].min(semi_axes[1]),
+                    );
+                    CURVED_SHARE * b * b / a
+                }
+            })
+            .fold(f64::INFINITY, f64::min);
     let (cx, cy) = buckets.cell_of(c.p);
     let mut ring = 0usize;
     let mut checked = std::collections::HashSet::new();
@@ -477,7 +505,11 @@ fn clear_radius(c: &Candidate, segs: &[Seg], buckets: &Buckets) -> f64 {
                     if through.contains(&k) || !checked.insert(k) {
                         continue;
                     }
-                    best = best.min(distance_to(c.p, &segs[k].seg));
+                    let seg = &segs[k].seg;
+                    let d = distance_to(c.p, seg);
+                    if d < best {
+                        best = best.min(wall_distance(c.p, seg, d, index, tol));
+                    }
                 }
             }
         }
@@ -488,6 +520,33 @@ fn clear_radius(c: &Candidate, segs: &[Seg], buckets: &Buckets) -> f64 {
         ring += 1;
     }
     best
+}
+
+/// Distance from `p` to the wall points of `seg` (`d`: the distance to the whole segment), on
+/// 256 points of it, less half their spacing (so never more than the true distance to a wall
+/// point between them); infinite when no point of the segment is a wall (fluid or solid on
+/// both sides).
+fn wall_distance(p: Point, seg: &Segment, d: f64, index: &ShapeIndex, tol: f64) -> f64 {
+    let n = 256;
+    let step = seg.length_between(0.0, 1.0) / n as f64;
+    let eps = 16.0 * tol;
+    let mut best = f64::INFINITY;
+    for k in 0..=n {
+        let t = k as f64 / n as f64;
+        let q = seg.point(t);
+        let dq = seg.derivative(t);
+        let len = norm(dq);
+        if len == 0.0 {
+            continue;
+        }
+        let nrm = [dq[1] / len, -dq[0] / len];
+        let a = index.contains(add(q, scale(nrm, eps)));
+        let b = index.contains(sub(q, scale(nrm, eps)));
+        if a != b {
+            best = best.min(norm(sub(q, p)));
+        }
+    }
+    (best - 0.5 * step).max(d)
 }
 
 /// The interior angle of the fluid at a polygon vertex, for tests: the angle between the two
@@ -652,6 +711,9 @@ mod tests {
         for k in &re {
             assert!((deg(k.angle) - 270.0).abs() < 1e-9);
             assert!((k.position[1] - 2.0).abs() < 1e-12);
+            // The stem's top edge (y = 2.5) lies in the fluid and is no wall: the nearest wall
+            // is the other re-entrant corner's, 1 away.
+            assert!((k.clear_radius - 1.0).abs() < 1e-2, "{}", k.clear_radius);
         }
         assert_eq!(c.len(), 8, "{c:?}");
     }

@@ -385,7 +385,8 @@ fn format_order(p: f64) -> String {
 /// Why the formal order is below 2, if it is.
 fn corner_note(p: f64) -> &'static str {
     if p < FORMAL_ORDER - 1e-9 {
-        " (2π/α of the sharpest re-entrant corner: the corner's singularity limits the order)"
+        " for the figures an untreated re-entrant corner limits (2π/α of the sharpest), 2 \
+         for the others (each figure's order_used)"
     } else {
         ""
     }

@@ -29,8 +29,9 @@ pub const STUDY_FIRST_CELLS: usize = 64;
 /// Finest grid an `--accuracy` study may use (cells across; the bench harness goes this far).
 pub const STUDY_MAX_CELLS: usize = 4096;
 
-/// One grid's figures for a study: report key, value, targeted.
-type Values = Vec<(&'static str, f64, bool)>;
+/// One grid's figures for a study: report key, value, targeted, and the formal order the
+/// corners allow it ([`study::corner_formal_order`]).
+type Values = Vec<(&'static str, f64, bool, f64)>;
 
 /// The figures whose uncertainty is estimated: report key, value, and whether an `--accuracy`
 /// study refines until it meets the target (f·Re and the Nusselt numbers).
@@ -45,45 +46,62 @@ fn study_quantities(o: &Outcome) -> Values {
 /// 0 and has none.
 fn unit_quantities(unit: &UnitSolution) -> Values {
     let f = &unit.figures;
+    let flow = study::corner_formal_order(f.corner_order);
+    let heat = study::corner_formal_order(f.heat_corner_order);
     let mut q = vec![
-        ("fanning_f_re", f.fanning_f_re, true),
-        ("max_to_mean_velocity", f.max_to_mean_velocity, false),
+        ("fanning_f_re", f.fanning_f_re, true, flow),
+        ("max_to_mean_velocity", f.max_to_mean_velocity, false, flow),
     ];
     if f.singular_corners.is_empty() {
-        q.push(("wall_shear_max_to_mean", f.wall_shear_max_to_mean, false));
+        q.push((
+            "wall_shear_max_to_mean",
+            f.wall_shear_max_to_mean,
+            false,
+            flow,
+        ));
     } else {
         q.push((
             "wall_shear_max_to_mean_away_from_corners",
             f.wall_shear_max_away_to_mean,
             false,
+            flow,
         ));
     }
     if f.wall_shear_min_corner.is_none() {
-        q.push(("wall_shear_min_to_mean", f.wall_shear_min_to_mean, false));
+        q.push((
+            "wall_shear_min_to_mean",
+            f.wall_shear_min_to_mean,
+            false,
+            flow,
+        ));
     }
     if let Some(h) = &unit.heat {
-        q.push(("nusselt_h1", h.nusselt_h1, true));
-        q.push(("nusselt_t", h.nusselt_t, true));
+        q.push(("nusselt_h1", h.nusselt_h1, true, heat));
+        q.push(("nusselt_t", h.nusselt_t, true, heat));
     }
     q
 }
 
-/// The per-quantity estimates of a sequence of runs, coarse to fine, for a grid of formal
-/// order `formal` ([`formal_order`]).
-fn estimates(runs: &[(f64, Values)], formal: f64) -> Vec<study::Quantity> {
-    estimates_with(runs, |s| study::estimate_of_order(s, formal))
+/// The per-quantity estimates of a sequence of runs, coarse to fine, each at the formal order
+/// its corners allow (the finest run's).
+fn estimates(runs: &[(f64, Values)]) -> Vec<study::Quantity> {
+    estimates_with(runs, study::estimate_of_order)
 }
 
-/// The formal order of a grid study of this outcome's cross-section: 2, or what its
-/// re-entrant corners allow ([`study::corner_formal_order`]).
+/// The lowest formal order of this outcome's figures: 2, or what its re-entrant corners allow
+/// ([`study::corner_formal_order`]).
 fn formal_order(o: &Outcome) -> f64 {
-    study::corner_formal_order(o.unit.figures.corner_order)
+    study_quantities(o)
+        .iter()
+        .map(|q| q.3)
+        .fold(study::FORMAL_ORDER, f64::min)
 }
 
-/// [`estimates`] with the estimator `estimate` (e.g. [`study::image_estimate`]).
+/// [`estimates`] with the estimator `estimate(samples, formal order)` (e.g.
+/// [`study::image_estimate`], which has its own order).
 fn estimates_with(
     runs: &[(f64, Values)],
-    estimate: impl Fn(&[Sample]) -> Option<study::Estimate>,
+    estimate: impl Fn(&[Sample], f64) -> Option<study::Estimate>,
 ) -> Vec<study::Quantity> {
     let Some((_, finest)) = runs.last() else {
         return Vec::new();
@@ -91,7 +109,7 @@ fn estimates_with(
     finest
         .iter()
         .enumerate()
-        .map(|(i, &(key, fine, targeted))| {
+        .map(|(i, &(key, fine, targeted, formal))| {
             let samples: Vec<Sample> = runs
                 .iter()
                 .map(|(h, values)| Sample {
@@ -102,7 +120,7 @@ fn estimates_with(
             study::Quantity {
                 key,
                 fine,
-                estimate: estimate(&samples),
+                estimate: estimate(&samples, formal),
                 targeted,
             }
         })
@@ -123,7 +141,7 @@ fn unavailable(o: &Outcome, why: String) -> Uncertainty {
         placement: "one grid".to_string(),
         quantities: study_quantities(o)
             .into_iter()
-            .map(|(key, fine, targeted)| study::Quantity {
+            .map(|(key, fine, targeted, _)| study::Quantity {
                 key,
                 fine,
                 estimate: None,
@@ -185,7 +203,7 @@ pub(crate) fn with_cheap_estimate(
                     study::CHEAP_OFFSET[0],
                     study::CHEAP_OFFSET[1]
                 ),
-                quantities: estimates(&runs, formal_order(&fine)),
+                quantities: estimates(&runs),
                 images: Vec::new(),
                 image_size: [0, 0],
                 formal_order: formal_order(&fine),
@@ -287,7 +305,7 @@ pub(crate) fn run_study(config: &SolveConfig, tol: f64, monitor: &dyn Monitor) -
         grids.push(cells);
         finest = Some(o);
         if runs.len() >= 3 {
-            let q = estimates(&runs, formal_order(finest.as_ref().expect("just set")));
+            let q = estimates(&runs);
             reached = q
                 .iter()
                 .filter(|q| q.targeted)
@@ -317,7 +335,7 @@ pub(crate) fn run_study(config: &SolveConfig, tol: f64, monitor: &dyn Monitor) -
         ));
     }
     let formal = formal_order(&o);
-    let quantities = estimates(&runs, formal);
+    let quantities = estimates(&runs);
     let uncertainty = Uncertainty {
         kind: study::Kind::Study {
             target: tol,
@@ -468,7 +486,7 @@ pub(crate) fn run_image_study(
         o.uncertainty = Some(unavailable(&o, why));
         return Ok(o);
     }
-    let quantities = estimates_with(&runs, study::image_estimate);
+    let quantities = estimates_with(&runs, |s, _| study::image_estimate(s));
     let reached = target.is_some_and(|tol| {
         quantities
             .iter()
