@@ -254,7 +254,12 @@ fn solve_unit_on_worker(
     let t4 = Instant::now();
     let heat = if options.heat {
         monitor.stage("solving the heat transfer (Nu_H1, Nu_T)");
-        Some(heat_transfer(&mut system, &u, &figures)?)
+        Some(heat_transfer(
+            &mut system,
+            &u,
+            &figures,
+            enrichment.as_ref(),
+        )?)
     } else {
         None
     };

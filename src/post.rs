@@ -73,7 +73,7 @@ pub struct Figures {
     /// O(h^(2π/α)); Fix, Gulati & Wakoff 1973). None when the corners are unknown (a mask).
     pub corner_order: Option<f64>,
     /// The same for the heat-transfer figures (Nu_H1, Nu_T), whose problems have the same
-    /// corner exponents and are not enriched: every re-entrant corner counts.
+    /// corner exponents and are enriched at the same corners (`heat::heat_transfer`).
     pub heat_corner_order: Option<f64>,
 }
 
@@ -829,12 +829,9 @@ pub fn figures(
             .map(|k| 2.0 * k.lambda())
             .fold(2.0, f64::min)
     });
-    let heat_corner_order = corners.map(|ks| {
-        ks.iter()
-            .filter(|k| k.is_reentrant())
-            .map(|k| 2.0 * k.lambda())
-            .fold(2.0, f64::min)
-    });
+    // The heat-transfer problems are enriched at the same corners as the flow
+    // (heat::heat_transfer): the same order.
+    let heat_corner_order = corner_order;
     let total_exact_len = balanced_mean * perimeter;
     Figures {
         area,

@@ -647,7 +647,11 @@ pub fn summary(o: &Outcome) -> String {
                 "cheap estimate from one coarser grid ({} cells), order {} assumed{}, safety \
                  factor 3; --accuracy TOL for a study",
                 u.grids.first().copied().unwrap_or(0),
-                sig(u.formal_order, 3),
+                if (u.formal_order - u.formal_order.round()).abs() < 1e-9 {
+                    format!("{}", u.formal_order.round())
+                } else {
+                    format!("{:.2}", u.formal_order)
+                },
                 if u.formal_order < 2.0 - 1e-9 {
                     " (limited by the re-entrant corners)"
                 } else {

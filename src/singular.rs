@@ -241,6 +241,22 @@ impl Enrichment {
         g
     }
 
+    /// The coefficients extracted from `u`, the solution of −∇²u = f with f per unknown
+    /// ([`coefficient_with_source`]).
+    pub fn extract_with_source(
+        &self,
+        c: &Classified,
+        num: &Numbering,
+        u: &[f64],
+        source: &[f64],
+        weights: &[f64],
+    ) -> Vec<f64> {
+        self.corners
+            .iter()
+            .map(|s| coefficient_with_source(s, c, num, u, source, weights))
+            .collect()
+    }
+
     /// The coefficients extracted from `u` (the whole solution, singular part included).
     pub fn extract(&self, c: &Classified, num: &Numbering, u: &[f64], weights: &[f64]) -> Vec<f64> {
         self.corners
@@ -275,6 +291,44 @@ impl Enrichment {
         }
         out
     }
+}
+
+/// The coefficient a of u ≈ a·r^λ·sin(λθ) at `s` for −∇²u = f with f given per unknown
+/// (`source`, bounded near the corner): as [`coefficient`], with ∫χ·s⁻·f dA by the cut-cell
+/// quadrature (its integrand is bounded where f vanishes like r^λ or less: second order).
+pub fn coefficient_with_source(
+    s: &Singular,
+    c: &Classified,
+    num: &Numbering,
+    u: &[f64],
+    source: &[f64],
+    weights: &[f64],
+) -> f64 {
+    let g = &c.grid;
+    let p = s.corner.position;
+    let span = (s.r1 / g.h).ceil() as isize + 1;
+    let ci = ((p[0] - g.origin[0]) / g.h).round() as isize;
+    let cj = ((p[1] - g.origin[1]) / g.h).round() as isize;
+    let l = s.lambda;
+    let mut sum = 0.0;
+    for j in (cj - span).max(0)..=(cj + span).min(g.ny as isize - 1) {
+        for i in (ci - span).max(0)..=(ci + span).min(g.nx as isize - 1) {
+            let k = g.index(i as usize, j as usize);
+            let q = num.unknown_of[k];
+            if q == crate::problem::NO_UNKNOWN {
+                continue;
+            }
+            let q = q as usize;
+            let x = g.node(i as usize, j as usize);
+            let (r, t) = s.corner.polar(x);
+            if r >= s.r1 || r <= 0.0 || !(0.0..=s.corner.angle).contains(&t) {
+                continue;
+            }
+            let dual = cutoff(r, s.r0, s.r1).0 * r.powf(-l) * (l * t).sin();
+            sum += weights[q] * (u[q] * s.dual_laplacian(x) + dual * source[q]);
+        }
+    }
+    sum / std::f64::consts::PI
 }
 
 /// The coefficient a of u ≈ a·r^λ·sin(λθ) at `s`, from the discrete solution `u` of
