@@ -120,7 +120,7 @@ pub(crate) fn heat_transfer(
 
 /// Most passes of an enriched heat-transfer solve, and the relative change of the corner
 /// coefficients at which it stops (as the flow's, `pipeline`).
-const ENRICHED_PASSES: usize = 4;
+const ENRICHED_PASSES: usize = 1;
 const ENRICHED_SETTLED: f64 = 1e-7;
 
 /// Solves −∇²x = `source` (per unknown), x = 0 on the walls, enriched at the corners of

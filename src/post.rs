@@ -408,6 +408,21 @@ pub fn wall_shear(
     walls: &Walls,
     kind: WallKind,
 ) -> Vec<ShearSample> {
+    wall_shear_with_source(c, num, u, walls, kind, &|_| 1.0)
+}
+
+/// [`wall_shear`] of a field that solves −∇²v = f(x) with a smooth source f (`source`): the
+/// particular term of each fit is −f(p)·|x − p|²/4 with f at the fit's centre p, which leaves
+/// an error of O(|∇f|·h²) in the gradient (the smooth part w of an enriched solution,
+/// `singular::Enrichment`, whose source 1 + Σ a·∆(χS) varies over the cut-off's width).
+pub fn wall_shear_with_source(
+    c: &Classified,
+    num: &Numbering,
+    u: &[f64],
+    walls: &Walls,
+    kind: WallKind,
+    source: &(dyn Fn(Point) -> f64 + Sync),
+) -> Vec<ShearSample> {
     let exact_wall = kind == WallKind::Exact;
     use rayon::prelude::*;
     // Samples in parallel, one fit workspace per task; collected in sample order.
@@ -418,7 +433,7 @@ pub fn wall_shear(
             || LocalFit::new(c, num, u),
             |fit, smp| {
                 let tau = fit
-                    .at(smp.point, smp.normal, exact_wall)
+                    .at_with_source(smp.point, smp.normal, exact_wall, source(smp.point))
                     .map(|d| -(d.gradient[0] * smp.normal[0] + d.gradient[1] * smp.normal[1]))
                     .unwrap_or(f64::NAN);
                 ShearSample {
@@ -467,6 +482,17 @@ impl<'a> LocalFit<'a> {
     /// Fits around the wall point `p` whose outward normal is (roughly) `n_out`; `p_is_wall`
     /// adds p itself as a wall datum. None where too few data are reachable.
     pub fn at(&mut self, p: Point, n_out: Point, p_is_wall: bool) -> Option<LocalDerivatives> {
+        self.at_with_source(p, n_out, p_is_wall, 1.0)
+    }
+
+    /// [`LocalFit::at`] for −∇²u = `source` near p (the particular term −source·|x − p|²/4).
+    pub fn at_with_source(
+        &mut self,
+        p: Point,
+        n_out: Point,
+        p_is_wall: bool,
+        source: f64,
+    ) -> Option<LocalDerivatives> {
         let c = self.c;
         let g = &c.grid;
         let h = g.h;
@@ -545,12 +571,13 @@ impl<'a> LocalFit<'a> {
         if p_is_wall {
             self.rows.push(([0.0, 0.0], 0.0, 1.0, true));
         }
-        fit_local(&self.rows, h)
+        fit_local(&self.rows, h, source)
     }
 }
 
-/// Weighted least squares for the harmonic-plus-particular model with a free wall offset.
-fn fit_local(rows: &[FitRow], h: f64) -> Option<LocalDerivatives> {
+/// Weighted least squares for the harmonic-plus-particular model with a free wall offset
+/// (particular solution of −∇²u = `source`).
+fn fit_local(rows: &[FitRow], h: f64, source: f64) -> Option<LocalDerivatives> {
     // Try the cubic model first, fall back to fewer terms where the data are too few.
     for terms in [7usize, 5, 3] {
         if rows.len() < terms + 2 {
@@ -579,7 +606,7 @@ fn fit_local(rows: &[FitRow], h: f64) -> Option<LocalDerivatives> {
                 a[(row, terms)] = sw;
             }
             // Particular solution of −∇²ũ = 1 in units of h: −h²(X² + Y²)/4.
-            let particular = -h * h * (xx * xx + yy * yy) / 4.0;
+            let particular = -source * h * h * (xx * xx + yy * yy) / 4.0;
             b[row] = sw * (v - particular);
         }
         let Some(coef) = least_squares(a, &b) else {
@@ -593,7 +620,11 @@ fn fit_local(rows: &[FitRow], h: f64) -> Option<LocalDerivatives> {
         let h2 = h * h;
         return Some(LocalDerivatives {
             gradient: [coef[1] / h, coef[2] / h],
-            hessian: [2.0 * c3 / h2 - 0.5, 2.0 * c4 / h2, -2.0 * c3 / h2 - 0.5],
+            hessian: [
+                2.0 * c3 / h2 - 0.5 * source,
+                2.0 * c4 / h2,
+                -2.0 * c3 / h2 - 0.5 * source,
+            ],
         });
     }
     None
@@ -657,6 +688,18 @@ fn least_squares(a: DMatrix<f64>, b: &DVector<f64>) -> Option<DVector<f64>> {
 /// Adds the correction to `rhs` (unknown order) in place: each unknown's terms are summed in
 /// cut order and the sum then added to its entry, so no second right-hand side is allocated.
 pub fn add_wall_correction(problem: &Problem, num: &Numbering, u: &[f64], rhs: &mut [f64]) {
+    add_wall_correction_with_source(problem, num, u, rhs, &|_| 1.0)
+}
+
+/// [`add_wall_correction`] of a field that solves −∇²v = f(x) (`source`; see
+/// [`wall_shear_with_source`]).
+pub fn add_wall_correction_with_source(
+    problem: &Problem,
+    num: &Numbering,
+    u: &[f64],
+    rhs: &mut [f64],
+    source: &(dyn Fn(Point) -> f64 + Sync),
+) {
     use rayon::prelude::*;
     let c = problem.classified;
     // The fits in parallel (one workspace per task), then the sums in cut order, so the result
@@ -669,7 +712,7 @@ pub fn add_wall_correction(problem: &Problem, num: &Numbering, u: &[f64], rhs: &
             |fit, cut| {
                 let w = c.wall_point(cut);
                 let d = cut.dir.vector();
-                let der = fit.at(w, d, false)?;
+                let der = fit.at_with_source(w, d, false, source(w))?;
                 let [hxx, hxy, hyy] = der.hessian;
                 let b = d[0] * d[0] * hxx + 2.0 * d[0] * d[1] * hxy + d[1] * d[1] * hyy;
                 let q = num.unknown_of[cut.node] as usize;

@@ -84,7 +84,10 @@ const CUTOFF_SHARE: f64 = 0.8;
 /// studies, 216–1641 cells), f·Re at r₀ = r₁/2 converged at orders 0.7–1.4 up to 729 cells
 /// (error 9e-5 there) and at 2.5 beyond; at r₀ = r₁/10 at orders 1.7–2.5 throughout (errors
 /// 5.7e-4, 2.3e-4, 1.2e-4, 5.2e-5, 1.9e-5, 9e-6 at 216, 324, 486, 729, 1094, 1641 cells
-/// against the value extrapolated from the finest), u_max/ū at order 2.0.
+/// against the value extrapolated from the finest), u_max/ū at order 2.0. A floor of 6 grid
+/// spacings on r₀ (tried on shapes/finned_tube.toml, whose fins are 1 mm thick, r₁ = 0.8 mm,
+/// r₀ 1.5–7.5 spacings at 216–1094 cells) changed f·Re by less than its error from 729 cells
+/// on and made the coarser grids worse: not used.
 const INNER_SHARE: f64 = 0.1;
 
 impl Singular {
@@ -93,10 +96,11 @@ impl Singular {
     /// the section), r₀ = r₁/10 ([`INNER_SHARE`]).
     pub fn new(corner: Corner, max_radius: f64) -> Singular {
         let r1 = (CUTOFF_SHARE * corner.clear_radius).min(max_radius);
+        let r0 = INNER_SHARE * r1;
         Singular {
             corner,
             lambda: corner.lambda(),
-            r0: INNER_SHARE * r1,
+            r0,
             r1,
         }
     }
@@ -228,6 +232,16 @@ impl Enrichment {
     /// Σ_c a_c·∆(χ_c·S_c) at every unknown.
     pub fn source(&self, c: &Classified, num: &Numbering) -> Vec<f64> {
         self.sum_at(c, num, |s, p| s.laplacian(p))
+    }
+
+    /// 1 + Σ_c a_c·∆(χ_c·S_c) at `p`: the source of the smooth part w of the flow.
+    pub fn flow_source_at(&self, p: Point) -> f64 {
+        1.0 + self
+            .corners
+            .iter()
+            .zip(&self.a)
+            .map(|(s, a)| a * s.laplacian(p))
+            .sum::<f64>()
     }
 
     /// Σ_c a_c·∇(χ_c·S_c) at `p`.
