@@ -74,6 +74,14 @@ impl Corner {
         if t > 0.5 * (self.angle + 2.0 * PI) {
             t -= 2.0 * PI;
         }
+        // A point on a wall is in the sector whatever the round-off of atan2 and the
+        // subtraction (−2π + ε came back as 2π − ε, and so outside it).
+        let slack = 1e-9;
+        if t < 0.0 && t > -slack {
+            t = 0.0;
+        } else if t > self.angle && t < self.angle + slack {
+            t = self.angle;
+        }
         (r, t)
     }
 }
@@ -608,6 +616,11 @@ mod tests {
         assert!((0.0..=re[0].angle).contains(&t), "{t}");
         let (_, t) = re[0].polar([1.5, 1.5]);
         assert!(t > re[0].angle || t < 0.0, "{t}");
+        // Points on either wall are in the sector (θ = 0 or α exactly, never just outside).
+        for p in [[1.0, 1.7], [1.3, 1.0], [1.0 + 1e-17, 1.9]] {
+            let (_, t) = re[0].polar(p);
+            assert!((0.0..=re[0].angle).contains(&t), "{p:?}: {t}");
+        }
         for k in c.iter().filter(|c| !c.is_reentrant()) {
             assert!((deg(k.angle) - 90.0).abs() < 1e-9);
         }
