@@ -46,6 +46,7 @@ pub mod problem;
 pub mod rating;
 pub mod report;
 pub mod resolution;
+pub mod singular;
 pub mod solver;
 pub mod study;
 pub mod system;

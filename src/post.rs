@@ -7,10 +7,12 @@
 //!
 //! Invariant: writes no files and formats no text.
 
+use crate::geometry::corners::{Corner, SMOOTH_TOLERANCE};
 use crate::geometry::{Point, WallSample, Walls};
 use crate::grid::{Classified, Dir};
 use crate::operator::{Numbering, NO_UNKNOWN};
 use crate::problem::Problem;
+use crate::singular::{self, Enrichment, Singular};
 use nalgebra::{DMatrix, DVector};
 
 /// What the walls of a domain are to the local fits near them ([`wall_shear`], and whether the
@@ -45,11 +47,68 @@ pub struct Figures {
     pub max_to_mean_velocity: f64,
     /// Perimeter mean of τ̃ (from the samples), m.
     pub wall_shear_mean: f64,
+    /// Largest wall shear over its mean; NaN where a re-entrant corner makes it unbounded
+    /// (`singular_corners` not empty).
     pub wall_shear_max_to_mean: f64,
+    /// Smallest wall shear over its mean; exactly 0 where a convex sharp corner
+    /// (`wall_shear_min_corner`) makes it vanish.
     pub wall_shear_min_to_mean: f64,
-    /// |∮τ̃ ds − A| / A: the discrete force balance (exact: ∮τ ds = G·A).
+    /// |∮τ̃ ds − A| / A: the discrete force balance (exact: ∮τ ds = G·A), with the share of
+    /// each singular corner's neighbourhood from its singular term ([`figures`]).
     pub force_balance_rel_error: f64,
+    /// The re-entrant corners, where the wall shear is unbounded.
+    pub singular_corners: Vec<SingularCorner>,
+    /// Largest wall shear over its mean farther than `corner_radius` from every singular
+    /// corner (the plain largest one when there is none).
+    pub wall_shear_max_away_to_mean: f64,
+    /// Radius around each singular corner left out of `wall_shear_max_away_to_mean`, m:
+    /// [`CORNER_RADIUS_SHARE`] of D_h.
+    pub corner_radius: f64,
+    /// The convex sharp corner where the smallest wall shear (0) sits, if any.
+    pub wall_shear_min_corner: Option<Corner>,
+    /// Order of convergence the corners allow the flow figures (f·Re, u_max/ū, the wall-shear
+    /// extremes away from corners) on this grid's scheme: 2 without re-entrant corners, else
+    /// min(2, 2π/α) over the untreated ones (the error of a
+    /// second-order scheme near a corner of angle α pollutes the whole solution at
+    /// O(h^(2π/α)); Fix, Gulati & Wakoff 1973). None when the corners are unknown (a mask).
+    pub corner_order: Option<f64>,
+    /// The same for the heat-transfer figures (Nu_H1, Nu_T), whose problems have the same
+    /// corner exponents and are enriched at the same corners (`heat::heat_transfer`).
+    pub heat_corner_order: Option<f64>,
 }
+
+/// A re-entrant corner as reported: where it is, its angle, the exponent of its wall shear
+/// and the coefficient C of τ ≈ C·τ_mean·(r/D_h)^(π/α − 1).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SingularCorner {
+    pub position: Point,
+    /// Interior angle α of the fluid, radians.
+    pub angle: f64,
+    /// π/α − 1 (negative: the wall shear grows without bound towards the corner).
+    pub exponent: f64,
+    /// C of τ ≈ C·τ_mean·(r/D_h)^(π/α − 1) along either wall.
+    pub coefficient: f64,
+    /// a of ũ ≈ a·r^(π/α)·sin(πθ/α) (unit problem, m^(2 − π/α)).
+    pub a: f64,
+    /// Both walls straight (the coefficient is exact up to the grid's error; on a curved wall it
+    /// is indicative, see [`crate::singular`]).
+    pub straight: bool,
+    /// The solve treated the corner by singular-function enrichment
+    /// ([`crate::singular::Enrichment`]): the figures converge at second order despite it.
+    pub treated: bool,
+}
+
+/// Radius around a singular corner, as a share of D_h, beyond which the largest wall shear
+/// is taken (`wall_shear_max_away_to_mean`): a physical length, the same on every grid, so
+/// that the figure converges. (Canalis's choice: 5 % of D_h; the wall shear at that distance
+/// along a 270° corner's wall is about 0.05^(−1/3) ≈ 2.7 times C·τ_mean.)
+pub const CORNER_RADIUS_SHARE: f64 = 0.05;
+
+/// Radius around a singular corner, in grid spacings, within which the force balance takes
+/// the wall-shear integral from the singular term (2·a·ρ^λ, both walls) instead of the samples:
+/// the local fits of the samples assume a smooth field over 3.5 h and are poor within a few
+/// of them from the corner.
+pub const CORNER_BALANCE_CELLS: f64 = 6.0;
 
 /// Local wall shear of the unit problem at one wall sample, τ̃ = ∂ũ/∂n into the fluid.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -349,6 +408,21 @@ pub fn wall_shear(
     walls: &Walls,
     kind: WallKind,
 ) -> Vec<ShearSample> {
+    wall_shear_with_source(c, num, u, walls, kind, &|_| 1.0)
+}
+
+/// [`wall_shear`] of a field that solves −∇²v = f(x) with a smooth source f (`source`): the
+/// particular term of each fit is −f(p)·|x − p|²/4 with f at the fit's centre p, which leaves
+/// an error of O(|∇f|·h²) in the gradient (the smooth part w of an enriched solution,
+/// `singular::Enrichment`, whose source 1 + Σ a·∆(χS) varies over the cut-off's width).
+pub fn wall_shear_with_source(
+    c: &Classified,
+    num: &Numbering,
+    u: &[f64],
+    walls: &Walls,
+    kind: WallKind,
+    source: &(dyn Fn(Point) -> f64 + Sync),
+) -> Vec<ShearSample> {
     let exact_wall = kind == WallKind::Exact;
     use rayon::prelude::*;
     // Samples in parallel, one fit workspace per task; collected in sample order.
@@ -359,7 +433,7 @@ pub fn wall_shear(
             || LocalFit::new(c, num, u),
             |fit, smp| {
                 let tau = fit
-                    .at(smp.point, smp.normal, exact_wall)
+                    .at_with_source(smp.point, smp.normal, exact_wall, source(smp.point))
                     .map(|d| -(d.gradient[0] * smp.normal[0] + d.gradient[1] * smp.normal[1]))
                     .unwrap_or(f64::NAN);
                 ShearSample {
@@ -408,6 +482,17 @@ impl<'a> LocalFit<'a> {
     /// Fits around the wall point `p` whose outward normal is (roughly) `n_out`; `p_is_wall`
     /// adds p itself as a wall datum. None where too few data are reachable.
     pub fn at(&mut self, p: Point, n_out: Point, p_is_wall: bool) -> Option<LocalDerivatives> {
+        self.at_with_source(p, n_out, p_is_wall, 1.0)
+    }
+
+    /// [`LocalFit::at`] for −∇²u = `source` near p (the particular term −source·|x − p|²/4).
+    pub fn at_with_source(
+        &mut self,
+        p: Point,
+        n_out: Point,
+        p_is_wall: bool,
+        source: f64,
+    ) -> Option<LocalDerivatives> {
         let c = self.c;
         let g = &c.grid;
         let h = g.h;
@@ -486,12 +571,13 @@ impl<'a> LocalFit<'a> {
         if p_is_wall {
             self.rows.push(([0.0, 0.0], 0.0, 1.0, true));
         }
-        fit_local(&self.rows, h)
+        fit_local(&self.rows, h, source)
     }
 }
 
-/// Weighted least squares for the harmonic-plus-particular model with a free wall offset.
-fn fit_local(rows: &[FitRow], h: f64) -> Option<LocalDerivatives> {
+/// Weighted least squares for the harmonic-plus-particular model with a free wall offset
+/// (particular solution of −∇²u = `source`).
+fn fit_local(rows: &[FitRow], h: f64, source: f64) -> Option<LocalDerivatives> {
     // Try the cubic model first, fall back to fewer terms where the data are too few.
     for terms in [7usize, 5, 3] {
         if rows.len() < terms + 2 {
@@ -520,7 +606,7 @@ fn fit_local(rows: &[FitRow], h: f64) -> Option<LocalDerivatives> {
                 a[(row, terms)] = sw;
             }
             // Particular solution of −∇²ũ = 1 in units of h: −h²(X² + Y²)/4.
-            let particular = -h * h * (xx * xx + yy * yy) / 4.0;
+            let particular = -source * h * h * (xx * xx + yy * yy) / 4.0;
             b[row] = sw * (v - particular);
         }
         let Some(coef) = least_squares(a, &b) else {
@@ -534,7 +620,11 @@ fn fit_local(rows: &[FitRow], h: f64) -> Option<LocalDerivatives> {
         let h2 = h * h;
         return Some(LocalDerivatives {
             gradient: [coef[1] / h, coef[2] / h],
-            hessian: [2.0 * c3 / h2 - 0.5, 2.0 * c4 / h2, -2.0 * c3 / h2 - 0.5],
+            hessian: [
+                2.0 * c3 / h2 - 0.5 * source,
+                2.0 * c4 / h2,
+                -2.0 * c3 / h2 - 0.5 * source,
+            ],
         });
     }
     None
@@ -598,6 +688,18 @@ fn least_squares(a: DMatrix<f64>, b: &DVector<f64>) -> Option<DVector<f64>> {
 /// Adds the correction to `rhs` (unknown order) in place: each unknown's terms are summed in
 /// cut order and the sum then added to its entry, so no second right-hand side is allocated.
 pub fn add_wall_correction(problem: &Problem, num: &Numbering, u: &[f64], rhs: &mut [f64]) {
+    add_wall_correction_with_source(problem, num, u, rhs, &|_| 1.0)
+}
+
+/// [`add_wall_correction`] of a field that solves −∇²v = f(x) (`source`; see
+/// [`wall_shear_with_source`]).
+pub fn add_wall_correction_with_source(
+    problem: &Problem,
+    num: &Numbering,
+    u: &[f64],
+    rhs: &mut [f64],
+    source: &(dyn Fn(Point) -> f64 + Sync),
+) {
     use rayon::prelude::*;
     let c = problem.classified;
     // The fits in parallel (one workspace per task), then the sums in cut order, so the result
@@ -610,7 +712,7 @@ pub fn add_wall_correction(problem: &Problem, num: &Numbering, u: &[f64], rhs: &
             |fit, cut| {
                 let w = c.wall_point(cut);
                 let d = cut.dir.vector();
-                let der = fit.at(w, d, false)?;
+                let der = fit.at_with_source(w, d, false, source(w))?;
                 let [hxx, hxy, hyy] = der.hessian;
                 let b = d[0] * d[0] * hxx + 2.0 * d[0] * d[1] * hxy + d[1] * d[1] * hyy;
                 let q = num.unknown_of[cut.node] as usize;
@@ -635,29 +737,145 @@ pub fn add_wall_correction(problem: &Problem, num: &Numbering, u: &[f64], rhs: &
     }
 }
 
-/// All figures of merit from the unit solution.
+/// All figures of merit from the unit solution. `corners`: the sharp corners of the walls
+/// when the geometry is exact (None for a mask).
+///
+/// At a re-entrant corner the samples of the wall shear follow r^(λ−1) down to the grid's
+/// resolution and then fail, so (1) the largest wall shear is NaN (unbounded) and the largest
+/// one farther than [`CORNER_RADIUS_SHARE`]·D_h from the singular corners is given instead;
+/// (2) the force balance replaces the samples within ρ = min([`CORNER_BALANCE_CELLS`]·h, r₀/2)
+/// of the corner by the integral of the singular term over both walls, 2·a·ρ^λ
+/// (∫₀^ρ a·λ·r^(λ−1) dr per wall), with a from [`singular::coefficient`]. At a convex sharp
+/// corner the wall shear tends to 0 like r^(λ−1), λ > 1: the smallest is 0 there.
 pub fn figures(
     c: &Classified,
     num: &Numbering,
     u: &[f64],
     walls: &Walls,
     shear: &[ShearSample],
+    corners: Option<&[Corner]>,
+    enrichment: Option<&Enrichment>,
 ) -> Figures {
+    let treated: Vec<Point> = enrichment
+        .map(|e| e.corners.iter().map(|s| s.corner.position).collect())
+        .unwrap_or_default();
     let area = walls.area;
     let perimeter = walls.perimeter;
     let dh = 4.0 * area / perimeter;
     let flow = flow_integral(c, num, u, area);
     let umax = max_velocity(c, num, u);
+    let h = c.grid.h;
+    let tau_mean_exact = area / perimeter;
+    let weights = quadrature_weights(c, num);
+    let mut singular_corners = Vec::new();
+    let mut balance: Vec<(Point, f64, f64)> = Vec::new(); // (position, ρ, 2aρ^λ)
+    for k in corners
+        .unwrap_or(&[])
+        .iter()
+        .filter(|k| k.is_reentrant() && !treated.contains(&k.position))
+    {
+        let s = Singular::new(*k, dh);
+        let a = if s.r1 > 2.0 * h {
+            singular::coefficient(&s, c, num, u, &weights)
+        } else {
+            f64::NAN
+        };
+        let l = s.lambda;
+        let rho = (CORNER_BALANCE_CELLS * h).min(0.5 * s.r0);
+        balance.push((k.position, rho, 2.0 * a * rho.powf(l)));
+        singular_corners.push(SingularCorner {
+            position: k.position,
+            angle: k.angle,
+            exponent: l - 1.0,
+            coefficient: a * l * dh.powf(l - 1.0) / tau_mean_exact,
+            a,
+            straight: k.straight,
+            treated: false,
+        });
+    }
+    // The treated corners: their coefficient is the enrichment's, and their singular part's
+    // wall shear is integrated exactly (Singular::wall_flux) instead of sampled.
+    let mut exact_flux = 0.0;
+    if let Some(e) = enrichment {
+        for (s, &a) in e.corners.iter().zip(&e.a) {
+            let l = s.lambda;
+            exact_flux += a * s.wall_flux();
+            singular_corners.push(SingularCorner {
+                position: s.corner.position,
+                angle: s.corner.angle,
+                exponent: l - 1.0,
+                coefficient: a * l * dh.powf(l - 1.0) / tau_mean_exact,
+                a,
+                straight: s.corner.straight,
+                treated: true,
+            });
+        }
+        singular_corners.sort_by(|a, b| {
+            a.position[0]
+                .total_cmp(&b.position[0])
+                .then(a.position[1].total_cmp(&b.position[1]))
+        });
+    }
+    let dist = |p: Point, q: Point| (p[0] - q[0]).hypot(p[1] - q[1]);
     let valid: Vec<&ShearSample> = shear.iter().filter(|s| s.tau.is_finite()).collect();
-    let total: f64 = valid.iter().map(|s| s.tau * s.ds).sum();
-    let len: f64 = valid.iter().map(|s| s.ds).sum();
+    // The mean is the samples' own (the ratios and the wall_shear.csv refer to it); the
+    // force balance takes each singular corner's neighbourhood from its singular term.
+    let mut total = 0.0;
+    let mut balanced = 0.0;
+    let mut len = 0.0;
+    for (s, smp) in shear.iter().zip(&walls.samples) {
+        if !s.tau.is_finite() {
+            continue;
+        }
+        len += s.ds;
+        total += s.tau * s.ds;
+        if balance.iter().all(|&(p, rho, _)| dist(s.point, p) >= rho) {
+            // Less the treated corners' singular part, which exact_flux holds.
+            let singular = enrichment.map_or(0.0, |e| {
+                let g = e.gradient(smp.point);
+                -(g[0] * smp.normal[0] + g[1] * smp.normal[1])
+            });
+            balanced += (s.tau - singular) * s.ds;
+        }
+    }
+    balanced += exact_flux;
+    balanced += balance
+        .iter()
+        .map(|b| b.2)
+        .filter(|v| v.is_finite())
+        .sum::<f64>();
     let mean = if len > 0.0 { total / len } else { f64::NAN };
+    let balanced_mean = if len > 0.0 { balanced / len } else { f64::NAN };
     let tmax = valid
         .iter()
         .map(|s| s.tau)
         .fold(f64::NEG_INFINITY, f64::max);
+    let corner_radius = CORNER_RADIUS_SHARE * dh;
+    let tmax_away = valid
+        .iter()
+        .filter(|s| {
+            singular_corners
+                .iter()
+                .all(|k| dist(s.point, k.position) >= corner_radius)
+        })
+        .map(|s| s.tau)
+        .fold(f64::NEG_INFINITY, f64::max);
     let tmin = valid.iter().map(|s| s.tau).fold(f64::INFINITY, f64::min);
-    let total_exact_len = mean * perimeter;
+    let min_corner = corners
+        .unwrap_or(&[])
+        .iter()
+        .find(|k| k.angle < std::f64::consts::PI - SMOOTH_TOLERANCE)
+        .copied();
+    let corner_order = corners.map(|ks| {
+        ks.iter()
+            .filter(|k| k.is_reentrant() && !treated.contains(&k.position))
+            .map(|k| 2.0 * k.lambda())
+            .fold(2.0, f64::min)
+    });
+    // The heat-transfer problems are enriched at the same corners as the flow
+    // (heat::heat_transfer): the same order.
+    let heat_corner_order = corner_order;
+    let total_exact_len = balanced_mean * perimeter;
     Figures {
         area,
         perimeter,
@@ -667,9 +885,23 @@ pub fn figures(
         fanning_f_re: dh * dh * area / (2.0 * flow),
         max_to_mean_velocity: umax * area / flow,
         wall_shear_mean: mean,
-        wall_shear_max_to_mean: tmax / mean,
-        wall_shear_min_to_mean: tmin / mean,
+        wall_shear_max_to_mean: if singular_corners.is_empty() {
+            tmax / mean
+        } else {
+            f64::NAN
+        },
+        wall_shear_min_to_mean: if min_corner.is_some() {
+            0.0
+        } else {
+            tmin / mean
+        },
         force_balance_rel_error: (total_exact_len - area).abs() / area,
+        singular_corners,
+        wall_shear_max_away_to_mean: tmax_away / mean,
+        corner_radius,
+        wall_shear_min_corner: min_corner,
+        corner_order,
+        heat_corner_order,
     }
 }
 

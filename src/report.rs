@@ -75,6 +75,7 @@ pub fn json_report(o: &Outcome) -> Value {
         "force_balance_rel_error".into(),
         finite(f.force_balance_rel_error),
     );
+    corners_json(o, &mut m);
     let passages: Vec<Value> = o
         .unit
         .passages
@@ -188,6 +189,57 @@ pub fn json_report(o: &Outcome) -> Value {
     }
     m.insert("warnings".into(), json!(o.warnings));
     Value::Object(m)
+}
+
+/// The sharp-corner keys (../shared/INTERFACE.md, "Sharp corners"): `singular_corners`
+/// always (empty without re-entrant corners), each with `position_m`, `interior_angle_deg`,
+/// `exponent`, `coefficient` and, as an extension, `walls_straight`; with singular corners the
+/// extensions `wall_shear_max_to_mean_away_from_corners` and `singular_corner_radius_m` (the
+/// radius left out around each), and at a laminar operating point
+/// `wall_shear_max_away_from_corners_pa`; with a convex sharp corner (wall shear 0 there) the
+/// extension `wall_shear_min_at_corner` (`position_m`, `interior_angle_deg`).
+fn corners_json(o: &Outcome, m: &mut Map<String, Value>) {
+    let f = &o.unit.figures;
+    let deg = |a: f64| a.to_degrees();
+    let list: Vec<Value> = f
+        .singular_corners
+        .iter()
+        .map(|k| {
+            json!({
+                "position_m": k.position,
+                "interior_angle_deg": deg(k.angle),
+                "exponent": k.exponent,
+                "coefficient": finite(k.coefficient),
+                "walls_straight": k.straight,
+                "treated": k.treated,
+            })
+        })
+        .collect();
+    if !list.is_empty() {
+        m.insert(
+            "wall_shear_max_to_mean_away_from_corners".into(),
+            finite(f.wall_shear_max_away_to_mean),
+        );
+        m.insert("singular_corner_radius_m".into(), json!(f.corner_radius));
+        if let Some(op) = &o.operating {
+            if op.max_velocity_m_s.is_some() {
+                m.insert(
+                    "wall_shear_max_away_from_corners_pa".into(),
+                    finite(op.wall_shear_mean_pa * f.wall_shear_max_away_to_mean),
+                );
+            }
+        }
+    }
+    m.insert("singular_corners".into(), Value::Array(list));
+    if let Some(k) = &f.wall_shear_min_corner {
+        m.insert(
+            "wall_shear_min_at_corner".into(),
+            json!({
+                "position_m": k.position,
+                "interior_angle_deg": deg(k.angle),
+            }),
+        );
+    }
 }
 
 /// The keys of one passage's thermal entrance (../shared/INTERFACE.md, "Developing flow").
@@ -634,6 +686,25 @@ fn length(v: f64, rel: f64) -> String {
     }
 }
 
+/// A point in the unit [`length`] picks for `size` (e.g. the hydraulic diameter), 4 digits.
+fn position(p: [f64; 2], size: f64) -> String {
+    let (factor, unit) = if size >= 1.0 {
+        (1.0, "m")
+    } else if size >= 1e-3 {
+        (1e3, "mm")
+    } else {
+        (1e6, "µm")
+    };
+    let c = |v: f64| {
+        if (v * factor).abs() < 1e-9 * size * factor {
+            "0".to_string()
+        } else {
+            sig(v * factor, 4)
+        }
+    };
+    format!("({}, {}) {unit}", c(p[0]), c(p[1]))
+}
+
 fn area(v: f64, rel: f64) -> String {
     if v >= 1.0 {
         format!("{} m²", format_significant(v, rel))
@@ -708,9 +779,19 @@ pub fn summary(o: &Outcome) -> String {
                 if *reached { "reached" } else { "NOT reached" }
             ),
             Kind::Cheap => format!(
-                "cheap estimate from one coarser grid ({} cells), order 2 assumed, safety \
+                "cheap estimate from one coarser grid ({} cells), order {} assumed{}, safety \
                  factor 3; --accuracy TOL for a study",
-                u.grids.first().copied().unwrap_or(0)
+                u.grids.first().copied().unwrap_or(0),
+                if (u.formal_order - u.formal_order.round()).abs() < 1e-9 {
+                    format!("{}", u.formal_order.round())
+                } else {
+                    format!("{:.2}", u.formal_order)
+                },
+                if u.formal_order < 2.0 - 1e-9 {
+                    " (limited by the re-entrant corners)"
+                } else {
+                    ""
+                }
             ),
             Kind::Unavailable(why) => format!("not available: {why}"),
         };
@@ -769,16 +850,65 @@ pub fn summary(o: &Outcome) -> String {
         with_error(o, "max_to_mean_velocity", f.max_to_mean_velocity),
     );
     let _ = writeln!(s, "Wall shear (laminar)");
-    line(
-        &mut s,
-        "max / mean",
-        with_error(o, "wall_shear_max_to_mean", f.wall_shear_max_to_mean),
-    );
-    line(
-        &mut s,
-        "min / mean",
-        with_error(o, "wall_shear_min_to_mean", f.wall_shear_min_to_mean),
-    );
+    if f.singular_corners.is_empty() {
+        line(
+            &mut s,
+            "max / mean",
+            with_error(o, "wall_shear_max_to_mean", f.wall_shear_max_to_mean),
+        );
+    } else {
+        let n = f.singular_corners.len();
+        line(
+            &mut s,
+            "max / mean",
+            format!(
+                "unbounded at {n} re-entrant corner{} (listed below)",
+                if n == 1 { "" } else { "s" }
+            ),
+        );
+        line(
+            &mut s,
+            "max / mean, away",
+            format!(
+                "{} (farther than {} from those corners)",
+                with_error(
+                    o,
+                    "wall_shear_max_to_mean_away_from_corners",
+                    f.wall_shear_max_away_to_mean
+                ),
+                length(f.corner_radius, geo)
+            ),
+        );
+        for k in &f.singular_corners {
+            line(
+                &mut s,
+                "re-entrant corner",
+                format!(
+                    "at {}, {}°: τ ≈ {}·τ_mean·(r/D_h)^{}",
+                    position(k.position, f.hydraulic_diameter),
+                    sig(k.angle.to_degrees(), 4),
+                    sig(k.coefficient, 3),
+                    sig(k.exponent, 3)
+                ),
+            );
+        }
+    }
+    match &f.wall_shear_min_corner {
+        Some(k) => line(
+            &mut s,
+            "min / mean",
+            format!(
+                "0 (at the {}° corner at {})",
+                sig(k.angle.to_degrees(), 4),
+                position(k.position, f.hydraulic_diameter)
+            ),
+        ),
+        None => line(
+            &mut s,
+            "min / mean",
+            with_error(o, "wall_shear_min_to_mean", f.wall_shear_min_to_mean),
+        ),
+    }
     line(
         &mut s,
         "force balance error",

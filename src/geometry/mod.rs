@@ -11,6 +11,7 @@
 //! metres.
 
 pub mod builtin;
+pub mod corners;
 pub mod mask;
 pub mod shapefile;
 pub mod svg;
@@ -1001,6 +1002,11 @@ pub trait Domain: Sync {
     }
     /// The wetted walls sampled at spacing at most `spacing`, with perimeter and fluid area.
     fn walls(&self, spacing: f64) -> Walls;
+    /// The sharp corners of the walls ([`corners::Corner`]) when the geometry is exact; None
+    /// when they are not known (a mask: its traced contour or staircase has no exact vertices).
+    fn corners(&self) -> Option<Vec<corners::Corner>> {
+        None
+    }
     /// A lattice the grid must use, if the domain comes with one (a mask's pixel centres):
     /// (centre of the first node, pitch, nodes across, nodes down).
     fn lattice(&self) -> Option<Lattice> {
@@ -1560,6 +1566,9 @@ impl Domain for Shape {
     }
     fn walls(&self, spacing: f64) -> Walls {
         Shape::walls(self, spacing)
+    }
+    fn corners(&self) -> Option<Vec<corners::Corner>> {
+        Some(Shape::corners(self))
     }
 }
 

@@ -1178,10 +1178,21 @@ pub fn wall_shear_png(o: &Outcome, scale: &Scale, width: u32) -> Result<Vec<u8>>
     let shear = &o.unit.shear;
     // τ in displayed units per sample (the shear samples follow the wall samples one to one).
     let tau: Vec<f64> = shear.iter().map(|s| scale.tau_factor * s.tau).collect();
+    // The colour scale and the chart stop at the largest wall shear away from the singular
+    // corners (issue 20): their peaks, unbounded in truth and grid-dependent in the samples,
+    // would push every other wall into the lowest colours. Values above it show at its colour.
+    let figures = &o.unit.figures;
+    let away = |p: [f64; 2]| {
+        figures
+            .singular_corners
+            .iter()
+            .all(|k| (p[0] - k.position[0]).hypot(p[1] - k.position[1]) >= figures.corner_radius)
+    };
     let tmax = tau
         .iter()
-        .copied()
-        .filter(|t| t.is_finite())
+        .zip(shear)
+        .filter(|(t, s)| t.is_finite() && away(s.point))
+        .map(|(t, _)| *t)
         .fold(0.0, f64::max)
         .max(f64::MIN_POSITIVE);
     let field = Field::new(o, vec![0.0; o.unit.classified.grid.len()]);
@@ -1310,7 +1321,7 @@ pub fn wall_shear_png(o: &Outcome, scale: &Scale, width: u32) -> Result<Vec<u8>>
     let to = |s: f64, t: f64| {
         (
             cl + (cr - cl) * s / smax,
-            cb - (cb - ct) * (t - ylo) / (yhi - ylo),
+            cb - (cb - ct) * (t.min(yhi) - ylo) / (yhi - ylo),
         )
     };
     // Each wall's stretch: a light band (every other wall) and its number at the top.
@@ -1430,11 +1441,20 @@ pub fn wall_shear_png(o: &Outcome, scale: &Scale, width: u32) -> Result<Vec<u8>>
         lx,
         ly,
         0.85 * fs,
-        &format!(
-            "max/mean {}, min/mean {}",
-            sig4(f.wall_shear_max_to_mean),
-            sig4(f.wall_shear_min_to_mean)
-        ),
+        &if f.singular_corners.is_empty() {
+            format!(
+                "max/mean {}, min/mean {}",
+                sig4(f.wall_shear_max_to_mean),
+                sig4(f.wall_shear_min_to_mean)
+            )
+        } else {
+            format!(
+                "max/mean unbounded ({} re-entrant corners; {} away), min/mean {}",
+                f.singular_corners.len(),
+                sig4(f.wall_shear_max_away_to_mean),
+                sig4(f.wall_shear_min_to_mean)
+            )
+        },
         [90, 90, 90],
         Align::Left,
     );

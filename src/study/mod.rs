@@ -374,6 +374,25 @@ pub const STUDY_PLACEMENT: [f64; 2] = [0.414_213_562_373_095, 0.118_033_988_749_
 /// half a cell from the nodes) does not get a bound from an equally aligned coarse one.
 pub const CHEAP_OFFSET: [f64; 2] = [0.381_966, 0.414_214];
 
+/// An order for a sentence: "2", "1.33".
+fn format_order(p: f64) -> String {
+    if (p - p.round()).abs() < 1e-9 {
+        format!("{}", p.round())
+    } else {
+        format!("{p:.2}")
+    }
+}
+
+/// Why the formal order is below 2, if it is.
+fn corner_note(p: f64) -> &'static str {
+    if p < FORMAL_ORDER - 1e-9 {
+        " for the figures an untreated re-entrant corner limits (2π/α of the sharpest), 2 \
+         for the others (each figure's order_used)"
+    } else {
+        ""
+    }
+}
+
 /// How an [`Uncertainty`] was obtained.
 #[derive(Debug, Clone, PartialEq)]
 pub enum Kind {
@@ -413,6 +432,18 @@ pub struct Uncertainty {
     /// for a study of the grid alone.
     pub images: Vec<usize>,
     pub image_size: [usize; 2],
+    /// The formal order the estimate assumes for the grid (2, or less where re-entrant corners
+    /// forbid it: [`corner_formal_order`]); [`IMAGE_ORDER`] governs a mask's images instead.
+    pub formal_order: f64,
+}
+
+/// The formal order of a grid study of a cross-section whose corners allow `corner_order`
+/// (`post::Figures::corner_order`: min(2, 2π/α) over the untreated re-entrant corners; None
+/// when the corners are not known): never more than the scheme's [`FORMAL_ORDER`], and never
+/// more than the corners allow (a study that assumed order 2 on an L-shape, whose figures
+/// converge like h^(4/3), claimed half the true error).
+pub fn corner_formal_order(corner_order: Option<f64>) -> f64 {
+    corner_order.map_or(FORMAL_ORDER, |p| p.clamp(0.5, FORMAL_ORDER))
 }
 
 impl Uncertainty {
@@ -430,13 +461,17 @@ impl Uncertainty {
             Kind::Study { target, .. } => format!(
                 "grid-convergence study towards a relative accuracy of {target:.1e}: Richardson \
                  extrapolation with the observed order of the finest three of {} grids and the \
-                 Grid Convergence Index (Celik et al. 2008; Roache 1994)",
-                self.grids.len()
+                 Grid Convergence Index (Celik et al. 2008; Roache 1994), formal order {}{}",
+                self.grids.len(),
+                format_order(self.formal_order),
+                corner_note(self.formal_order)
             ),
             Kind::Cheap => format!(
-                "cheap, one coarser grid ({} cells across), assumed order {FORMAL_ORDER}, \
+                "cheap, one coarser grid ({} cells across), assumed order {}{}, \
                  safety factor {SAFETY_FACTOR_CAUTIOUS} (Roache 1994); use --accuracy for a study",
-                self.grids.first().copied().unwrap_or(0)
+                self.grids.first().copied().unwrap_or(0),
+                format_order(self.formal_order),
+                corner_note(self.formal_order)
             ),
             Kind::Unavailable(why) => format!("not available: {why}"),
         }
@@ -491,7 +526,7 @@ impl Uncertainty {
         let mut out = Vec::new();
         let three = self.grids.len() >= 3;
         let formal = if self.images.is_empty() {
-            FORMAL_ORDER
+            self.formal_order
         } else {
             IMAGE_ORDER
         };

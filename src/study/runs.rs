@@ -29,8 +29,9 @@ pub const STUDY_FIRST_CELLS: usize = 64;
 /// Finest grid an `--accuracy` study may use (cells across; the bench harness goes this far).
 pub const STUDY_MAX_CELLS: usize = 4096;
 
-/// One grid's figures for a study: report key, value, targeted.
-type Values = Vec<(&'static str, f64, bool)>;
+/// One grid's figures for a study: report key, value, targeted, and the formal order the
+/// corners allow it ([`study::corner_formal_order`]).
+type Values = Vec<(&'static str, f64, bool, f64)>;
 
 /// The figures whose uncertainty is estimated: report key, value, and whether an `--accuracy`
 /// study refines until it meets the target (f·Re and the Nusselt numbers).
@@ -39,30 +40,68 @@ fn study_quantities(o: &Outcome) -> Values {
 }
 
 /// [`study_quantities`] of one unit solution.
+///
+/// At a re-entrant corner the largest wall shear is unbounded: its uncertainty is that of the
+/// largest one away from the corners instead; at a convex sharp corner the smallest is exactly
+/// 0 and has none.
 fn unit_quantities(unit: &UnitSolution) -> Values {
     let f = &unit.figures;
+    let flow = study::corner_formal_order(f.corner_order);
+    let heat = study::corner_formal_order(f.heat_corner_order);
     let mut q = vec![
-        ("fanning_f_re", f.fanning_f_re, true),
-        ("max_to_mean_velocity", f.max_to_mean_velocity, false),
-        ("wall_shear_max_to_mean", f.wall_shear_max_to_mean, false),
-        ("wall_shear_min_to_mean", f.wall_shear_min_to_mean, false),
+        ("fanning_f_re", f.fanning_f_re, true, flow),
+        ("max_to_mean_velocity", f.max_to_mean_velocity, false, flow),
     ];
+    if f.singular_corners.is_empty() {
+        q.push((
+            "wall_shear_max_to_mean",
+            f.wall_shear_max_to_mean,
+            false,
+            flow,
+        ));
+    } else {
+        q.push((
+            "wall_shear_max_to_mean_away_from_corners",
+            f.wall_shear_max_away_to_mean,
+            false,
+            flow,
+        ));
+    }
+    if f.wall_shear_min_corner.is_none() {
+        q.push((
+            "wall_shear_min_to_mean",
+            f.wall_shear_min_to_mean,
+            false,
+            flow,
+        ));
+    }
     if let Some(h) = &unit.heat {
-        q.push(("nusselt_h1", h.nusselt_h1, true));
-        q.push(("nusselt_t", h.nusselt_t, true));
+        q.push(("nusselt_h1", h.nusselt_h1, true, heat));
+        q.push(("nusselt_t", h.nusselt_t, true, heat));
     }
     q
 }
 
-/// The per-quantity estimates of a sequence of runs, coarse to fine.
+/// The per-quantity estimates of a sequence of runs, coarse to fine, each at the formal order
+/// its corners allow (the finest run's).
 fn estimates(runs: &[(f64, Values)]) -> Vec<study::Quantity> {
-    estimates_with(runs, study::estimate)
+    estimates_with(runs, study::estimate_of_order)
 }
 
-/// [`estimates`] with the estimator `estimate` (e.g. [`study::image_estimate`]).
+/// The lowest formal order of this outcome's figures: 2, or what its re-entrant corners allow
+/// ([`study::corner_formal_order`]).
+fn formal_order(o: &Outcome) -> f64 {
+    study_quantities(o)
+        .iter()
+        .map(|q| q.3)
+        .fold(study::FORMAL_ORDER, f64::min)
+}
+
+/// [`estimates`] with the estimator `estimate(samples, formal order)` (e.g.
+/// [`study::image_estimate`], which has its own order).
 fn estimates_with(
     runs: &[(f64, Values)],
-    estimate: fn(&[Sample]) -> Option<study::Estimate>,
+    estimate: impl Fn(&[Sample], f64) -> Option<study::Estimate>,
 ) -> Vec<study::Quantity> {
     let Some((_, finest)) = runs.last() else {
         return Vec::new();
@@ -70,7 +109,7 @@ fn estimates_with(
     finest
         .iter()
         .enumerate()
-        .map(|(i, &(key, fine, targeted))| {
+        .map(|(i, &(key, fine, targeted, formal))| {
             let samples: Vec<Sample> = runs
                 .iter()
                 .map(|(h, values)| Sample {
@@ -81,7 +120,7 @@ fn estimates_with(
             study::Quantity {
                 key,
                 fine,
-                estimate: estimate(&samples),
+                estimate: estimate(&samples, formal),
                 targeted,
             }
         })
@@ -102,7 +141,7 @@ fn unavailable(o: &Outcome, why: String) -> Uncertainty {
         placement: "one grid".to_string(),
         quantities: study_quantities(o)
             .into_iter()
-            .map(|(key, fine, targeted)| study::Quantity {
+            .map(|(key, fine, targeted, _)| study::Quantity {
                 key,
                 fine,
                 estimate: None,
@@ -111,6 +150,7 @@ fn unavailable(o: &Outcome, why: String) -> Uncertainty {
             .collect(),
         images: Vec::new(),
         image_size: [0, 0],
+        formal_order: formal_order(o),
     }
 }
 
@@ -166,6 +206,7 @@ pub(crate) fn with_cheap_estimate(
                 quantities: estimates(&runs),
                 images: Vec::new(),
                 image_size: [0, 0],
+                formal_order: formal_order(&fine),
             });
         }
         Err(e) => {
@@ -293,6 +334,7 @@ pub(crate) fn run_study(config: &SolveConfig, tol: f64, monitor: &dyn Monitor) -
             ),
         ));
     }
+    let formal = formal_order(&o);
     let quantities = estimates(&runs);
     let uncertainty = Uncertainty {
         kind: study::Kind::Study {
@@ -309,6 +351,7 @@ pub(crate) fn run_study(config: &SolveConfig, tol: f64, monitor: &dyn Monitor) -
         quantities,
         images: Vec::new(),
         image_size: [0, 0],
+        formal_order: formal,
     };
     if !reached {
         let worst = targeted_summary(&uncertainty);
@@ -319,8 +362,9 @@ pub(crate) fn run_study(config: &SolveConfig, tol: f64, monitor: &dyn Monitor) -
             uncertainty.grids.len()
         ));
         if uncertainty.grids.len() < 3 {
-            o.warnings
-                .push("only two grids: the formal order 2 is assumed, with safety factor 3".into());
+            o.warnings.push(format!(
+                "only two grids: the formal order {formal:.2} is assumed, with safety factor 3"
+            ));
         }
     }
     o.warnings.extend(uncertainty.warnings());
@@ -442,7 +486,7 @@ pub(crate) fn run_image_study(
         o.uncertainty = Some(unavailable(&o, why));
         return Ok(o);
     }
-    let quantities = estimates_with(&runs, study::image_estimate);
+    let quantities = estimates_with(&runs, |s, _| study::image_estimate(s));
     let reached = target.is_some_and(|tol| {
         quantities
             .iter()
@@ -468,6 +512,7 @@ pub(crate) fn run_image_study(
         quantities,
         images,
         image_size,
+        formal_order: study::FORMAL_ORDER,
     };
     if let (Some(tol), false) = (target, reached) {
         let worst = targeted_summary(&uncertainty);

@@ -1,0 +1,432 @@
+//! The singular behaviour of the solution at sharp corners: singular functions, a smooth
+//! cut-off, and the coefficient of the leading singular term extracted from a discrete
+//! solution.
+//!
+//! Owns: [`Singular`] (a corner of the walls with its exponent), the cut-off χ, the singular
+//! function S = r^λ·sin(λθ) and its dual s⁻ = r^(−λ)·sin(λθ), and [`coefficient`], the
+//! coefficient a of u ≈ a·S near the corner.
+//!
+//! # The mathematics
+//! At a corner of interior angle α with u = 0 on both (straight) walls, the solution of
+//! −∇²u = f is u = a·r^λ·sin(λθ) + (terms in r^(2λ), r²) with λ = π/α, θ measured in the
+//! fluid from one wall (Motz 1946; Fix, Gulati & Wakoff 1973). For a re-entrant corner
+//! (α > π, λ < 1) the wall shear ∂u/∂n = a·λ·r^(λ−1) is unbounded. The coefficient follows from
+//! Green's second identity with the dual function v = χ·s⁻, which is harmonic where χ = 1 and
+//! vanishes on both walls (the "dual singular function" extraction, Blum & Dobrowolski 1982,
+//! from memory): over the fluid less a small disc about the corner, whose boundary term tends
+//! to a·λ·α = a·π,
+//!
+//! ```text
+//!     a = (1/π)·( ∫ u·∆(χs⁻) dA + ∫ χ·s⁻·f dA ),
+//!     ∆(χs⁻) = sin(λθ)·r^(−λ)·( χ″ + (1 − 2λ)·χ′/r ),
+//! ```
+//!
+//! with χ(r) = 1 for r ≤ r₀, 0 for r ≥ r₁ and a quintic (C²) blend between. The first integral
+//! only sees u in the annulus r₀ < r < r₁, away from the corner, where the discrete solution is
+//! smooth: the node sum with the cut-cell quadrature weights is second order there. The second
+//! is exact for f = 1 over the sector (a 1-D integral in r, Gauss–Legendre). Both need the
+//! fluid within r₁ to be the corner's sector: r₁ is below the corner's clear radius
+//! ([`crate::geometry::corners::Corner::clear_radius`]). On a curved wall s⁻ does not vanish
+//! and the extraction is off by about λ²·r₁/(π·ρ) (ρ the wall's radius of curvature), which
+//! is the reason the wall-shear coefficient of such a corner is only indicative.
+//!
+//! # Measured (2026-12-05)
+//! References: canalis's own `--accuracy` studies with the treatment, 400–3038 cells,
+//! extrapolated (tests/corners.rs lists them with their uncertainty). At the default 600 cells
+//! the relative errors of f·Re, u_max/ū, Nu_H1, Nu_T are 1.1e-6, 1.4e-5, 5.1e-6, 2.6e-7 on an
+//! L-shape (three 1 mm squares); 3.1e-6, 7.5e-6, 1.2e-5, 2.9e-6 on a T of two rects;
+//! 1.3e-4, 1.7e-5, 1.0e-4, 8.6e-5 on shapes/finned_tube.toml (fins 1 mm thick in a 16 mm
+//! bore: r₁ = 0.8 mm is 30 cells, and its error constant stays large); before the treatment
+//! the L's f·Re was 6e-5 off at 600 cells, the finned tube's 1.9e-4. On the L at the studies'
+//! placement the treated f·Re converges at order 1.7–2.5 (216–1641 cells), u_max/ū at 2.0, the
+//! corner coefficient C at 2; untreated at 1.33 = 2π/α.
+//!
+//! Invariant: knows the grid and its quadrature weights, nothing of solvers or reports.
+
+use crate::geometry::corners::Corner;
+use crate::geometry::Point;
+use crate::grid::Classified;
+use crate::problem::Numbering;
+
+/// Gauss–Legendre nodes and weights on [-1, 1], 8 points.
+const GAUSS8: [(f64, f64); 8] = [
+    (-0.960_289_856_497_536_3, 0.101_228_536_290_376_26),
+    (-0.796_666_477_413_626_7, 0.222_381_034_453_374_47),
+    (-0.525_532_409_916_329, 0.313_706_645_877_887_3),
+    (-0.183_434_642_495_649_8, 0.362_683_783_378_362),
+    (0.183_434_642_495_649_8, 0.362_683_783_378_362),
+    (0.525_532_409_916_329, 0.313_706_645_877_887_3),
+    (0.796_666_477_413_626_7, 0.222_381_034_453_374_47),
+    (0.960_289_856_497_536_3, 0.101_228_536_290_376_26),
+];
+
+/// The cut-off χ(r) and its first two derivatives: 1 up to r₀, 0 from r₁, the quintic
+/// 1 − (10s³ − 15s⁴ + 6s⁵), s = (r − r₀)/(r₁ − r₀), between (C² at both ends).
+pub fn cutoff(r: f64, r0: f64, r1: f64) -> (f64, f64, f64) {
+    if r <= r0 {
+        return (1.0, 0.0, 0.0);
+    }
+    if r >= r1 {
+        return (0.0, 0.0, 0.0);
+    }
+    let w = r1 - r0;
+    let s = (r - r0) / w;
+    let s2 = s * s;
+    let v = 1.0 - s2 * s * (10.0 - 15.0 * s + 6.0 * s2);
+    let d1 = -30.0 * s2 * (1.0 - s) * (1.0 - s) / w;
+    let d2 = -60.0 * s * (1.0 - s) * (1.0 - 2.0 * s) / (w * w);
+    (v, d1, d2)
+}
+
+/// A re-entrant corner with what the extraction needs: exponent λ = π/α and the cut-off radii.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Singular {
+    pub corner: Corner,
+    pub lambda: f64,
+    /// The cut-off χ is 1 within r₀ and 0 beyond r₁ (r₁ below the clear radius).
+    pub r0: f64,
+    pub r1: f64,
+}
+
+/// Share of the clear radius used as the cut-off's outer radius r₁.
+const CUTOFF_SHARE: f64 = 0.8;
+/// The cut-off's inner radius r₀ as a share of r₁. A wide blend keeps ∆(χ·S), the source it
+/// adds to the smooth part w, small and smooth: measured on an L-shape (placement of the
+/// studies, 216–1641 cells), f·Re at r₀ = r₁/2 converged at orders 0.7–1.4 up to 729 cells
+/// (error 9e-5 there) and at 2.5 beyond; at r₀ = r₁/10 at orders 1.7–2.5 throughout (errors
+/// 5.7e-4, 2.3e-4, 1.2e-4, 5.2e-5, 1.9e-5, 9e-6 at 216, 324, 486, 729, 1094, 1641 cells
+/// against the value extrapolated from the finest), u_max/ū at order 2.0. A floor of 6 grid
+/// spacings on r₀ (tried on shapes/finned_tube.toml, whose fins are 1 mm thick, r₁ = 0.8 mm,
+/// r₀ 1.5–7.5 spacings at 216–1094 cells) changed f·Re by less than its error from 729 cells
+/// on and made the coarser grids worse: not used.
+const INNER_SHARE: f64 = 0.1;
+
+impl Singular {
+    /// The corner with its cut-off radii: r₁ = 0.8 of the clear radius, at most `max_radius`
+    /// (a length of the passage, so that a corner far from every other wall does not reach across
+    /// the section), r₀ = r₁/10 ([`INNER_SHARE`]).
+    pub fn new(corner: Corner, max_radius: f64) -> Singular {
+        let r1 = (CUTOFF_SHARE * corner.clear_radius).min(max_radius);
+        let r0 = INNER_SHARE * r1;
+        Singular {
+            corner,
+            lambda: corner.lambda(),
+            r0,
+            r1,
+        }
+    }
+
+    /// ∫ χ·s⁻ dA over the corner's sector: (2/λ)·∫₀^r₁ χ(r)·r^(1−λ) dr, since
+    /// ∫₀^α sin(λθ) dθ = 2/λ.
+    pub fn dual_source_integral(&self) -> f64 {
+        let l = self.lambda;
+        let inner = self.r0.powf(2.0 - l) / (2.0 - l);
+        let (a, b) = (self.r0, self.r1);
+        let mut outer = 0.0;
+        for &(x, w) in &GAUSS8 {
+            let r = 0.5 * (a + b) + 0.5 * (b - a) * x;
+            outer += w * cutoff(r, a, b).0 * r.powf(1.0 - l);
+        }
+        outer *= 0.5 * (b - a);
+        2.0 / l * (inner + outer)
+    }
+
+    /// ∫ ∂(χ·S)/∂n_in ds over both walls: 2·∫₀^r₁ χ(r)·λ·r^(λ−1) dr (the wall shear of the
+    /// singular part, exactly; on each wall ∂S/∂n_in = λ·r^(λ−1)).
+    pub fn wall_flux(&self) -> f64 {
+        let l = self.lambda;
+        let (a, b) = (self.r0, self.r1);
+        let mut outer = 0.0;
+        for &(x, w) in &GAUSS8 {
+            let r = 0.5 * (a + b) + 0.5 * (b - a) * x;
+            outer += w * cutoff(r, a, b).0 * l * r.powf(l - 1.0);
+        }
+        2.0 * (a.powf(l) + 0.5 * (b - a) * outer)
+    }
+
+    /// ∆(χ·s⁻) at `p` (zero outside the annulus r₀ < r < r₁ and outside the sector).
+    pub fn dual_laplacian(&self, p: Point) -> f64 {
+        let (r, t) = self.corner.polar(p);
+        if r <= self.r0 || r >= self.r1 || t < 0.0 || t > self.corner.angle {
+            return 0.0;
+        }
+        let (_, d1, d2) = cutoff(r, self.r0, self.r1);
+        let l = self.lambda;
+        (l * t).sin() * r.powf(-l) * (d2 + (1.0 - 2.0 * l) * d1 / r)
+    }
+}
+
+impl Singular {
+    /// χ·S = χ(r)·r^λ·sin(λθ) at `p` (zero outside r₁ and outside the sector).
+    pub fn function(&self, p: Point) -> f64 {
+        let (r, t) = self.corner.polar(p);
+        if r >= self.r1 || !(0.0..=self.corner.angle).contains(&t) {
+            return 0.0;
+        }
+        let l = self.lambda;
+        cutoff(r, self.r0, self.r1).0 * r.powf(l) * (l * t).sin()
+    }
+
+    /// ∆(χ·S) = sin(λθ)·r^λ·(χ″ + (1 + 2λ)·χ′/r): zero where χ = 1 (S is harmonic there).
+    pub fn laplacian(&self, p: Point) -> f64 {
+        let (r, t) = self.corner.polar(p);
+        if r <= self.r0 || r >= self.r1 || !(0.0..=self.corner.angle).contains(&t) {
+            return 0.0;
+        }
+        let (_, d1, d2) = cutoff(r, self.r0, self.r1);
+        let l = self.lambda;
+        (l * t).sin() * r.powf(l) * (d2 + (1.0 + 2.0 * l) * d1 / r)
+    }
+
+    /// ∇(χ·S) at `p` (Cartesian components).
+    pub fn gradient(&self, p: Point) -> [f64; 2] {
+        let (r, t) = self.corner.polar(p);
+        if r >= self.r1 || r <= 0.0 || !(0.0..=self.corner.angle).contains(&t) {
+            return [0.0, 0.0];
+        }
+        let l = self.lambda;
+        let (v, d1, _) = cutoff(r, self.r0, self.r1);
+        let (sn, cs) = (l * t).sin_cos();
+        // ∂/∂r and (1/r)·∂/∂θ of χ·r^λ·sin(λθ).
+        let dr = (d1 * r.powf(l) + v * l * r.powf(l - 1.0)) * sn;
+        let dt = v * l * r.powf(l - 1.0) * cs;
+        let phi = t + self.corner.start;
+        let (s_phi, c_phi) = phi.sin_cos();
+        [dr * c_phi - dt * s_phi, dr * s_phi + dt * c_phi]
+    }
+}
+
+/// Fewest grid spacings across the cut-off's outer radius for a corner to be treated by
+/// [`Enrichment`]: the extraction reads u in the annulus r₁/2 < r < r₁, which needs a few nodes
+/// across to be accurate (canalis's choice).
+pub const MIN_CUTOFF_CELLS: f64 = 8.0;
+
+/// The flow problem's solution enriched with the singular functions of its re-entrant
+/// corners (Fix, Gulati & Wakoff 1973; here with a cut-off and the coefficients by extraction):
+///
+/// ```text
+///     u = Σ_c a_c·χ_c·S_c + w,   −∇²w = f + Σ_c a_c·∆(χ_c·S_c),   w = 0 on the walls,
+/// ```
+///
+/// S_c = r^λ·sin(λθ) vanishing on both (straight) walls of corner c, so w keeps u's wall
+/// condition; w lacks the r^λ term and the cut-cell scheme solves it at second order instead
+/// of h^(2λ). The a_c are found with the solve by a fixed point: a from the extraction
+/// ([`coefficient`]) of the current u, w solved for that a, until a settles. A wrong a is
+/// not an inconsistent u (w makes up for it); it only leaves part of the singular term in w,
+/// so the iteration converges at once in practice (the change of a falls like h^(2λ) per
+/// step) and the figures depend little on its last digits.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Enrichment {
+    pub corners: Vec<Singular>,
+    /// a_c of each corner (unit problem, m^(2 − λ)).
+    pub a: Vec<f64>,
+}
+
+impl Enrichment {
+    /// The corners of `corners` that are treated on a grid of spacing `h` (D_h `dh`):
+    /// re-entrant, both walls straight (S vanishes on them), and a cut-off of at least
+    /// [`MIN_CUTOFF_CELLS`] spacings. Others keep the plain scheme (and its reduced order).
+    pub fn treatable(corners: &[Corner], h: f64, dh: f64) -> Vec<Singular> {
+        corners
+            .iter()
+            .filter(|k| k.is_reentrant() && k.straight)
+            .map(|k| Singular::new(*k, dh))
+            .filter(|s| s.r1 >= MIN_CUTOFF_CELLS * h)
+            .collect()
+    }
+
+    /// Σ_c a_c·χ_c·S_c at every unknown.
+    pub fn values(&self, c: &Classified, num: &Numbering) -> Vec<f64> {
+        self.sum_at(c, num, |s, p| s.function(p))
+    }
+
+    /// Σ_c a_c·∆(χ_c·S_c) at every unknown.
+    pub fn source(&self, c: &Classified, num: &Numbering) -> Vec<f64> {
+        self.sum_at(c, num, |s, p| s.laplacian(p))
+    }
+
+    /// 1 + Σ_c a_c·∆(χ_c·S_c) at `p`: the source of the smooth part w of the flow.
+    pub fn flow_source_at(&self, p: Point) -> f64 {
+        1.0 + self
+            .corners
+            .iter()
+            .zip(&self.a)
+            .map(|(s, a)| a * s.laplacian(p))
+            .sum::<f64>()
+    }
+
+    /// Σ_c a_c·∇(χ_c·S_c) at `p`.
+    pub fn gradient(&self, p: Point) -> [f64; 2] {
+        let mut g = [0.0, 0.0];
+        for (s, a) in self.corners.iter().zip(&self.a) {
+            let d = s.gradient(p);
+            g[0] += a * d[0];
+            g[1] += a * d[1];
+        }
+        g
+    }
+
+    /// The coefficients extracted from `u`, the solution of −∇²u = f with f per unknown
+    /// ([`coefficient_with_source`]).
+    pub fn extract_with_source(
+        &self,
+        c: &Classified,
+        num: &Numbering,
+        u: &[f64],
+        source: &[f64],
+        weights: &[f64],
+    ) -> Vec<f64> {
+        self.corners
+            .iter()
+            .map(|s| coefficient_with_source(s, c, num, u, source, weights))
+            .collect()
+    }
+
+    /// The coefficients extracted from `u` (the whole solution, singular part included).
+    pub fn extract(&self, c: &Classified, num: &Numbering, u: &[f64], weights: &[f64]) -> Vec<f64> {
+        self.corners
+            .iter()
+            .map(|s| coefficient(s, c, num, u, weights))
+            .collect()
+    }
+
+    fn sum_at(
+        &self,
+        c: &Classified,
+        num: &Numbering,
+        f: impl Fn(&Singular, Point) -> f64,
+    ) -> Vec<f64> {
+        let g = &c.grid;
+        let mut out = vec![0.0; num.len()];
+        for (s, a) in self.corners.iter().zip(&self.a) {
+            let p = s.corner.position;
+            let span = (s.r1 / g.h).ceil() as isize + 1;
+            let ci = ((p[0] - g.origin[0]) / g.h).round() as isize;
+            let cj = ((p[1] - g.origin[1]) / g.h).round() as isize;
+            for j in (cj - span).max(0)..=(cj + span).min(g.ny as isize - 1) {
+                for i in (ci - span).max(0)..=(ci + span).min(g.nx as isize - 1) {
+                    let k = g.index(i as usize, j as usize);
+                    let q = num.unknown_of[k];
+                    if q == crate::problem::NO_UNKNOWN {
+                        continue;
+                    }
+                    out[q as usize] += a * f(s, g.node(i as usize, j as usize));
+                }
+            }
+        }
+        out
+    }
+}
+
+/// The coefficient a of u ≈ a·r^λ·sin(λθ) at `s` for −∇²u = f with f given per unknown
+/// (`source`, bounded near the corner): as [`coefficient`], with ∫χ·s⁻·f dA by the cut-cell
+/// quadrature (its integrand is bounded where f vanishes like r^λ or less: second order).
+pub fn coefficient_with_source(
+    s: &Singular,
+    c: &Classified,
+    num: &Numbering,
+    u: &[f64],
+    source: &[f64],
+    weights: &[f64],
+) -> f64 {
+    let g = &c.grid;
+    let p = s.corner.position;
+    let span = (s.r1 / g.h).ceil() as isize + 1;
+    let ci = ((p[0] - g.origin[0]) / g.h).round() as isize;
+    let cj = ((p[1] - g.origin[1]) / g.h).round() as isize;
+    let l = s.lambda;
+    let mut sum = 0.0;
+    for j in (cj - span).max(0)..=(cj + span).min(g.ny as isize - 1) {
+        for i in (ci - span).max(0)..=(ci + span).min(g.nx as isize - 1) {
+            let k = g.index(i as usize, j as usize);
+            let q = num.unknown_of[k];
+            if q == crate::problem::NO_UNKNOWN {
+                continue;
+            }
+            let q = q as usize;
+            let x = g.node(i as usize, j as usize);
+            let (r, t) = s.corner.polar(x);
+            if r >= s.r1 || r <= 0.0 || !(0.0..=s.corner.angle).contains(&t) {
+                continue;
+            }
+            let dual = cutoff(r, s.r0, s.r1).0 * r.powf(-l) * (l * t).sin();
+            sum += weights[q] * (u[q] * s.dual_laplacian(x) + dual * source[q]);
+        }
+    }
+    sum / std::f64::consts::PI
+}
+
+/// The coefficient a of u ≈ a·r^λ·sin(λθ) at `s`, from the discrete solution `u` of
+/// −∇²u = 1 (module notes): (1/π)·(Σ w_i·u_i·∆(χs⁻)(x_i) + ∫χs⁻ dA), w the cut-cell
+/// quadrature weights ([`crate::post::quadrature_weights`], passed in).
+pub fn coefficient(
+    s: &Singular,
+    c: &Classified,
+    num: &Numbering,
+    u: &[f64],
+    weights: &[f64],
+) -> f64 {
+    let g = &c.grid;
+    let p = s.corner.position;
+    // Only the nodes within r₁ of the corner: a box of them.
+    let span = (s.r1 / g.h).ceil() as isize + 1;
+    let ci = ((p[0] - g.origin[0]) / g.h).round() as isize;
+    let cj = ((p[1] - g.origin[1]) / g.h).round() as isize;
+    let mut sum = 0.0;
+    for j in (cj - span).max(0)..=(cj + span).min(g.ny as isize - 1) {
+        for i in (ci - span).max(0)..=(ci + span).min(g.nx as isize - 1) {
+            let k = g.index(i as usize, j as usize);
+            let q = num.unknown_of[k];
+            if q == crate::problem::NO_UNKNOWN {
+                continue;
+            }
+            let q = q as usize;
+            sum += weights[q] * u[q] * s.dual_laplacian(g.node(i as usize, j as usize));
+        }
+    }
+    (sum + s.dual_source_integral()) / std::f64::consts::PI
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn cutoff_is_smooth_and_its_derivatives_are_right() {
+        let (r0, r1) = (0.5, 1.0);
+        for k in 1..50 {
+            let r = 0.5 + 0.5 * k as f64 / 50.0;
+            let e = 1e-6;
+            let (v, d1, d2) = cutoff(r, r0, r1);
+            let (vp, d1p, _) = cutoff(r + e, r0, r1);
+            let (vm, d1m, _) = cutoff(r - e, r0, r1);
+            assert!((d1 - (vp - vm) / (2.0 * e)).abs() < 1e-6);
+            assert!((d2 - (d1p - d1m) / (2.0 * e)).abs() < 1e-5);
+            assert!((0.0..=1.0).contains(&v));
+        }
+        assert_eq!(cutoff(0.5, r0, r1), (1.0, 0.0, 0.0));
+        assert_eq!(cutoff(1.0, r0, r1), (0.0, 0.0, 0.0));
+    }
+
+    #[test]
+    fn the_dual_source_integral_matches_a_plain_quadrature() {
+        let corner = Corner {
+            position: [0.0, 0.0],
+            angle: 1.5 * std::f64::consts::PI,
+            start: 0.0,
+            straight: true,
+            clear_radius: 1.0,
+        };
+        let s = Singular::new(corner, 10.0);
+        // Midpoint rule in r on a fine partition (the r^(1−λ) end is integrable and mild).
+        let n = 200_000;
+        let l = s.lambda;
+        let mut sum = 0.0;
+        for k in 0..n {
+            let r = (k as f64 + 0.5) / n as f64 * s.r1;
+            sum += cutoff(r, s.r0, s.r1).0 * r.powf(1.0 - l);
+        }
+        sum *= s.r1 / n as f64 * 2.0 / l;
+        assert!((sum - s.dual_source_integral()).abs() < 1e-6 * sum, "{sum}");
+    }
+}

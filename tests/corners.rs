@@ -1,0 +1,307 @@
+//! Issue 20: sharp corners. Re-entrant corners found from the exact geometry, the wall shear
+//! reported honestly there (no maximum, the singular corners listed with their coefficient,
+//! the largest wall shear away from them), the smallest wall shear 0 at a convex sharp corner,
+//! the force balance with the corners' share, and an uncertainty estimate that never assumes
+//! an order the corners forbid.
+
+mod common;
+
+use common::{num, rel_err, Sandbox};
+
+/// An L-shaped duct of three 1 mm squares: one re-entrant corner (270°) at (1, 1) mm.
+const L_SHAPE: &str = r#"
+name = "L"
+units = "mm"
+[[region]]
+kind = "polygon"
+points = [[0, 0], [2, 0], [2, 1], [1, 1], [1, 2], [0, 2]]
+"#;
+
+/// A 2 × 1 mm rectangle with one fin 0.1 mm thick standing 0.5 mm into it from the bottom
+/// wall (a rect hole reaching below the region): two re-entrant corners at the fin's tip, two
+/// convex ones at its root where the hole meets the region's edge.
+const ONE_FIN: &str = r#"
+name = "rectangle with one fin"
+units = "mm"
+[[region]]
+kind = "rect"
+corner = [0, 0]
+size = [2, 1]
+[[hole]]
+kind = "rect"
+corner = [0.95, -0.1]
+size = [0.1, 0.6]
+"#;
+
+#[test]
+fn issue_20_an_l_shape_reports_its_singular_corner_and_no_maximum() {
+    let sb = Sandbox::new();
+    let path = sb.write("l.toml", L_SHAPE);
+    let r = sb.report(&["solve", &path, "--cells", "240", "--json"]);
+    assert!(r["wall_shear_max_to_mean"].is_null(), "{r}");
+    let corners = r["singular_corners"].as_array().unwrap();
+    assert_eq!(corners.len(), 1, "{r}");
+    let c = &corners[0];
+    let p = c["position_m"].as_array().unwrap();
+    assert!((p[0].as_f64().unwrap() - 1e-3).abs() < 1e-12);
+    assert!((p[1].as_f64().unwrap() - 1e-3).abs() < 1e-12);
+    assert!((c["interior_angle_deg"].as_f64().unwrap() - 270.0).abs() < 1e-9);
+    // π/α − 1 with α = 3π/2 (Motz 1946).
+    assert!((c["exponent"].as_f64().unwrap() + 1.0 / 3.0).abs() < 1e-12);
+    // C measured at 300 and 600 cells: 0.62415, 0.62419 (canalis's own extraction; no
+    // published value known to us).
+    let coefficient = c["coefficient"].as_f64().unwrap();
+    assert!(rel_err(coefficient, 0.6242) < 2e-3, "C = {coefficient}");
+    // The largest wall shear away from the corner is bounded and reported with its radius.
+    let away = num(&r, "wall_shear_max_to_mean_away_from_corners");
+    assert!((1.5..2.2).contains(&away), "{away}");
+    assert!((num(&r, "singular_corner_radius_m") - 0.05 * 1.5e-3).abs() < 1e-12);
+    // The five convex right angles: the smallest wall shear is 0, at one of them.
+    assert_eq!(num(&r, "wall_shear_min_to_mean"), 0.0);
+    assert_eq!(
+        r["wall_shear_min_at_corner"]["interior_angle_deg"]
+            .as_f64()
+            .map(|a| (a - 90.0).abs() < 1e-9),
+        Some(true),
+        "{r}"
+    );
+    // The force balance holds with the corner's share, without a warning.
+    // Measured: 5.2e-4 at 240 cells, 2.5e-5 at 600.
+    assert!(num(&r, "force_balance_rel_error") < 1e-3, "{r}");
+    let warnings = r["warnings"].as_array().unwrap();
+    assert!(
+        warnings
+            .iter()
+            .all(|w| !w.as_str().unwrap().contains("force-balance")),
+        "{warnings:?}"
+    );
+    // The corner is treated (singular-function enrichment of the flow and the heat-transfer
+    // problems): every estimate assumes order 2, none less.
+    assert_eq!(c["treated"], true);
+    for key in [
+        "fanning_f_re",
+        "max_to_mean_velocity",
+        "nusselt_h1",
+        "nusselt_t",
+    ] {
+        let u = &r["uncertainty"][key];
+        assert_eq!(u["order_used"].as_f64(), Some(2.0), "{key}: {u}");
+    }
+    // No uncertainty for an unbounded maximum or an exact zero; the bounded one instead.
+    let unc = r["uncertainty"].as_object().unwrap();
+    assert!(!unc.contains_key("wall_shear_max_to_mean"));
+    assert!(!unc.contains_key("wall_shear_min_to_mean"));
+    assert!(unc.contains_key("wall_shear_max_to_mean_away_from_corners"));
+    // The summary names the corner and says the maximum is unbounded.
+    let text = sb.run(&["solve", &path, "--cells", "120"]);
+    text.assert_success();
+    assert!(
+        text.stdout.contains("unbounded at 1 re-entrant corner"),
+        "{}",
+        text.stdout
+    );
+    assert!(text.stdout.contains("order 2 assumed"), "{}", text.stdout);
+}
+
+#[test]
+fn issue_20_a_fin_has_two_singular_tips_and_convex_roots() {
+    let sb = Sandbox::new();
+    let path = sb.write("fin.toml", ONE_FIN);
+    let r = sb.report(&["solve", &path, "--cells", "240", "--json"]);
+    let corners = r["singular_corners"].as_array().unwrap();
+    assert_eq!(corners.len(), 2, "{r}");
+    for c in corners {
+        let p = c["position_m"].as_array().unwrap();
+        assert!((p[1].as_f64().unwrap() - 0.5e-3).abs() < 1e-12, "{c}");
+        assert!((c["interior_angle_deg"].as_f64().unwrap() - 270.0).abs() < 1e-9);
+        assert_eq!(c["walls_straight"], true);
+    }
+    // Mirror-symmetric fin: the two tips' coefficients agree.
+    let c0 = corners[0]["coefficient"].as_f64().unwrap();
+    let c1 = corners[1]["coefficient"].as_f64().unwrap();
+    assert!(rel_err(c0, c1) < 1e-2, "{c0} {c1}");
+    assert!(r["wall_shear_max_to_mean"].is_null());
+    assert_eq!(num(&r, "wall_shear_min_to_mean"), 0.0);
+}
+
+#[test]
+fn issue_20_a_d_section_has_zero_minimum_at_its_convex_corners_and_a_maximum() {
+    let sb = Sandbox::new();
+    let path = common::shipped_path("d_section.toml");
+    let r = sb.report(&["solve", &path, "--cells", "200", "--json"]);
+    assert!(r["singular_corners"].as_array().unwrap().is_empty());
+    assert!(num(&r, "wall_shear_max_to_mean") > 1.0);
+    assert_eq!(num(&r, "wall_shear_min_to_mean"), 0.0);
+    // The flat y = 3 mm meets the circle r = 5 mm at (±4, 3) mm at 180° − acos(−3/5)...: the
+    // angle between the flat and the arc's tangent through the fluid, atan2(4, 3) + 90° −
+    // 90°… computed exactly: the tangent (3, −4)/5 against (−1, 0) is 126.87°.
+    let k = &r["wall_shear_min_at_corner"];
+    let angle = k["interior_angle_deg"].as_f64().unwrap();
+    let want = 180.0 - (4.0f64).atan2(3.0).to_degrees();
+    assert!((angle - want).abs() < 1e-9, "{angle} {want}");
+    let p = k["position_m"].as_array().unwrap();
+    assert!((p[0].as_f64().unwrap().abs() - 4e-3).abs() < 1e-12);
+    assert!((p[1].as_f64().unwrap() - 3e-3).abs() < 1e-12);
+}
+
+#[test]
+fn issue_20_smooth_shapes_keep_their_maximum_and_order_two() {
+    let sb = Sandbox::new();
+    let r = sb.report(&["solve", "ellipse:a=6mm,b=3mm", "--cells", "160", "--json"]);
+    assert!(r["singular_corners"].as_array().unwrap().is_empty());
+    assert!(r.get("wall_shear_min_at_corner").is_none());
+    assert!(num(&r, "wall_shear_max_to_mean") > 1.0);
+    let u = &r["uncertainty"]["fanning_f_re"];
+    assert_eq!(u["order_used"].as_f64(), Some(2.0), "{u}");
+}
+
+/// A T of two overlapping rects (a bar 3 × 1 mm on a stem 1 × 2.5 mm): two re-entrant corners
+/// where the rects' edges meet.
+const T_SHAPE: &str = r#"
+name = "T"
+units = "mm"
+[[region]]
+kind = "rect"
+center = [1.5, 2.5]
+size = [3, 1]
+[[region]]
+kind = "rect"
+center = [1.5, 1.25]
+size = [1, 2.5]
+"#;
+
+/// References of our own (issue 20 asks for them): canalis's `--accuracy 1e-10` study with the
+/// corner treatment on grids of 400, 600, 900, 1350, 2025 and 3038 cells (the studies'
+/// placement), the finest value Richardson-extrapolated; beside each value the study's own
+/// relative uncertainty (GCI). Computed on 2026-12-05 with this branch; an independent method
+/// (a corner-graded finite-element solve) was not available here.
+/// Report key, reference value, its relative uncertainty.
+type Reference = (&'static str, f64, f64);
+
+const REFERENCES: [(&str, [Reference; 4]); 3] = [
+    (
+        "l",
+        [
+            ("fanning_f_re", 15.765_441_5, 9.5e-7),
+            ("max_to_mean_velocity", 2.093_824_6, 5.3e-7),
+            ("nusselt_h1", 4.084_454_4, 2.2e-6),
+            ("nusselt_t", 3.237_359_9, 1.4e-6),
+        ],
+    ),
+    (
+        "t",
+        [
+            ("fanning_f_re", 17.001_481_4, 6.2e-6),
+            ("max_to_mean_velocity", 2.248_305_4, 6.7e-7),
+            ("nusselt_h1", 4.362_822_5, 1.2e-6),
+            ("nusselt_t", 3.145_175_7, 8.2e-7),
+        ],
+    ),
+    (
+        "finned_tube",
+        [
+            ("fanning_f_re", 12.292_178_8, 4.4e-6),
+            ("max_to_mean_velocity", 2.407_624_0, 1.4e-6),
+            ("nusselt_h1", 2.604_894_4, 3.9e-7),
+            ("nusselt_t", 2.010_183_2, 6.6e-7),
+        ],
+    ),
+];
+
+#[test]
+fn issue_20_the_default_error_bars_cover_the_true_error_at_corners() {
+    // The cheap estimate (one coarser grid, order 2 where the corners are treated) against the
+    // references above, on grids where the error is far above the references' own
+    // uncertainty: the reported band must hold the error. Measured (relative error, reported):
+    // L at 200 cells f·Re 1.4e-5 / 2.0e-4, u_max/ū 1.3e-4 / 1.6e-4, Nu_H1 3.6e-5 / 6.9e-4,
+    // Nu_T 1.1e-5 / 2.8e-4; T at 200 cells 4.8e-5 / 4.9e-4, 1.5e-4 / 5.3e-4, 2.3e-4 / 1.1e-3,
+    // 1.2e-4 / 3.8e-4; finned tube at 300 cells 4.3e-4 / 2.4e-3, 6.5e-5 / 4.1e-4, 4.9e-4 /
+    // 2.5e-3, 3.6e-4 / 1.8e-3.
+    let sb = Sandbox::new();
+    let l = sb.write("l.toml", L_SHAPE);
+    let t = sb.write("t.toml", T_SHAPE);
+    let tube = common::shipped_path("finned_tube.toml");
+    for (key, path, cells) in [
+        ("l", &l, "200"),
+        ("t", &t, "200"),
+        ("finned_tube", &tube, "300"),
+    ] {
+        let r = sb.report(&["solve", path, "--cells", cells, "--json"]);
+        let refs = REFERENCES.iter().find(|(k, _)| *k == key).unwrap().1;
+        for (quantity, reference, reference_uncertainty) in refs {
+            let value = num(&r, quantity);
+            let error = (value - reference).abs();
+            let u = &r["uncertainty"][quantity];
+            let reported = u["absolute_uncertainty"].as_f64().unwrap();
+            // The reference's own band counts against the estimate.
+            let margin = reference_uncertainty * reference;
+            assert!(
+                error > 3.0 * margin,
+                "{key} {quantity}: the error {error:.2e} is too small to test against a \
+                 reference good to {reference_uncertainty:.0e}"
+            );
+            assert!(
+                reported >= error + margin,
+                "{key} {quantity}: {value} reported ± {reported:.2e}, reference {reference}, \
+                 error {error:.2e}: {u}"
+            );
+        }
+    }
+}
+
+#[test]
+fn issue_20_an_l_shape_converges_at_second_order_with_the_corner_treated() {
+    // f·Re and u_max/ū of the L against the references above, on two grids at the studies'
+    // placement, with and without the corner treatment. Measured (this session): treated, f·Re
+    // errors 2.3e-4 and 5.5e-5 (order 1.78), u_max/ū 8.1e-5 and 1.5e-5 (order 2.04) at 324 and
+    // 729 cells; untreated f·Re 4.4e-3 and 1.5e-3 (order 1.33 = 2π/α, as Fix, Gulati & Wakoff
+    // 1973 lead one to expect).
+    use canalis::geometry::{Primitive, Shape};
+    use canalis::grid::Grid;
+    use canalis::pipeline::{solve_unit, UnitOptions};
+    use canalis::post::WallKind;
+    let l = Shape::new(
+        vec![Primitive::Polygon {
+            points: vec![
+                [0.0, 0.0],
+                [2.0, 0.0],
+                [2.0, 1.0],
+                [1.0, 1.0],
+                [1.0, 2.0],
+                [0.0, 2.0],
+            ],
+        }],
+        vec![],
+    );
+    let refs = REFERENCES[0].1;
+    let (fre, umax) = (refs[0].1, refs[1].1);
+    let (lo, hi) = l.bbox();
+    let solve = |cells: usize, treat: bool| {
+        let grid = Grid::covering_placed(lo, hi, cells, canalis::study::STUDY_PLACEMENT);
+        let options = UnitOptions {
+            corner_treatment: treat,
+            heat: false,
+            ..UnitOptions::default()
+        };
+        let f = solve_unit(&l, grid, WallKind::Exact, &options)
+            .unwrap()
+            .figures;
+        (
+            (f.fanning_f_re - fre).abs(),
+            (f.max_to_mean_velocity - umax).abs(),
+        )
+    };
+    let ratio = (729.0f64 / 324.0).ln();
+    let (f1, u1) = solve(324, true);
+    let (f2, u2) = solve(729, true);
+    let (p_f, p_u) = ((f1 / f2).ln() / ratio, (u1 / u2).ln() / ratio);
+    println!(
+        "treated: f·Re {f1:.2e} {f2:.2e} (order {p_f:.2}), u_max {u1:.2e} {u2:.2e} ({p_u:.2})"
+    );
+    assert!(p_f >= 1.7 && p_u >= 1.8, "orders {p_f:.2}, {p_u:.2}");
+    assert!(f2 < 1e-4 && u2 < 3e-5, "errors {f2:.2e} {u2:.2e}");
+    let (g1, _) = solve(324, false);
+    let (g2, _) = solve(729, false);
+    println!("untreated: f·Re {g1:.2e} {g2:.2e}");
+    assert!(g2 > 10.0 * f2, "untreated {g2:.2e}, treated {f2:.2e}");
+}
