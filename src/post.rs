@@ -28,6 +28,10 @@ pub enum WallKind {
     Staircase,
 }
 
+/// Smallest exponent π/α − 1 of a convex corner whose zero wall shear is reported (α ≤ about
+/// 164°): (10⁻³)^0.1 = 0.5 (canalis's choice, see `figures`).
+pub const ZERO_SHEAR_EXPONENT: f64 = 0.1;
+
 /// Dimensionless results of the unit problem.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Figures {
@@ -861,10 +865,17 @@ pub fn figures(
         .map(|s| s.tau)
         .fold(f64::NEG_INFINITY, f64::max);
     let tmin = valid.iter().map(|s| s.tau).fold(f64::INFINITY, f64::min);
+    // A convex corner makes the wall shear vanish like r^(π/α − 1); one so near straight
+    // that the exponent is below ZERO_SHEAR_EXPONENT (α above about 164°, a drawing's
+    // flattened curve) keeps half its value even 10⁻³·D_h from the vertex, so its zero is
+    // not reported.
     let min_corner = corners
         .unwrap_or(&[])
         .iter()
-        .find(|k| k.angle < std::f64::consts::PI - SMOOTH_TOLERANCE)
+        .find(|k| {
+            k.angle < std::f64::consts::PI - SMOOTH_TOLERANCE
+                && std::f64::consts::PI / k.angle - 1.0 >= ZERO_SHEAR_EXPONENT
+        })
         .copied();
     let corner_order = corners.map(|ks| {
         ks.iter()
