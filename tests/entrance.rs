@@ -20,20 +20,7 @@ mod pipe_combined;
 
 use canalis::input::Input;
 use canalis::pipeline::{self, EntranceOptions, SolveConfig, ENTRANCE_CELLS};
-use common::{rel_err, Sandbox};
-
-/// A run with the thermal entrance at the default entrance grid, no error estimate.
-fn run_entrance(spec: &str) -> canalis::outcome::Outcome {
-    let mut config = SolveConfig::new(Input::Builtin(spec.into()));
-    config.error_estimate = pipeline::ErrorEstimate::Off;
-    config.entrance = Some(EntranceOptions {
-        cells: ENTRANCE_CELLS,
-    });
-    match pipeline::run(&config) {
-        Ok(o) => o,
-        Err(e) => panic!("{spec}: {e}"),
-    }
-}
+use common::{rel_err, run_entrance, Sandbox};
 
 /// Round tube against the exact Graetz series of tests/reference/graetz.rs (eigenvalues of
 /// Brown 1960 for T and of Siegel, Sparrow & Hallman 1958 for H, in Shah & London 1978;
@@ -41,7 +28,7 @@ fn run_entrance(spec: &str) -> canalis::outcome::Outcome {
 /// from x* = 1e-4 on and within 0.3 % from x* = 1e-3 on (issue 16), at the default grid.
 #[test]
 fn round_tube_matches_the_graetz_series() {
-    let o = run_entrance("circle:d=8mm");
+    let o = run_entrance("circle:d=8mm", None);
     let e = o.entrance.as_ref().expect("entrance results");
     let th = &e.thermal;
     let p = &th.passages[0];
@@ -336,7 +323,7 @@ fn accuracy_refines_the_entrance() {
 #[test]
 fn the_last_station_is_fully_developed() {
     for spec in ["circle:d=8mm", "rect:w=20mm,h=10mm", "ellipse:a=6mm,b=3mm"] {
-        let o = run_entrance(spec);
+        let o = run_entrance(spec, None);
         let e = o.entrance.as_ref().unwrap();
         let p = &e.thermal.passages[0];
         // The entrance grid is the run's own here when the run has at most 300 cells; solve

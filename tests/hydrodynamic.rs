@@ -12,22 +12,7 @@ mod pipe_developing;
 #[path = "reference/pipe_combined.rs"]
 mod pipe_combined;
 
-use canalis::input::Input;
-use canalis::pipeline::{self, EntranceOptions, SolveConfig, ENTRANCE_CELLS};
-use common::rel_err;
-
-/// A run with the entrance marches at the default entrance grid, no error estimate.
-fn run_entrance(spec: &str) -> canalis::outcome::Outcome {
-    let mut config = SolveConfig::new(Input::Builtin(spec.into()));
-    config.error_estimate = pipeline::ErrorEstimate::Off;
-    config.entrance = Some(EntranceOptions {
-        cells: ENTRANCE_CELLS,
-    });
-    match pipeline::run(&config) {
-        Ok(o) => o,
-        Err(e) => panic!("{spec}: {e}"),
-    }
-}
+use common::{rel_err, run_entrance};
 
 /// Shah's 1978 correlation of the apparent friction (quoted in Shah & London 1978, from
 /// memory; it fits the numerical solutions it was made from within ±2.4 %):
@@ -91,7 +76,7 @@ fn check_limits(h: &canalis::hydrodynamic::HydrodynamicEntrance) {
 /// L+ within 10 % of 0.056 (Shah & London 1978, from memory) — issue 17.
 #[test]
 fn round_tube_matches_the_radial_reference_and_shah() {
-    let o = run_entrance("circle:d=8mm");
+    let o = run_entrance("circle:d=8mm", None);
     let h = o
         .entrance
         .as_ref()
@@ -132,7 +117,7 @@ fn round_tube_matches_the_radial_reference_and_shah() {
 /// issue 17.
 #[test]
 fn square_duct_matches_shah() {
-    let o = run_entrance("square:side=8mm");
+    let o = run_entrance("square:side=8mm", None);
     let h = o
         .entrance
         .as_ref()
@@ -150,13 +135,7 @@ fn square_duct_matches_shah() {
 /// same grid, two independent marches.
 #[test]
 fn combined_entry_at_high_prandtl_is_the_thermal_entrance() {
-    let mut config = SolveConfig::new(Input::Builtin("circle:d=8mm".into()));
-    config.error_estimate = pipeline::ErrorEstimate::Off;
-    config.entrance = Some(EntranceOptions {
-        cells: ENTRANCE_CELLS,
-    });
-    config.prandtl = Some(1e4);
-    let o = pipeline::run(&config).unwrap();
+    let o = run_entrance("circle:d=8mm", Some(1e4));
     let e = o.entrance.as_ref().unwrap();
     let c = e
         .hydrodynamic
@@ -276,13 +255,7 @@ fn entrance_options_are_checked() {
 /// from x* = 1e-4 on (issue 17).
 #[test]
 fn combined_entry_of_the_round_tube_matches_the_radial_reference() {
-    let mut config = SolveConfig::new(Input::Builtin("circle:d=8mm".into()));
-    config.error_estimate = pipeline::ErrorEstimate::Off;
-    config.entrance = Some(EntranceOptions {
-        cells: ENTRANCE_CELLS,
-    });
-    config.prandtl = Some(0.7);
-    let o = pipeline::run(&config).unwrap();
+    let o = run_entrance("circle:d=8mm", Some(0.7));
     let e = o.entrance.as_ref().unwrap();
     let c = e
         .hydrodynamic

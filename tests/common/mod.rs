@@ -9,6 +9,8 @@
 //! * Shared data: [`shipped_path`], [`coverage`] (exact pixel coverage of a disc, for
 //!   anti-aliased masks), [`rel_err`].
 //! * [`Row`], [`Table`]: a convergence table with observed orders, printed by the tests.
+//! * The entrance marches: [`run_entrance`] (a built-in shape at the default entrance grid, no
+//!   error estimate, optionally with a Prandtl number for the combined entry).
 //!
 //! Each test binary compiles this module and uses a part of it, hence `allow(dead_code)`.
 #![allow(dead_code)]
@@ -313,5 +315,22 @@ impl Table {
             );
         }
         s
+    }
+}
+
+/// A run of the built-in shape `spec` with the entrance marches at the default entrance grid
+/// and no error estimate; with `prandtl` the combined entry too.
+pub fn run_entrance(spec: &str, prandtl: Option<f64>) -> canalis::outcome::Outcome {
+    use canalis::input::Input;
+    use canalis::pipeline::{self, EntranceOptions, SolveConfig, ENTRANCE_CELLS};
+    let mut config = SolveConfig::new(Input::Builtin(spec.into()));
+    config.error_estimate = pipeline::ErrorEstimate::Off;
+    config.entrance = Some(EntranceOptions {
+        cells: ENTRANCE_CELLS,
+    });
+    config.prandtl = prandtl;
+    match pipeline::run(&config) {
+        Ok(o) => o,
+        Err(e) => panic!("{spec}: {e}"),
     }
 }
