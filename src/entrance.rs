@@ -351,8 +351,9 @@ const SETTLED_FROM: f64 = 0.05;
 const RELAXED: f64 = 10.0;
 
 /// Largest factor by which the shift of a step may differ from the one the multigrid
-/// hierarchy was built for before it is rebuilt (see [`System::update_shift`]).
-const REFRESH: f64 = 3.0;
+/// hierarchy was built for before it is rebuilt (see [`System::update_shift`]); the
+/// developing-flow march (`hydrodynamic`) uses the same.
+pub(crate) const REFRESH: f64 = 3.0;
 
 /// Cells across the thinnest thermal layer from which the march's local values are taken;
 /// closer to the inlet the Lévêque asymptote stands for them (see [`Leveque`]).

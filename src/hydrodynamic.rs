@@ -79,7 +79,7 @@
 //!
 //! Invariant: knows the problem layer and the system, nothing of files, units or fluids.
 
-use crate::entrance::{Flow, Leveque, PassageEntrance, ThermalEntrance};
+use crate::entrance::{Flow, Leveque, PassageEntrance, ThermalEntrance, REFRESH};
 use crate::error::{Error, Result, Solve};
 use crate::grid::{Classified, Dir};
 use crate::post;
@@ -118,9 +118,6 @@ const PASSES: usize = 2;
 /// mass constraint removes the first) decays about six times faster than the thermal one
 /// (round tube: Graetz rates 89 against 14.6).
 const STEP_CAP_FACTOR: f64 = 6.0;
-
-/// Largest factor by which the shift may change before the hierarchy is rebuilt.
-const REFRESH: f64 = 3.0;
 
 /// Control of the march.
 #[derive(Debug, Clone, Copy, PartialEq)]
