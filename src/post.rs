@@ -766,7 +766,10 @@ pub fn figures(
     let area = walls.area;
     let perimeter = walls.perimeter;
     let dh = 4.0 * area / perimeter;
-    let flow = flow_integral(c, num, u, area);
+    let flow = match enrichment {
+        Some(e) => e.flow_integral(c, num, u, area),
+        _ => flow_integral(c, num, u, area),
+    };
     let umax = max_velocity(c, num, u);
     let h = c.grid.h;
     let tau_mean_exact = area / perimeter;
@@ -804,6 +807,10 @@ pub fn figures(
         for (s, &a) in e.corners.iter().zip(&e.a) {
             let l = s.lambda;
             exact_flux += a * s.wall_flux();
+            // Higher harmonics are part of the treatment, not corners of their own.
+            if s.harmonic != 1 {
+                continue;
+            }
             singular_corners.push(SingularCorner {
                 position: s.corner.position,
                 angle: s.corner.angle,

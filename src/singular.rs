@@ -2,26 +2,29 @@
 //! cut-off, and the coefficient of the leading singular term extracted from a discrete
 //! solution.
 //!
-//! Owns: [`Singular`] (a corner of the walls with its exponent), the cut-off χ, the singular
-//! function S = r^λ·sin(λθ) and its dual s⁻ = r^(−λ)·sin(λθ), and [`coefficient`], the
-//! coefficient a of u ≈ a·S near the corner.
+//! Owns: [`Singular`] (one singular function of a corner of the walls: harmonic and exponent),
+//! the cut-off χ, the singular function S = r^λ·sin(λθ) and its dual s⁻ = r^(−λ)·sin(λθ),
+//! [`coefficient`], the coefficient a of u ≈ a·S near the corner, and [`Enrichment`], the
+//! enriched solution's parts (values, sources, gradient, exact integrals).
 //!
 //! # The mathematics
 //! At a corner of interior angle α with u = 0 on both (straight) walls, the solution of
-//! −∇²u = f is u = a·r^λ·sin(λθ) + (terms in r^(2λ), r²) with λ = π/α, θ measured in the
+//! −∇²u = f is u = a·r^λ·sin(λθ) + a₂·r^(2λ)·sin(2λθ) + (terms in r², r^(3λ), …) with
+//! λ = π/α, θ measured in the
 //! fluid from one wall (Motz 1946; Fix, Gulati & Wakoff 1973). For a re-entrant corner
 //! (α > π, λ < 1) the wall shear ∂u/∂n = a·λ·r^(λ−1) is unbounded. The coefficient follows from
 //! Green's second identity with the dual function v = χ·s⁻, which is harmonic where χ = 1 and
 //! vanishes on both walls (the "dual singular function" extraction, Blum & Dobrowolski 1982,
 //! from memory): over the fluid less a small disc about the corner, whose boundary term tends
-//! to a·λ·α = a·π,
+//! to a·λ·α = a·π (for the k-th harmonic, exponent kλ: a_k·kπ; the harmonics are orthogonal
+//! on (0, α), so each is extracted alone),
 //!
 //! ```text
 //!     a = (1/π)·( ∫ u·∆(χs⁻) dA + ∫ χ·s⁻·f dA ),
 //!     ∆(χs⁻) = sin(λθ)·r^(−λ)·( χ″ + (1 − 2λ)·χ′/r ),
 //! ```
 //!
-//! with χ(r) = 1 for r ≤ r₀, 0 for r ≥ r₁ and a quintic (C²) blend between. The first integral
+//! with χ(r) = 1 for r ≤ r₀, 0 for r ≥ r₁ and a degree-9 (C⁴) blend between ([`cutoff`]). The first integral
 //! only sees u in the annulus r₀ < r < r₁, away from the corner, where the discrete solution is
 //! smooth: the node sum with the cut-cell quadrature weights is second order there. The second
 //! is exact for f = 1 over the sector (a 1-D integral in r, Gauss–Legendre). Both need the
@@ -30,16 +33,19 @@
 //! and the extraction is off by about λ²·r₁/(π·ρ) (ρ the wall's radius of curvature), which
 //! is the reason the wall-shear coefficient of such a corner is only indicative.
 //!
-//! # Measured (2026-12-05)
-//! References: canalis's own `--accuracy` studies with the treatment, 400–3038 cells,
-//! extrapolated (tests/corners.rs lists them with their uncertainty). At the default 600 cells
-//! the relative errors of f·Re, u_max/ū, Nu_H1, Nu_T are 1.1e-6, 1.4e-5, 5.1e-6, 2.6e-7 on an
-//! L-shape (three 1 mm squares); 3.1e-6, 7.5e-6, 1.2e-5, 2.9e-6 on a T of two rects;
-//! 1.3e-4, 1.7e-5, 1.0e-4, 8.6e-5 on shapes/finned_tube.toml (fins 1 mm thick in a 16 mm
-//! bore: r₁ = 0.8 mm is 30 cells, and its error constant stays large); before the treatment
-//! the L's f·Re was 6e-5 off at 600 cells, the finned tube's 1.9e-4. On the L at the studies'
-//! placement the treated f·Re converges at order 1.7–2.5 (216–1641 cells), u_max/ū at 2.0, the
-//! corner coefficient C at 2; untreated at 1.33 = 2π/α.
+//! # Measured (2026-12-05, ninth session)
+//! References: canalis with the treatment at 1697, 2400 and 3394 cells, extrapolated
+//! (tests/corners.rs lists them with their bands). At the default 600 cells the relative
+//! errors of f·Re, Nu_H1, Nu_T are 1.9e-6, 6.6e-7, 1.6e-7 on an L-shape (three 1 mm squares);
+//! 2.6e-6, 3.0e-6, 6.6e-6 on a T of two rects; 4.3e-6, 1.6e-6, 6.8e-6 on a 2 × 1 mm rectangle
+//! with one 0.1 mm fin; 3.9e-6, 1.3e-5, 9.8e-6 on shapes/finned_tube.toml. Orders between 300
+//! and 600 cells: 1.97–3.9, but 1.80 and 1.72 for the finned tube's Nu_H1 and Nu_T. The
+//! first version (C² cut-off, leading term only) left the finned tube at 1.3e-4, 1.0e-4,
+//! 8.6e-5, with errors changing sign from grid to grid; the C⁴ cut-off ([`cutoff`]) removed
+//! that, the bulk mean of `heat::nusselt_h1` took Nu_H1 from 2.1e-5 to 1.3e-5, and the second
+//! harmonic ([`Singular::harmonics`]) halved f·Re's error (7.6e-6 to 3.9e-6) and moved the
+//! Nu by under 2e-6. Before any treatment the L's f·Re was 6e-5 off at
+//! 600 cells, the finned tube's 1.9e-4; untreated corners converge at order 2π/α (1.33).
 //!
 //! Invariant: knows the grid and its quadrature weights, nothing of solvers or reports.
 
@@ -60,8 +66,20 @@ const GAUSS8: [(f64, f64); 8] = [
     (0.960_289_856_497_536_3, 0.101_228_536_290_376_26),
 ];
 
-/// The cut-off χ(r) and its first two derivatives: 1 up to r₀, 0 from r₁, the quintic
-/// 1 − (10s³ − 15s⁴ + 6s⁵), s = (r − r₀)/(r₁ − r₀), between (C² at both ends).
+/// The cut-off χ(r) and its first two derivatives: 1 up to r₀, 0 from r₁, and between them
+/// 1 − P(s), s = (r − r₀)/(r₁ − r₀), with P the degree-9 polynomial
+/// 126s⁵ − 420s⁶ + 540s⁷ − 315s⁸ + 70s⁹, P′ = 630·s⁴(1 − s)⁴: C⁴ at both ends.
+///
+/// Why C⁴: the smooth part w carries −a·χS's share of the scheme's truncation error,
+/// (h²/12)·(∂⁴ₓ + ∂⁴ᵧ)(χS), and a jump in χ‴ (the quintic C² blend used first) makes that
+/// O(h) at the nodes next to r₀ and r₁, an error of order h² whose constant changes sign with
+/// where the circles r₀, r₁ fall between nodes. Measured on a 16 mm square with one fin
+/// 1 × 3 mm (two 270° tips, r₁ = 0.8 mm), f·Re relative errors at 300, 424, 600, 848, 1200
+/// cells against a 2400-cell solve with C⁴: C² −9.7e-5, 7.6e-5, 3.4e-5, −1.1e-5, 3e-7; C³
+/// −5.1e-5, 2.9e-6, 9.6e-7, 7.2e-7, 6e-7; C⁴ 1.0e-5, 1.6e-6, 1.5e-6, 9.4e-7, 4.1e-7. C⁴ is
+/// kept for the heat-transfer figures: on shapes/finned_tube.toml at 600 cells Nu_H1 and Nu_T
+/// are 2.6e-5 and 1.5e-5 off with C³, 2.1e-5 and 9.6e-6 with C⁴. The velocity error of the
+/// C² blend peaked on the circle r = r₁ (6.8e-4 of ū at 600 cells, 2e-5 elsewhere).
 pub fn cutoff(r: f64, r0: f64, r1: f64) -> (f64, f64, f64) {
     if r <= r0 {
         return (1.0, 0.0, 0.0);
@@ -71,17 +89,24 @@ pub fn cutoff(r: f64, r0: f64, r1: f64) -> (f64, f64, f64) {
     }
     let w = r1 - r0;
     let s = (r - r0) / w;
-    let s2 = s * s;
-    let v = 1.0 - s2 * s * (10.0 - 15.0 * s + 6.0 * s2);
-    let d1 = -30.0 * s2 * (1.0 - s) * (1.0 - s) / w;
-    let d2 = -60.0 * s * (1.0 - s) * (1.0 - 2.0 * s) / (w * w);
+    let st = s * (1.0 - s);
+    let p = s.powi(5) * (126.0 - 420.0 * s + 540.0 * s * s - 315.0 * s.powi(3) + 70.0 * s.powi(4));
+    let d1 = 630.0 * st.powi(4);
+    let d2 = 2520.0 * st.powi(3) * (1.0 - 2.0 * s);
+    let (v, d1, d2) = (1.0 - p, -d1 / w, -d2 / (w * w));
     (v, d1, d2)
 }
 
-/// A re-entrant corner with what the extraction needs: exponent λ = π/α and the cut-off radii.
+/// One singular function of a re-entrant corner with what the extraction needs: the
+/// harmonic k, its exponent λ = k·π/α and the cut-off radii. k = 1 is the corner's leading
+/// term, the one reported; higher harmonics are enriched where their exponent is below 2 and
+/// not an integer ([`Singular::harmonics`]).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Singular {
     pub corner: Corner,
+    /// k of r^(kπ/α)·sin(kπθ/α).
+    pub harmonic: u32,
+    /// The exponent k·π/α.
     pub lambda: f64,
     /// The cut-off χ is 1 within r₀ and 0 beyond r₁ (r₁ below the clear radius).
     pub r0: f64,
@@ -101,23 +126,59 @@ const CUTOFF_SHARE: f64 = 0.8;
 /// on and made the coarser grids worse: not used.
 const INNER_SHARE: f64 = 0.1;
 
+/// Harmonics of a corner are enriched up to this exponent ([`Singular::harmonics`]): an r^μ
+/// term with μ ≥ 2 costs the scheme no more than its own O(h²).
+pub const MAX_ENRICHED_EXPONENT: f64 = 2.0;
+
 impl Singular {
     /// The corner with its cut-off radii: r₁ = 0.8 of the clear radius, at most `max_radius`
     /// (a length of the passage, so that a corner far from every other wall does not reach across
     /// the section), r₀ = r₁/10 ([`INNER_SHARE`]).
     pub fn new(corner: Corner, max_radius: f64) -> Singular {
+        Singular::harmonic(corner, max_radius, 1)
+    }
+
+    /// The k-th singular function of `corner` (exponent k·π/α), cut off as [`Singular::new`].
+    pub fn harmonic(corner: Corner, max_radius: f64, k: u32) -> Singular {
         let r1 = (CUTOFF_SHARE * corner.clear_radius).min(max_radius);
         let r0 = INNER_SHARE * r1;
         Singular {
             corner,
-            lambda: corner.lambda(),
+            harmonic: k,
+            lambda: k as f64 * corner.lambda(),
             r0,
             r1,
         }
     }
 
-    /// ∫ χ·s⁻ dA over the corner's sector: (2/λ)·∫₀^r₁ χ(r)·r^(1−λ) dr, since
-    /// ∫₀^α sin(λθ) dθ = 2/λ.
+    /// The singular functions enriched at a re-entrant corner: k = 1 and every higher harmonic
+    /// whose exponent k·π/α is below [`MAX_ENRICHED_EXPONENT`] and not an integer (an integer
+    /// exponent gives a polynomial, smooth on the grid). Each r^μ term left in the smooth part
+    /// costs the cut-cell scheme an error of order h^(2μ) with a constant that changes sign
+    /// with the corner's place in the cell: measured on shapes/finned_tube.toml (270° fin
+    /// tips, k = 1 only) f·Re errors of −8.3e-4, 3.2e-4, 1.4e-4, −4.2e-5, 1.4e-5 at 300, 424,
+    /// 600, 848, 1200 cells, the order 8/3 of the r^(4/3) harmonic.
+    pub fn harmonics(corner: Corner, max_radius: f64) -> Vec<Singular> {
+        let l = corner.lambda();
+        (1..)
+            .map(|k| (k, k as f64 * l))
+            .take_while(|&(k, mu)| k == 1 || mu < MAX_ENRICHED_EXPONENT)
+            .filter(|&(k, mu)| k == 1 || (mu - mu.round()).abs() > 1e-6)
+            .map(|(k, _)| Singular::harmonic(corner, max_radius, k))
+            .collect()
+    }
+
+    /// ∫₀^α sin(λθ) dθ = (1 − cos kπ)/λ: 2/λ for odd k, 0 for even.
+    fn angular_integral(&self) -> f64 {
+        (1.0 - (self.harmonic as f64 * std::f64::consts::PI).cos()) / self.lambda
+    }
+
+    /// The boundary term of the extraction, λ·α = k·π (module notes).
+    fn extraction_scale(&self) -> f64 {
+        self.harmonic as f64 * std::f64::consts::PI
+    }
+
+    /// ∫ χ·s⁻ dA over the corner's sector: ∫₀^α sin(λθ) dθ·∫₀^r₁ χ(r)·r^(1−λ) dr.
     pub fn dual_source_integral(&self) -> f64 {
         let l = self.lambda;
         let inner = self.r0.powf(2.0 - l) / (2.0 - l);
@@ -128,11 +189,26 @@ impl Singular {
             outer += w * cutoff(r, a, b).0 * r.powf(1.0 - l);
         }
         outer *= 0.5 * (b - a);
-        2.0 / l * (inner + outer)
+        self.angular_integral() * (inner + outer)
     }
 
-    /// ∫ ∂(χ·S)/∂n_in ds over both walls: 2·∫₀^r₁ χ(r)·λ·r^(λ−1) dr (the wall shear of the
-    /// singular part, exactly; on each wall ∂S/∂n_in = λ·r^(λ−1)).
+    /// ∫ χ·S dA over the corner's sector: ∫₀^α sin(λθ) dθ·∫₀^r₁ χ(r)·r^(λ+1) dr, exactly
+    /// (the inner disc in closed form, the blend by Gauss–Legendre).
+    pub fn integral(&self) -> f64 {
+        let l = self.lambda;
+        let (a, b) = (self.r0, self.r1);
+        let inner = a.powf(2.0 + l) / (2.0 + l);
+        let mut outer = 0.0;
+        for &(x, w) in &GAUSS8 {
+            let r = 0.5 * (a + b) + 0.5 * (b - a) * x;
+            outer += w * cutoff(r, a, b).0 * r.powf(1.0 + l);
+        }
+        self.angular_integral() * (inner + 0.5 * (b - a) * outer)
+    }
+
+    /// ∫ ∂(χ·S)/∂n_in ds over both walls: (1 − cos kπ)·∫₀^r₁ χ(r)·λ·r^(λ−1) dr (the wall shear
+    /// of the singular part, exactly; ∂S/∂n_in = λ·r^(λ−1) on the wall θ = 0 and
+    /// −cos(kπ)·λ·r^(λ−1) on θ = α).
     pub fn wall_flux(&self) -> f64 {
         let l = self.lambda;
         let (a, b) = (self.r0, self.r1);
@@ -141,7 +217,8 @@ impl Singular {
             let r = 0.5 * (a + b) + 0.5 * (b - a) * x;
             outer += w * cutoff(r, a, b).0 * l * r.powf(l - 1.0);
         }
-        2.0 * (a.powf(l) + 0.5 * (b - a) * outer)
+        (1.0 - (self.harmonic as f64 * std::f64::consts::PI).cos())
+            * (a.powf(l) + 0.5 * (b - a) * outer)
     }
 
     /// ∆(χ·s⁻) at `p` (zero outside the annulus r₀ < r < r₁ and outside the sector).
@@ -223,14 +300,15 @@ pub struct Enrichment {
 }
 
 impl Enrichment {
-    /// The corners of `corners` that are treated on a grid of spacing `h` (D_h `dh`):
-    /// re-entrant, both walls straight (S vanishes on them), and a cut-off of at least
-    /// [`MIN_CUTOFF_CELLS`] spacings. Others keep the plain scheme (and its reduced order).
+    /// The singular functions ([`Singular::harmonics`]) of the corners of `corners` that are
+    /// treated on a grid of spacing `h` (D_h `dh`): re-entrant, both walls straight (S
+    /// vanishes on them), and a cut-off of at least [`MIN_CUTOFF_CELLS`] spacings. Others keep
+    /// the plain scheme (and its reduced order).
     pub fn treatable(corners: &[Corner], h: f64, dh: f64) -> Vec<Singular> {
         corners
             .iter()
             .filter(|k| k.is_reentrant() && k.straight)
-            .map(|k| Singular::new(*k, dh))
+            .flat_map(|k| Singular::harmonics(*k, dh))
             .filter(|s| s.r1 >= MIN_CUTOFF_CELLS * h)
             .collect()
     }
@@ -238,6 +316,30 @@ impl Enrichment {
     /// Σ_c a_c·χ_c·S_c at every unknown.
     pub fn values(&self, c: &Classified, num: &Numbering) -> Vec<f64> {
         self.sum_at(c, num, |s, p| s.function(p))
+    }
+
+    /// ∫u dA of the enriched solution u = Σ a·χ·S + w: the singular parts integrated exactly
+    /// ([`Singular::integral`]), w by the cut-cell rule of [`crate::post::flow_integral`] with
+    /// its h²/24·∫(−∇²w) dA term, ∫(−∇²w) dA = A − Σ a·[`Singular::wall_flux`] (the
+    /// divergence theorem on ∆(χS)). The rule's own error on r^λ near the corner is of order
+    /// h^(2+λ) with a constant that changes with the corner's place in its cell; w is free of it.
+    pub fn flow_integral(&self, c: &Classified, num: &Numbering, u: &[f64], area: f64) -> f64 {
+        let part = self.values(c, num);
+        let w: Vec<f64> = u.iter().zip(&part).map(|(u, s)| u - s).collect();
+        let h2 = c.grid.h * c.grid.h;
+        let flux: f64 = self
+            .corners
+            .iter()
+            .zip(&self.a)
+            .map(|(s, a)| a * s.wall_flux())
+            .sum();
+        let singular: f64 = self
+            .corners
+            .iter()
+            .zip(&self.a)
+            .map(|(s, a)| a * s.integral())
+            .sum();
+        crate::post::flow_integral(c, num, &w, area) - h2 * flux / 24.0 + singular
     }
 
     /// Σ_c a_c·∆(χ_c·S_c) at every unknown.
@@ -353,7 +455,7 @@ pub fn coefficient_with_source(
             sum += weights[q] * (u[q] * s.dual_laplacian(x) + dual * source[q]);
         }
     }
-    sum / std::f64::consts::PI
+    sum / s.extraction_scale()
 }
 
 /// The coefficient a of u ≈ a·r^λ·sin(λθ) at `s`, from the discrete solution `u` of
@@ -384,7 +486,7 @@ pub fn coefficient(
             sum += weights[q] * u[q] * s.dual_laplacian(g.node(i as usize, j as usize));
         }
     }
-    (sum + s.dual_source_integral()) / std::f64::consts::PI
+    (sum + s.dual_source_integral()) / s.extraction_scale()
 }
 
 #[cfg(test)]
@@ -428,5 +530,82 @@ mod tests {
         }
         sum *= s.r1 / n as f64 * 2.0 / l;
         assert!((sum - s.dual_source_integral()).abs() < 1e-6 * sum, "{sum}");
+    }
+
+    fn corner(angle: f64) -> Corner {
+        Corner {
+            position: [0.3, -0.2],
+            angle,
+            start: 0.4,
+            straight: true,
+            clear_radius: 1.0,
+        }
+    }
+
+    #[test]
+    fn the_harmonics_are_the_non_integer_exponents_below_two() {
+        let pi = std::f64::consts::PI;
+        let exps = |a: f64| -> Vec<(u32, f64)> {
+            Singular::harmonics(corner(a), 10.0)
+                .iter()
+                .map(|s| (s.harmonic, s.lambda))
+                .collect()
+        };
+        // 270°: 2/3 and 4/3 (2 is a polynomial). Slit: 1/2 and 3/2 (1 is a polynomial).
+        let e = exps(1.5 * pi);
+        assert_eq!(e.len(), 2);
+        assert!((e[0].1 - 2.0 / 3.0).abs() < 1e-12 && (e[1].1 - 4.0 / 3.0).abs() < 1e-12);
+        let e = exps(2.0 * pi);
+        assert_eq!(e.iter().map(|x| x.0).collect::<Vec<_>>(), vec![1, 3]);
+        // 200°: 0.9 and 1.8.
+        assert_eq!(exps(200f64.to_radians()).len(), 2);
+    }
+
+    #[test]
+    fn each_harmonic_is_harmonic_vanishes_on_its_walls_and_integrates_exactly() {
+        let c = corner(1.5 * std::f64::consts::PI);
+        for s in Singular::harmonics(c, 10.0) {
+            let at = |r: f64, t: f64| {
+                let phi = t + c.start;
+                [c.position[0] + r * phi.cos(), c.position[1] + r * phi.sin()]
+            };
+            // Zero on both walls, harmonic inside r₀ (five-point Laplacian, step 1e-4).
+            for r in [0.05, 0.3, 0.7] {
+                assert!(s.function(at(r, 0.0)).abs() < 1e-12);
+                assert!(s.function(at(r, c.angle)).abs() < 1e-12);
+            }
+            let p = at(0.5 * s.r0, 1.0);
+            let e = 1e-4;
+            let lap = (s.function([p[0] + e, p[1]])
+                + s.function([p[0] - e, p[1]])
+                + s.function([p[0], p[1] + e])
+                + s.function([p[0], p[1] - e])
+                - 4.0 * s.function(p))
+                / (e * e);
+            assert!(lap.abs() < 1e-4, "k = {}: {lap}", s.harmonic);
+            // ∫χS dA and ∫∆(χS) dA = −(wall flux) against a polar midpoint rule.
+            let (nr, nt) = (4000, 600);
+            let (mut int, mut lap_int) = (0.0, 0.0);
+            for i in 0..nr {
+                let r = (i as f64 + 0.5) / nr as f64 * s.r1;
+                for j in 0..nt {
+                    let t = (j as f64 + 0.5) / nt as f64 * c.angle;
+                    let da = r * (s.r1 / nr as f64) * (c.angle / nt as f64);
+                    int += s.function(at(r, t)) * da;
+                    lap_int += s.laplacian(at(r, t)) * da;
+                }
+            }
+            assert!(
+                (int - s.integral()).abs() < 1e-5 * s.r1.powi(2),
+                "k = {}: {int}",
+                s.harmonic
+            );
+            assert!(
+                (lap_int + s.wall_flux()).abs() < 1e-4,
+                "k = {}: {lap_int} {}",
+                s.harmonic,
+                s.wall_flux()
+            );
+        }
     }
 }
