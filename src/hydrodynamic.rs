@@ -612,6 +612,10 @@ pub fn hydrodynamic_entrance(
     let mut u_old = inlet;
     let mut phi_now = vec![0.0; n];
     let (mut x_now, mut x_old) = (0.0f64, 0.0f64);
+    // U_a and U_b start each solve from their values at the last point (or the last pass):
+    // both change smoothly along X. (Starting U_a from U, as first written, cost a fifth more
+    // iterations: on shapes/mould_slot.toml with Pr 4.3, 4712 against 3766 iterations, and
+    // 208 against 164 steps, as the settle test then met the solves' own noise later.)
     let mut ua = vec![0.0; n];
     let mut ub = vec![0.0; n];
     let mut g_now = vec![0.0; np];
@@ -679,9 +683,6 @@ pub fn hydrodynamic_entrance(
                     f[q] = u_star[q] * hist / (delta * d2[pass[q]]);
                 }
                 let rhs: Vec<f64> = f.iter().map(|v| v * h2).collect();
-                if pass_i == 0 {
-                    ua.copy_from_slice(&u_now);
-                }
                 let its = system
                     .solve_perturbed(&conv, &rhs, &mut ua, &cg)
                     .map_err(|e| e.in_solve(Solve::DevelopingFlow))?

@@ -621,7 +621,22 @@ pub fn run(config: &SolveConfig) -> Result<Outcome> {
 }
 
 /// [`run`] reporting the solver's iterations to `monitor`.
+///
+/// The whole run goes onto a worker of rayon's pool, as each unit solve does
+/// ([`solve_unit_monitored`]): the entrance marches start thousands of small solves (28 000
+/// unknowns on the mould slot's entrance grid), and from the caller's own thread every
+/// parallel loop in them was a hand-over to the pool and back. Measured on one thread
+/// (`RAYON_NUM_THREADS=1`), `--entrance` on shapes/mould_slot.toml: half the cycles were the
+/// kernel's scheduler (perf).
 pub fn run_monitored(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outcome> {
+    if rayon::current_thread_index().is_some() {
+        run_on_worker(config, monitor)
+    } else {
+        rayon::scope(|_| run_on_worker(config, monitor))
+    }
+}
+
+fn run_on_worker(config: &SolveConfig, monitor: &dyn Monitor) -> Result<Outcome> {
     let start = Instant::now();
     config.validate()?;
     // A mask is decoded within the run's memory limit too (`MaskOptions::memory_limit`).
