@@ -393,6 +393,16 @@ impl Leveque {
 }
 
 /// The Lévêque limit of every passage (in the passages' order) from the wall shear.
+/// Σ f(q) over the unknowns q of each passage (`pass[q]` the passage of unknown q, `np`
+/// passages), in unknown order.
+pub(crate) fn sum_by(pass: &[usize], np: usize, f: impl Fn(usize) -> f64) -> Vec<f64> {
+    let mut s = vec![0.0; np];
+    for (q, &p) in pass.iter().enumerate() {
+        s[p] += f(q);
+    }
+    s
+}
+
 fn leveque(flow: &Flow, labels: &[u32], order: &[usize]) -> Vec<Leveque> {
     let np = flow.passages.len();
     let mut sum = vec![0.0; np];
@@ -469,13 +479,6 @@ pub fn thermal_entrance(
         .map(|(a, b)| a * b)
         .collect();
     // Σ over each passage's unknowns of f(q) (generic, so the closure is inlined).
-    fn sum_by<F: Fn(usize) -> f64>(pass: &[usize], np: usize, f: F) -> Vec<f64> {
-        let mut s = vec![0.0; np];
-        for (q, &p) in pass.iter().enumerate() {
-            s[p] += f(q);
-        }
-        s
-    }
     // Cut links per unknown (the discrete wall flux of the T field).
     let cut_weight: Vec<f64> = num
         .nodes()

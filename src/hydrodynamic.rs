@@ -534,13 +534,7 @@ pub fn hydrodynamic_entrance(
     // The fully developed profile w = ũ·A/∫ũ and the mass of each passage.
     let scale: Vec<f64> = passages.iter().map(|p| p.area / p.flow_integral).collect();
     let w: Vec<f64> = (0..n).map(|q| u[q] * scale[pass[q]]).collect();
-    let sum_by = |f: &dyn Fn(usize) -> f64| -> Vec<f64> {
-        let mut s = vec![0.0; np];
-        for (q, &p) in pass.iter().enumerate() {
-            s[p] += f(q);
-        }
-        s
-    };
+    let sum_by = |f: &dyn Fn(usize) -> f64| crate::entrance::sum_by(&pass, np, f);
     let mass = sum_by(&|q| w[q]);
     let nodes = sum_by(&|_| 1.0);
     let g_fd: Vec<f64> = (0..np).map(|p| d2[p] * scale[p]).collect();

@@ -327,19 +327,18 @@ impl Enrichment {
         let part = self.values(c, num);
         let w: Vec<f64> = u.iter().zip(&part).map(|(u, s)| u - s).collect();
         let h2 = c.grid.h * c.grid.h;
-        let flux: f64 = self
-            .corners
+        let flux = self.weighted(Singular::wall_flux);
+        crate::post::flow_integral(c, num, &w, area) - h2 * flux / 24.0
+            + self.weighted(Singular::integral)
+    }
+
+    /// Σ_c a_c·g(corner c).
+    fn weighted(&self, g: impl Fn(&Singular) -> f64) -> f64 {
+        self.corners
             .iter()
             .zip(&self.a)
-            .map(|(s, a)| a * s.wall_flux())
-            .sum();
-        let singular: f64 = self
-            .corners
-            .iter()
-            .zip(&self.a)
-            .map(|(s, a)| a * s.integral())
-            .sum();
-        crate::post::flow_integral(c, num, &w, area) - h2 * flux / 24.0 + singular
+            .map(|(s, a)| a * g(s))
+            .sum()
     }
 
     /// Σ_c a_c·∆(χ_c·S_c) at every unknown.
@@ -349,12 +348,7 @@ impl Enrichment {
 
     /// 1 + Σ_c a_c·∆(χ_c·S_c) at `p`: the source of the smooth part w of the flow.
     pub fn flow_source_at(&self, p: Point) -> f64 {
-        1.0 + self
-            .corners
-            .iter()
-            .zip(&self.a)
-            .map(|(s, a)| a * s.laplacian(p))
-            .sum::<f64>()
+        1.0 + self.weighted(|s| s.laplacian(p))
     }
 
     /// Σ_c a_c·∇(χ_c·S_c) at `p`.

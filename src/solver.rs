@@ -166,6 +166,47 @@ pub struct CgInfo {
     pub round_off_limited: bool,
 }
 
+impl CgInfo {
+    /// The solve of b = 0: x = 0 at once.
+    const ZERO: CgInfo = CgInfo {
+        iterations: 0,
+        relative_residual: 0.0,
+        round_off_limited: false,
+    };
+}
+
+/// The error of a solve of `method` that stopped for `stall` after `iterations` at
+/// `relative_residual`, asked for `tolerance` (the solve's name is added by the caller).
+fn not_converged(
+    method: &str,
+    stall: Stall,
+    iterations: usize,
+    relative_residual: f64,
+    tolerance: f64,
+) -> Error {
+    Error::NotConverged {
+        solve: None,
+        method: method.to_string(),
+        stall,
+        iterations,
+        relative_residual,
+        tolerance,
+    }
+}
+
+/// ‖b‖ for a Krylov solve of dimension `n`, or None when b = 0, with x set to the exact answer
+/// 0 (no iteration needed).
+fn rhs_norm(n: usize, b: &[f64], x: &mut [f64]) -> Option<f64> {
+    assert_eq!(b.len(), n);
+    assert_eq!(x.len(), n);
+    let norm = dot(b, b).sqrt();
+    if norm == 0.0 {
+        x.iter_mut().for_each(|v| *v = 0.0);
+        return None;
+    }
+    Some(norm)
+}
+
 /// Block length of the parallel vector operations. Reductions sum each block in order and then
 /// the block sums in order, so the result does not depend on the number of threads: the same
 /// numbers on every run and with `RAYON_NUM_THREADS=1`.
@@ -284,17 +325,9 @@ pub fn pcg_in(
     monitor: &dyn Monitor,
 ) -> Result<CgInfo> {
     let n = op.dim();
-    assert_eq!(b.len(), n);
-    assert_eq!(x.len(), n);
-    let b_norm = dot(b, b).sqrt();
-    if b_norm == 0.0 {
-        x.iter_mut().for_each(|v| *v = 0.0);
-        return Ok(CgInfo {
-            iterations: 0,
-            relative_residual: 0.0,
-            round_off_limited: false,
-        });
-    }
+    let Some(b_norm) = rhs_norm(n, b, x) else {
+        return Ok(CgInfo::ZERO);
+    };
     let target = params.tolerance * b_norm;
     // Every entry is written before it is read (r by the residual, p by the preconditioner,
     // q by the operator or the preconditioner), so old contents do not matter.
@@ -315,26 +348,24 @@ pub fn pcg_in(
         loop {
             if it >= params.max_iterations {
                 let rel = true_residual(op, b, x, r) / b_norm;
-                return Err(Error::NotConverged {
-                    solve: None,
-                    method: method.to_string(),
-                    stall: Stall::IterationLimit,
-                    iterations: it,
-                    relative_residual: rel,
-                    tolerance: params.tolerance,
-                });
+                return Err(not_converged(
+                    method,
+                    Stall::IterationLimit,
+                    it,
+                    rel,
+                    params.tolerance,
+                ));
             }
             let pq = op.apply_dot(p, q);
             if pq <= 0.0 || !pq.is_finite() {
                 let rel = true_residual(op, b, x, r) / b_norm;
-                return Err(Error::NotConverged {
-                    solve: None,
-                    method: method.to_string(),
-                    stall: Stall::Breakdown,
-                    iterations: it,
-                    relative_residual: rel,
-                    tolerance: params.tolerance,
-                });
+                return Err(not_converged(
+                    method,
+                    Stall::Breakdown,
+                    it,
+                    rel,
+                    params.tolerance,
+                ));
             }
             let alpha = rz / pq;
             // x += α·p is deferred to the pass that updates p (one pass over p fewer); x is
@@ -370,14 +401,13 @@ pub fn pcg_in(
             }
             restarts += 1;
             if restarts > 5 {
-                return Err(Error::NotConverged {
-                    solve: None,
-                    method: method.to_string(),
-                    stall: Stall::Stagnation,
-                    iterations: it,
-                    relative_residual: r_norm / b_norm,
-                    tolerance: params.tolerance,
-                });
+                return Err(not_converged(
+                    method,
+                    Stall::Stagnation,
+                    it,
+                    r_norm / b_norm,
+                    params.tolerance,
+                ));
             }
         }
     }
@@ -418,17 +448,9 @@ pub fn bicgstab(
     method: &str,
 ) -> Result<CgInfo> {
     let n = op.dim();
-    assert_eq!(b.len(), n);
-    assert_eq!(x.len(), n);
-    let b_norm = dot(b, b).sqrt();
-    if b_norm == 0.0 {
-        x.iter_mut().for_each(|v| *v = 0.0);
-        return Ok(CgInfo {
-            iterations: 0,
-            relative_residual: 0.0,
-            round_off_limited: false,
-        });
-    }
+    let Some(b_norm) = rhs_norm(n, b, x) else {
+        return Ok(CgInfo::ZERO);
+    };
     let target = params.tolerance * b_norm;
     for v in [
         &mut work.r,
@@ -441,14 +463,8 @@ pub fn bicgstab(
         v.resize(n, 0.0);
     }
     let BicgWorkspace { r, r0, p, v, z, t } = work;
-    let fail = |stall: Stall, it: usize, rel: f64| Error::NotConverged {
-        solve: None,
-        method: method.to_string(),
-        stall,
-        iterations: it,
-        relative_residual: rel,
-        tolerance: params.tolerance,
-    };
+    let fail =
+        |stall: Stall, it: usize, rel: f64| not_converged(method, stall, it, rel, params.tolerance);
     let mut r_norm = true_residual(op, b, x, r);
     let mut it = 0;
     let mut restarts = 0;
@@ -678,13 +694,8 @@ pub fn smallest_eigenpair(
         "eigen block of {} vectors",
         params.block
     );
-    let fail = |stall: Stall, it: usize, residual: f64| Error::NotConverged {
-        solve: None,
-        method: method.to_string(),
-        stall,
-        iterations: it,
-        relative_residual: residual,
-        tolerance: params.tolerance,
+    let fail = |stall: Stall, it: usize, residual: f64| {
+        not_converged(method, stall, it, residual, params.tolerance)
     };
     let start = rayleigh_parts(x, x, weights).1;
     if !(start > 0.0 && start.is_finite()) {

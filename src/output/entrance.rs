@@ -30,9 +30,9 @@
 //! rating), the means by the entrance's own [`PassageEntrance::means_at`].
 
 use super::plot::{
-    fitted, font, log_axis, note_lines, outlet, pixels_text, plot_error, power_of_ten,
-    register_font, render, rgb, round_label, stroke, text, title_lines, x_text, x_ticks, LogAxis,
-    Page, GREY, X_MAX, X_MIN,
+    fitted, font, line_width, log_axis, note_lines, outlet, pixels_text, plot_error, power_of_ten,
+    register_font, render, rgb, round_label, stroke, styled_mesh, text, title_lines, x_text,
+    x_ticks, LogAxis, Page, GREY, X_MAX, X_MIN,
 };
 use super::png::{length_text, sig4, INK, SERIES};
 use crate::entrance::{PassageEntrance, ThermalEntrance};
@@ -255,21 +255,14 @@ fn draw_panel(
                 .with_light_points(nu_light.clone()),
         )
         .map_err(&err)?;
-    let line_w = (fs / 7.0).max(2.0);
+    let line_w = line_width(fs);
     let x_fmt = |v: &f64| power_of_ten(*v);
     let y_fmt = |v: &f64| round_label(*v);
-    chart
-        .configure_mesh()
+    styled_mesh(&mut chart, fs)
         .x_desc("x* = x / (D_h·Re·Pr)")
         .y_desc("Nusselt number")
-        .label_style(font(fs, INK))
-        .axis_desc_style(font(fs, INK))
         .x_label_formatter(&x_fmt)
         .y_label_formatter(&y_fmt)
-        .bold_line_style(stroke([215, 215, 215], 0.1 * fs))
-        .light_line_style(stroke([238, 238, 238], 0.1 * fs))
-        .axis_style(stroke(INK, 0.12 * fs))
-        .set_all_tick_mark_size((0.35 * fs).round() as i32)
         .draw()
         .map_err(&err)?;
 

@@ -41,9 +41,9 @@
 //! entrance or operating point, and the two asymptotes are the formulas above of its values.
 
 use super::plot::{
-    fitted, font, log_axis, note_lines, outlet, pixels_text, plot_error, power_of_ten,
-    register_font, render, rgb, round_label, stroke, text, title_lines, vertical, x_text, x_ticks,
-    Area, LogAxis, Page, GREY, X_MAX, X_MIN,
+    fitted, font, line_width, log_axis, note_lines, outlet, pixels_text, plot_error, power_of_ten,
+    register_font, render, rgb, round_label, stroke, styled_mesh, text, title_lines, vertical,
+    x_text, x_ticks, Area, LogAxis, Page, GREY, X_MAX, X_MIN,
 };
 use super::png::{length_text, sig4, INK, SERIES};
 use crate::correlations::Regime;
@@ -326,10 +326,6 @@ fn split<'a>(
     Ok((chart_area, legend_area, top))
 }
 
-fn line_width(fs: f64) -> f64 {
-    (fs / 7.0).max(2.0)
-}
-
 /// The thin solid grey line of L+.
 fn length_style(fs: f64) -> ShapeStyle {
     stroke(GREY, 0.35 * line_width(fs))
@@ -377,18 +373,11 @@ fn draw_friction(
     let line_w = line_width(fs);
     let x_fmt = |v: &f64| power_of_ten(*v);
     let y_fmt = |v: &f64| round_label(*v);
-    chart
-        .configure_mesh()
+    styled_mesh(&mut chart, fs)
         .x_desc("x+ = x / (D_h·Re)")
         .y_desc("apparent f·Re (Fanning)")
-        .label_style(font(fs, INK))
-        .axis_desc_style(font(fs, INK))
         .x_label_formatter(&x_fmt)
         .y_label_formatter(&y_fmt)
-        .bold_line_style(stroke([215, 215, 215], 0.1 * fs))
-        .light_line_style(stroke([238, 238, 238], 0.1 * fs))
-        .axis_style(stroke(INK, 0.12 * fs))
-        .set_all_tick_mark_size((0.35 * fs).round() as i32)
         .draw()
         .map_err(&err)?;
 
@@ -506,20 +495,13 @@ fn draw_development(
     let line_w = line_width(fs);
     let x_fmt = |v: &f64| power_of_ten(*v);
     let y_fmt = |v: &f64| round_label(*v);
-    chart
-        .configure_mesh()
+    styled_mesh(&mut chart, fs)
         .x_desc("x+ = x / (D_h·Re)")
         .y_desc("u_max/ū,  K(x)")
         .y_labels(bold.len())
         .y_max_light_lines(4)
-        .label_style(font(fs, INK))
-        .axis_desc_style(font(fs, INK))
         .x_label_formatter(&x_fmt)
         .y_label_formatter(&y_fmt)
-        .bold_line_style(stroke([215, 215, 215], 0.1 * fs))
-        .light_line_style(stroke([238, 238, 238], 0.1 * fs))
-        .axis_style(stroke(INK, 0.12 * fs))
-        .set_all_tick_mark_size((0.35 * fs).round() as i32)
         .draw()
         .map_err(&err)?;
 

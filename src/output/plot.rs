@@ -14,7 +14,8 @@
 
 use super::png::{self, metrics, INK};
 use crate::error::{Error, Result};
-use plotters::coord::ranged1d::Ranged;
+use plotters::chart::MeshStyle;
+use plotters::coord::ranged1d::{Ranged, ValueFormatter};
 use plotters::coord::Shift;
 use plotters::prelude::*;
 use plotters::style::{FontStyle, RGBColor, ShapeStyle, TextStyle};
@@ -177,6 +178,33 @@ pub(super) fn downsample(buf: &[u8], w: usize, h: usize, f: usize) -> Vec<u8> {
         }
     }
     out
+}
+
+/// The width of a curve at font size `fs`, pixels.
+pub(super) fn line_width(fs: f64) -> f64 {
+    (fs / 7.0).max(2.0)
+}
+
+/// The mesh every panel shares: label fonts, grid lines, axis and tick marks at font size
+/// `fs`. The caller adds what its axes say (descriptions, label formatters and counts) and
+/// draws it.
+pub(super) fn styled_mesh<'a, 'b, DB, X, Y, XT, YT>(
+    chart: &'b mut ChartContext<'a, DB, Cartesian2d<X, Y>>,
+    fs: f64,
+) -> MeshStyle<'a, 'b, X, Y, DB>
+where
+    DB: DrawingBackend,
+    X: Ranged<ValueType = XT> + ValueFormatter<XT>,
+    Y: Ranged<ValueType = YT> + ValueFormatter<YT>,
+{
+    let mut mesh = chart.configure_mesh();
+    mesh.label_style(font(fs, INK))
+        .axis_desc_style(font(fs, INK))
+        .bold_line_style(stroke([215, 215, 215], 0.1 * fs))
+        .light_line_style(stroke([238, 238, 238], 0.1 * fs))
+        .axis_style(stroke(INK, 0.12 * fs))
+        .set_all_tick_mark_size((0.35 * fs).round() as i32);
+    mesh
 }
 
 pub(super) fn font(size: f64, c: [u8; 3]) -> TextStyle<'static> {
