@@ -38,6 +38,7 @@ fuzz_target!(|data: &[u8]| {
                 specific_heat: Some(4180.0),
             },
             length: Some(0.1),
+            roughness: if head[1] & 2 == 2 { 5e-5 } else { 0.0 },
         });
     }
     if let Ok(outcome) = pipeline::run(&c) {
