@@ -30,9 +30,9 @@
 //! rating), the means by the entrance's own [`PassageEntrance::means_at`].
 
 use super::plot::{
-    fitted, font, line_width, log_axis, note_lines, outlet, pixels_text, plot_error, power_of_ten,
-    register_font, render, rgb, round_label, stroke, styled_mesh, text, title_lines, x_text,
-    x_ticks, LogAxis, Page, GREY, X_MAX, X_MIN,
+    fitted, font, line_width, log_axis, log_y, note_lines, outlet, pixels_text, plot_error,
+    power_of_ten, register_font, render, rgb, round_label, stroke, styled_mesh, text, title_lines,
+    x_log_chart, x_text, LogAxis, Page, GREY, X_MAX, X_MIN,
 };
 use super::png::{length_text, sig4, INK, SERIES};
 use crate::entrance::{PassageEntrance, ThermalEntrance};
@@ -225,7 +225,7 @@ fn draw_panel(
     margin: f64,
 ) -> Result<(i32, i32, i32, i32)> {
     let err = plot_error(FILE);
-    let (nu_lo, nu_hi, nu_bold, nu_light) = axis;
+    let (nu_lo, nu_hi, _, _) = axis;
     let w = area.dim_in_pixel().0 as f64;
     let legend_w = (0.27 * w).round();
     let (chart_area, legend_area) = area.split_horizontally((w - legend_w).round() as u32);
@@ -238,23 +238,7 @@ fn draw_panel(
         text(&chart_area, hd, (0.0, 0.9 * fs), font(1.05 * fs, INK), FILE)?;
         top += 2.2 * fs;
     }
-    let (x_bold, x_light) = x_ticks();
-    let mut chart = ChartBuilder::on(&chart_area)
-        .margin_top(top.round() as i32)
-        .margin_right((0.8 * fs).round() as i32)
-        .x_label_area_size((3.3 * fs).round() as i32)
-        .y_label_area_size((4.2 * fs).round() as i32)
-        .build_cartesian_2d(
-            (X_MIN..X_MAX)
-                .log_scale()
-                .with_key_points(x_bold)
-                .with_light_points(x_light),
-            (*nu_lo..*nu_hi)
-                .log_scale()
-                .with_key_points(nu_bold.clone())
-                .with_light_points(nu_light.clone()),
-        )
-        .map_err(&err)?;
+    let mut chart = x_log_chart(&chart_area, top, fs, log_y(axis), FILE)?;
     let line_w = line_width(fs);
     let x_fmt = |v: &f64| power_of_ten(*v);
     let y_fmt = |v: &f64| round_label(*v);

@@ -41,9 +41,9 @@
 //! entrance or operating point, and the two asymptotes are the formulas above of its values.
 
 use super::plot::{
-    fitted, font, line_width, log_axis, note_lines, outlet, pixels_text, plot_error, power_of_ten,
-    register_font, render, rgb, round_label, stroke, styled_mesh, text, title_lines, vertical,
-    x_text, x_ticks, Area, LogAxis, Page, GREY, X_MAX, X_MIN,
+    fitted, font, line_width, log_axis, log_y, note_lines, outlet, pixels_text, plot_error,
+    power_of_ten, register_font, render, rgb, round_label, stroke, styled_mesh, text, title_lines,
+    vertical, x_log_chart, x_text, Area, LogAxis, Page, GREY, X_MAX, X_MIN,
 };
 use super::png::{length_text, sig4, INK, SERIES};
 use crate::correlations::Regime;
@@ -351,25 +351,9 @@ fn draw_friction(
     margin: f64,
 ) -> Result<(i32, i32, i32, i32)> {
     let err = plot_error(FILE);
-    let (lo, hi, bold, light) = axis;
+    let (lo, hi, _, _) = axis;
     let (chart_area, legend_area, top) = split(area, passage.heading.as_deref(), fs, margin)?;
-    let (x_bold, x_light) = x_ticks();
-    let mut chart = ChartBuilder::on(&chart_area)
-        .margin_top(top.round() as i32)
-        .margin_right((0.8 * fs).round() as i32)
-        .x_label_area_size((3.3 * fs).round() as i32)
-        .y_label_area_size((4.2 * fs).round() as i32)
-        .build_cartesian_2d(
-            (X_MIN..X_MAX)
-                .log_scale()
-                .with_key_points(x_bold)
-                .with_light_points(x_light),
-            (*lo..*hi)
-                .log_scale()
-                .with_key_points(bold.clone())
-                .with_light_points(light.clone()),
-        )
-        .map_err(&err)?;
+    let mut chart = x_log_chart(&chart_area, top, fs, log_y(axis), FILE)?;
     let line_w = line_width(fs);
     let x_fmt = |v: &f64| power_of_ten(*v);
     let y_fmt = |v: &f64| round_label(*v);
@@ -478,20 +462,7 @@ fn draw_development(
     let err = plot_error(FILE);
     let (lo, hi, bold, _) = axis;
     let (chart_area, legend_area, top) = split(area, None, fs, margin)?;
-    let (x_bold, x_light) = x_ticks();
-    let mut chart = ChartBuilder::on(&chart_area)
-        .margin_top(top.round() as i32)
-        .margin_right((0.8 * fs).round() as i32)
-        .x_label_area_size((3.3 * fs).round() as i32)
-        .y_label_area_size((4.2 * fs).round() as i32)
-        .build_cartesian_2d(
-            (X_MIN..X_MAX)
-                .log_scale()
-                .with_key_points(x_bold)
-                .with_light_points(x_light),
-            *lo..*hi,
-        )
-        .map_err(&err)?;
+    let mut chart = x_log_chart(&chart_area, top, fs, *lo..*hi, FILE)?;
     let line_w = line_width(fs);
     let x_fmt = |v: &f64| power_of_ten(*v);
     let y_fmt = |v: &f64| round_label(*v);

@@ -15,7 +15,8 @@
 use super::png::{self, metrics, INK};
 use crate::error::{Error, Result};
 use plotters::chart::MeshStyle;
-use plotters::coord::ranged1d::{Ranged, ValueFormatter};
+use plotters::coord::combinators::{LogCoord, WithKeyPoints};
+use plotters::coord::ranged1d::{AsRangedCoord, Ranged, ValueFormatter};
 use plotters::coord::Shift;
 use plotters::prelude::*;
 use plotters::style::{FontStyle, RGBColor, ShapeStyle, TextStyle};
@@ -178,6 +179,47 @@ pub(super) fn downsample(buf: &[u8], w: usize, h: usize, f: usize) -> Vec<u8> {
         }
     }
     out
+}
+
+/// The x axis of every plot: x from [`X_MIN`] to [`X_MAX`] on a log scale ([`x_ticks`]).
+pub(super) type XAxis = WithKeyPoints<LogCoord<f64>>;
+
+/// A chart on `area` with the shared x axis and the y axis `y`, its plotting area `top` pixels
+/// below the area's top (a heading's room), margins and label areas scaled with the font size
+/// `fs`.
+pub(super) fn x_log_chart<'a, DB, Y>(
+    area: &'a DrawingArea<DB, Shift>,
+    top: f64,
+    fs: f64,
+    y: Y,
+    file: &str,
+) -> Result<ChartContext<'a, DB, Cartesian2d<XAxis, Y::CoordDescType>>>
+where
+    DB: DrawingBackend,
+    Y: AsRangedCoord,
+{
+    let (x_bold, x_light) = x_ticks();
+    ChartBuilder::on(area)
+        .margin_top(top.round() as i32)
+        .margin_right((0.8 * fs).round() as i32)
+        .x_label_area_size((3.3 * fs).round() as i32)
+        .y_label_area_size((4.2 * fs).round() as i32)
+        .build_cartesian_2d(
+            (X_MIN..X_MAX)
+                .log_scale()
+                .with_key_points(x_bold)
+                .with_light_points(x_light),
+            y,
+        )
+        .map_err(plot_error(file))
+}
+
+/// A logarithmic y axis from `lo` to `hi` with its bold and light values ([`log_axis`]).
+pub(super) fn log_y((lo, hi, bold, light): &LogAxis) -> WithKeyPoints<LogCoord<f64>> {
+    (*lo..*hi)
+        .log_scale()
+        .with_key_points(bold.clone())
+        .with_light_points(light.clone())
 }
 
 /// The width of a curve at font size `fs`, pixels.
