@@ -234,6 +234,28 @@ impl Singular {
 }
 
 impl Singular {
+    /// The unknowns near the corner, (unknown, node), row by row: those of the box of nodes
+    /// that holds the disc r < r₁ (every node where χ, S or the dual can be nonzero).
+    fn unknowns_near<'a>(
+        &self,
+        c: &'a Classified,
+        num: &'a Numbering,
+    ) -> impl Iterator<Item = (usize, Point)> + 'a {
+        let g = &c.grid;
+        let p = self.corner.position;
+        let span = (self.r1 / g.h).ceil() as isize + 1;
+        let ci = ((p[0] - g.origin[0]) / g.h).round() as isize;
+        let cj = ((p[1] - g.origin[1]) / g.h).round() as isize;
+        let (i0, i1) = ((ci - span).max(0), (ci + span).min(g.nx as isize - 1));
+        let (j0, j1) = ((cj - span).max(0), (cj + span).min(g.ny as isize - 1));
+        (j0..=j1)
+            .flat_map(move |j| (i0..=i1).map(move |i| (i as usize, j as usize)))
+            .filter_map(move |(i, j)| {
+                let q = num.unknown_of[g.index(i, j)];
+                (q != crate::problem::NO_UNKNOWN).then(|| (q as usize, g.node(i, j)))
+            })
+    }
+
     /// χ·S = χ(r)·r^λ·sin(λθ) at `p` (zero outside r₁ and outside the sector).
     pub fn function(&self, p: Point) -> f64 {
         let (r, t) = self.corner.polar(p);
@@ -392,22 +414,10 @@ impl Enrichment {
         num: &Numbering,
         f: impl Fn(&Singular, Point) -> f64,
     ) -> Vec<f64> {
-        let g = &c.grid;
         let mut out = vec![0.0; num.len()];
         for (s, a) in self.corners.iter().zip(&self.a) {
-            let p = s.corner.position;
-            let span = (s.r1 / g.h).ceil() as isize + 1;
-            let ci = ((p[0] - g.origin[0]) / g.h).round() as isize;
-            let cj = ((p[1] - g.origin[1]) / g.h).round() as isize;
-            for j in (cj - span).max(0)..=(cj + span).min(g.ny as isize - 1) {
-                for i in (ci - span).max(0)..=(ci + span).min(g.nx as isize - 1) {
-                    let k = g.index(i as usize, j as usize);
-                    let q = num.unknown_of[k];
-                    if q == crate::problem::NO_UNKNOWN {
-                        continue;
-                    }
-                    out[q as usize] += a * f(s, g.node(i as usize, j as usize));
-                }
+            for (q, x) in s.unknowns_near(c, num) {
+                out[q] += a * f(s, x);
             }
         }
         out
@@ -425,29 +435,15 @@ pub fn coefficient_with_source(
     source: &[f64],
     weights: &[f64],
 ) -> f64 {
-    let g = &c.grid;
-    let p = s.corner.position;
-    let span = (s.r1 / g.h).ceil() as isize + 1;
-    let ci = ((p[0] - g.origin[0]) / g.h).round() as isize;
-    let cj = ((p[1] - g.origin[1]) / g.h).round() as isize;
     let l = s.lambda;
     let mut sum = 0.0;
-    for j in (cj - span).max(0)..=(cj + span).min(g.ny as isize - 1) {
-        for i in (ci - span).max(0)..=(ci + span).min(g.nx as isize - 1) {
-            let k = g.index(i as usize, j as usize);
-            let q = num.unknown_of[k];
-            if q == crate::problem::NO_UNKNOWN {
-                continue;
-            }
-            let q = q as usize;
-            let x = g.node(i as usize, j as usize);
-            let (r, t) = s.corner.polar(x);
-            if r >= s.r1 || r <= 0.0 || !(0.0..=s.corner.angle).contains(&t) {
-                continue;
-            }
-            let dual = cutoff(r, s.r0, s.r1).0 * r.powf(-l) * (l * t).sin();
-            sum += weights[q] * (u[q] * s.dual_laplacian(x) + dual * source[q]);
+    for (q, x) in s.unknowns_near(c, num) {
+        let (r, t) = s.corner.polar(x);
+        if r >= s.r1 || r <= 0.0 || !(0.0..=s.corner.angle).contains(&t) {
+            continue;
         }
+        let dual = cutoff(r, s.r0, s.r1).0 * r.powf(-l) * (l * t).sin();
+        sum += weights[q] * (u[q] * s.dual_laplacian(x) + dual * source[q]);
     }
     sum / s.extraction_scale()
 }
@@ -462,23 +458,9 @@ pub fn coefficient(
     u: &[f64],
     weights: &[f64],
 ) -> f64 {
-    let g = &c.grid;
-    let p = s.corner.position;
-    // Only the nodes within r₁ of the corner: a box of them.
-    let span = (s.r1 / g.h).ceil() as isize + 1;
-    let ci = ((p[0] - g.origin[0]) / g.h).round() as isize;
-    let cj = ((p[1] - g.origin[1]) / g.h).round() as isize;
     let mut sum = 0.0;
-    for j in (cj - span).max(0)..=(cj + span).min(g.ny as isize - 1) {
-        for i in (ci - span).max(0)..=(ci + span).min(g.nx as isize - 1) {
-            let k = g.index(i as usize, j as usize);
-            let q = num.unknown_of[k];
-            if q == crate::problem::NO_UNKNOWN {
-                continue;
-            }
-            let q = q as usize;
-            sum += weights[q] * u[q] * s.dual_laplacian(g.node(i as usize, j as usize));
-        }
+    for (q, x) in s.unknowns_near(c, num) {
+        sum += weights[q] * u[q] * s.dual_laplacian(x);
     }
     (sum + s.dual_source_integral()) / s.extraction_scale()
 }
