@@ -30,9 +30,9 @@
 //! rating), the means by the entrance's own [`PassageEntrance::means_at`].
 
 use super::plot::{
-    fitted, font, line_width, log_axis, log_y, note_lines, outlet, pixels_text, plot_error,
-    power_of_ten, register_font, render, rgb, round_label, stroke, styled_mesh, text, title_lines,
-    x_log_chart, x_text, LogAxis, Page, GREY, X_MAX, X_MIN,
+    asymptote, fitted, font, line_width, log_axis, log_y, march_grid, note_lines, outlet,
+    pixels_text, plot_error, power_of_ten, register_font, render, rgb, round_label, stroke,
+    styled_mesh, text, title_lines, x_log_chart, x_text, LogAxis, Page, GREY, X_MAX, X_MIN,
 };
 use super::png::{length_text, sig4, INK, SERIES};
 use crate::entrance::{PassageEntrance, ThermalEntrance};
@@ -197,11 +197,7 @@ pub fn entrance_png(o: &Outcome, e: &ThermalEntrance, width: u32) -> Result<Vec<
 
 /// The note under the panels: the march's grid and steps, and what the shading means.
 fn footer_text(o: &Outcome, e: &ThermalEntrance) -> String {
-    let cells = o
-        .entrance
-        .as_ref()
-        .map(|x| format!("{} × {} cells", x.cells.0, x.cells.1))
-        .unwrap_or_default();
+    let cells = march_grid(o);
     let leveque = e.passages.iter().any(|p| p.leveque.resolved_from > X_MIN);
     let mut s = format!(
         "Marched on {cells} in {} steps; the curves join the march's points.",
@@ -262,21 +258,11 @@ fn draw_panel(
             .map_err(&err)?;
     }
     // Asymptotes, dashed, under the curves.
-    let dash = (0.9 * fs).round() as i32;
     for (fd, c) in [
         (p.nusselt_t_fully_developed, T_COLOURS[0]),
         (p.nusselt_h1_fully_developed, H1_COLOURS[0]),
     ] {
-        if fd.is_finite() && fd > *nu_lo && fd < *nu_hi {
-            chart
-                .draw_series(DashedLineSeries::new(
-                    [(X_MIN, fd), (X_MAX, fd)],
-                    dash,
-                    (0.6 * fs).round() as i32,
-                    stroke(c, 0.6 * line_w),
-                ))
-                .map_err(&err)?;
-        }
+        asymptote(&mut chart, fd, (*nu_lo, *nu_hi), c, fs, line_w, FILE)?;
     }
     // The curves: means first, so the local values lie on top.
     let rows = plotted(p);

@@ -41,9 +41,10 @@
 //! entrance or operating point, and the two asymptotes are the formulas above of its values.
 
 use super::plot::{
-    fitted, font, line_width, log_axis, log_y, note_lines, outlet, pixels_text, plot_error,
-    power_of_ten, register_font, render, rgb, round_label, stroke, styled_mesh, text, title_lines,
-    vertical, x_log_chart, x_text, Area, LogAxis, Page, GREY, X_MAX, X_MIN,
+    asymptote, fitted, font, line_width, log_axis, log_y, march_grid, note_lines, outlet,
+    pixels_text, plot_error, power_of_ten, register_font, render, rgb, round_label, stroke,
+    styled_mesh, text, title_lines, vertical, x_log_chart, x_text, Area, LogAxis, Page, GREY,
+    X_MAX, X_MIN,
 };
 use super::png::{length_text, sig4, INK, SERIES};
 use crate::correlations::Regime;
@@ -282,11 +283,7 @@ pub fn hydrodynamic_png(o: &Outcome, h: &HydrodynamicEntrance, width: u32) -> Re
 /// The note under the panels: the march's grid and steps, what the shading means, and whether
 /// the march settled.
 fn footer_text(o: &Outcome, h: &HydrodynamicEntrance) -> String {
-    let cells = o
-        .entrance
-        .as_ref()
-        .map(|x| format!("{} × {} cells", x.cells.0, x.cells.1))
-        .unwrap_or_default();
+    let cells = march_grid(o);
     let mut s = format!(
         "Marched on {cells} in {} steps; the curves join the march's points.",
         h.steps
@@ -369,16 +366,7 @@ fn draw_friction(
     shade_head(&mut chart, p, (*lo, *hi))?;
     // The fully developed value, dashed, under the curve.
     let f_re = p.fanning_f_re;
-    if f_re.is_finite() && f_re > *lo && f_re < *hi {
-        chart
-            .draw_series(DashedLineSeries::new(
-                [(X_MIN, f_re), (X_MAX, f_re)],
-                (0.9 * fs).round() as i32,
-                (0.6 * fs).round() as i32,
-                stroke(F_COLOUR, 0.6 * line_w),
-            ))
-            .map_err(&err)?;
-    }
+    asymptote(&mut chart, f_re, (*lo, *hi), F_COLOUR, fs, line_w, FILE)?;
     let rows = plotted(p);
     chart
         .draw_series(LineSeries::new(
@@ -482,16 +470,7 @@ fn draw_development(
         (p.max_to_mean_fully_developed, U_COLOUR),
         (p.k_infinity, K_COLOUR),
     ] {
-        if fd.is_finite() && fd > *lo && fd < *hi {
-            chart
-                .draw_series(DashedLineSeries::new(
-                    [(X_MIN, fd), (X_MAX, fd)],
-                    (0.9 * fs).round() as i32,
-                    (0.6 * fs).round() as i32,
-                    stroke(c, 0.6 * line_w),
-                ))
-                .map_err(&err)?;
-        }
+        asymptote(&mut chart, fd, (*lo, *hi), c, fs, line_w, FILE)?;
     }
     let rows = plotted(p);
     for (col, c) in [(2, K_COLOUR), (3, U_COLOUR)] {

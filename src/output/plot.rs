@@ -10,7 +10,8 @@
 //! helpers: round values on decades ([`decade_values`], [`log_axis`]), tick labels
 //! ([`power_of_ten`], [`round_label`], [`x_text`]).
 //!
-//! Invariant: knows no quantity of any plot; what a panel shows is its caller's.
+//! Invariant: knows no quantity of any plot (beyond the entrance grid a note names,
+//! [`march_grid`]); what a panel shows is its caller's.
 
 use super::png::{self, metrics, INK};
 use crate::error::{Error, Result};
@@ -437,11 +438,7 @@ where
 pub(super) type Area<'a> = DrawingArea<BitMapBackend<'a>, Shift>;
 
 /// The chart of a panel: the log x axis of [`X_MIN`]..[`X_MAX`] against `Y`.
-pub(super) type Chart<'a, 'b, Y> = ChartContext<
-    'a,
-    BitMapBackend<'b>,
-    Cartesian2d<plotters::coord::combinators::WithKeyPoints<LogCoord<f64>>, Y>,
->;
+pub(super) type Chart<'a, 'b, Y> = ChartContext<'a, BitMapBackend<'b>, Cartesian2d<XAxis, Y>>;
 
 /// A vertical line at `x` across the y range `y`, dashed (`dash`, `gap` in pixels) or solid
 /// (`dash` = 0).
@@ -488,6 +485,39 @@ pub(super) fn outlet_line<Y: Ranged<ValueType = f64>>(
         stroke(INK, 0.7 * line_w),
         file,
     )
+}
+
+/// "N × M cells", the entrance marches' grid, for a plot's note (empty without one).
+pub(super) fn march_grid(o: &crate::outcome::Outcome) -> String {
+    o.entrance
+        .as_ref()
+        .map(|x| format!("{} × {} cells", x.cells.0, x.cells.1))
+        .unwrap_or_default()
+}
+
+/// A fully developed value `v` as a dashed horizontal asymptote of colour `c` across the x
+/// axis, drawn only when it lies inside the y range `y`.
+pub(super) fn asymptote<Y: Ranged<ValueType = f64>>(
+    chart: &mut Chart<'_, '_, Y>,
+    v: f64,
+    y: (f64, f64),
+    c: [u8; 3],
+    fs: f64,
+    line_w: f64,
+    file: &str,
+) -> Result<()> {
+    if !(v.is_finite() && v > y.0 && v < y.1) {
+        return Ok(());
+    }
+    chart
+        .draw_series(DashedLineSeries::new(
+            [(X_MIN, v), (X_MAX, v)],
+            (0.9 * fs).round() as i32,
+            (0.6 * fs).round() as i32,
+            stroke(c, 0.6 * line_w),
+        ))
+        .map_err(plot_error(file))?;
+    Ok(())
 }
 
 /// The outlet: its line ([`outlet_line`]) at `x` across the y range `y`, `label` on a white
