@@ -220,6 +220,32 @@ const REFERENCES: [(&str, [Reference; 4]); 4] = [
     ),
 ];
 
+/// The references of shape `key`.
+fn references_of(key: &str) -> [Reference; 4] {
+    REFERENCES
+        .iter()
+        .find(|(k, _)| *k == key)
+        .expect("a reference for every shape tested")
+        .1
+}
+
+/// Asserts that report `r`'s band on `quantity` holds its error against `reference` with
+/// `margin` to spare (the reference's own band, where it counts against the estimate).
+fn assert_covered(key: &str, r: &serde_json::Value, quantity: &str, reference: f64, margin: f64) {
+    let u = &r["uncertainty"][quantity];
+    let error = (num(r, quantity) - reference).abs();
+    let reported = u["absolute_uncertainty"].as_f64().unwrap();
+    println!(
+        "{key} {quantity}: error {:.1e}, reported {:.1e}",
+        error / reference,
+        reported / reference
+    );
+    assert!(
+        reported >= error + margin,
+        "{key} {quantity}: reference {reference}, error {error:.2e}, reported {reported:.2e}: {u}"
+    );
+}
+
 #[test]
 fn issue_20_the_cornered_shapes_meet_two_in_a_hundred_thousand_at_the_default_grid() {
     // Issue 20's target: f·Re, Nu_H1 and Nu_T within 2e-5 of the converged value at the
@@ -241,7 +267,7 @@ fn issue_20_the_cornered_shapes_meet_two_in_a_hundred_thousand_at_the_default_gr
     for (key, path) in &shapes {
         let coarse = sb.report(&["solve", path, "--cells", "300", "--json"]);
         let fine = sb.report(&["solve", path, "--cells", "600", "--json"]);
-        let refs = REFERENCES.iter().find(|(k, _)| k == key).unwrap().1;
+        let refs = references_of(key);
         for (quantity, reference, band) in refs {
             if quantity == "max_to_mean_velocity" {
                 continue;
@@ -277,29 +303,17 @@ fn issue_20_the_default_error_bars_cover_the_true_error_at_corners() {
         ("finned_tube", &tube, "300"),
     ] {
         let r = sb.report(&["solve", path, "--cells", cells, "--json"]);
-        let refs = REFERENCES.iter().find(|(k, _)| *k == key).unwrap().1;
+        let refs = references_of(key);
         for (quantity, reference, reference_uncertainty) in refs {
-            let value = num(&r, quantity);
-            let error = (value - reference).abs();
-            let u = &r["uncertainty"][quantity];
-            let reported = u["absolute_uncertainty"].as_f64().unwrap();
+            let error = (num(&r, quantity) - reference).abs();
             // The reference's own band counts against the estimate.
             let margin = reference_uncertainty * reference;
-            println!(
-                "{key} {quantity}: error {:.1e}, reported {:.1e}",
-                error / reference,
-                reported / reference
-            );
             assert!(
                 error > 3.0 * margin,
                 "{key} {quantity}: the error {error:.2e} is too small to test against a \
                  reference good to {reference_uncertainty:.0e}"
             );
-            assert!(
-                reported >= error + margin,
-                "{key} {quantity}: {value} reported ± {reported:.2e}, reference {reference}, \
-                 error {error:.2e}: {u}"
-            );
+            assert_covered(key, &r, quantity, reference, margin);
         }
     }
 }
@@ -325,25 +339,15 @@ fn issue_20_accuracy_studies_cover_the_true_error_at_corners() {
         ("finned_tube", &tube, true),
     ] {
         let r = sb.report(&["solve", path, "--accuracy", "1e-5", "--json"]);
-        let refs = REFERENCES.iter().find(|(k, _)| *k == key).unwrap().1;
+        let refs = references_of(key);
         for (quantity, reference, band) in refs {
             if quantity == "max_to_mean_velocity" {
                 continue;
             }
             let u = &r["uncertainty"][quantity];
             assert_eq!(u["target_reached"], true, "{key} {quantity}: {u}");
-            let error = (num(&r, quantity) - reference).abs();
-            let reported = u["absolute_uncertainty"].as_f64().unwrap();
             let margin = if with_band { band * reference } else { 0.0 };
-            println!(
-                "{key} {quantity}: error {:.1e}, reported {:.1e}",
-                error / reference,
-                reported / reference
-            );
-            assert!(
-                reported >= error + margin,
-                "{key} {quantity}: error {error:.2e}, reported {reported:.2e}: {u}"
-            );
+            assert_covered(key, &r, quantity, reference, margin);
         }
     }
 }
@@ -372,7 +376,7 @@ fn issue_20_an_l_shape_converges_at_second_order_with_the_corner_treated() {
         }],
         vec![],
     );
-    let refs = REFERENCES[0].1;
+    let refs = references_of("l");
     let (fre, umax) = (refs[0].1, refs[1].1);
     let (lo, hi) = l.bbox();
     let solve = |cells: usize, treat: bool| {
