@@ -148,7 +148,7 @@ fn solve_unit_on_worker(
         *params
     };
     // The re-entrant corners treated by singular-function enrichment (singular::Enrichment):
-    // known from the exact geometry, straight-walled, their cut-off resolved by the grid.
+    // known from the exact geometry, between lines or arcs, their cut-off resolved by the grid.
     let corners = domain.corners();
     let walls = domain.walls(0.5 * grid.h);
     let dh = 4.0 * walls.area / walls.perimeter;

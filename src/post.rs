@@ -94,8 +94,8 @@ pub struct SingularCorner {
     pub coefficient: f64,
     /// a of ũ ≈ a·r^(π/α)·sin(πθ/α) (unit problem, m^(2 − π/α)).
     pub a: f64,
-    /// Both walls straight (the coefficient is exact up to the grid's error; on a curved wall it
-    /// is indicative, see [`crate::singular`]).
+    /// Both walls straight. (The coefficient is exact up to the grid's error where both walls
+    /// are lines or arcs, [`crate::singular::wedge_pole`]; on an ellipse's wall indicative.)
     pub straight: bool,
     /// The solve treated the corner by singular-function enrichment
     /// ([`crate::singular::Enrichment`]): the figures converge at second order despite it.

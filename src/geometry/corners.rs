@@ -3,8 +3,8 @@
 //! Owns: where the walls of a [`Shape`] meet at an angle ([`Corner`]): every vertex of a
 //! polygon or a sharp rectangle, and every point where the boundaries of two primitives meet
 //! (a hole's edge on a region's edge, two regions overlapping), with the interior angle α of
-//! the fluid there, the directions of its two walls, whether both are straight, and the radius
-//! within which the fluid is exactly the corner's sector.
+//! the fluid there, the directions of its two walls, whether both are straight, each wall's
+//! curvature, and the radius within which the fluid is exactly the corner's sector.
 //!
 //! # Why
 //! Near a corner of interior angle α (measured in the fluid) with u = 0 on both walls, the
@@ -47,8 +47,14 @@ pub struct Corner {
     pub start: f64,
     /// Both walls are straight lines out to [`Corner::clear_radius`].
     pub straight: bool,
+    /// Signed curvature of the first and of the second wall where it leaves the corner, 1/m:
+    /// 0 for a straight wall, ±1/R for a circular arc of radius R (positive where the wall
+    /// bends to the left of its direction away from the corner), `None` for any other curve
+    /// (an ellipse).
+    pub curvature: [Option<f64>; 2],
     /// Radius within which no other wall comes near: inside it the fluid is the corner's sector
-    /// (up to the curvature of a curved wall), metres.
+    /// bounded by its own two walls (at an ellipse's wall at most a fifth of its radius of
+    /// curvature, where the wall is near its tangent), metres.
     pub clear_radius: f64,
 }
 
@@ -56,6 +62,13 @@ impl Corner {
     /// A re-entrant corner (α > π): the wall shear is unbounded there.
     pub fn is_reentrant(&self) -> bool {
         self.angle > PI
+    }
+
+    /// Both walls are straight lines or circular arcs near the corner
+    /// ([`Corner::curvature`]): the corner's sector maps exactly onto a straight wedge
+    /// (`crate::singular`).
+    pub fn walls_are_circles(&self) -> bool {
+        self.curvature.iter().all(Option::is_some)
     }
 
     /// The exponent λ = π/α of the leading singular function r^λ·sin(λθ).
@@ -67,9 +80,13 @@ impl Corner {
     /// towards the second (in [0, α] inside the sector, up to round-off).
     pub fn polar(&self, p: Point) -> (f64, f64) {
         let d = sub(p, self.position);
-        let r = norm(d);
-        let mut t = d[1].atan2(d[0]) - self.start;
-        t = t.rem_euclid(2.0 * PI);
+        (norm(d), self.sector_angle(d[1].atan2(d[0]) - self.start))
+    }
+
+    /// An angle `t` from the first wall (any multiple of 2π off) as θ: in [0, α] inside the
+    /// sector, up to round-off, and outside it in the solid.
+    pub fn sector_angle(&self, t: f64) -> f64 {
+        let mut t = t.rem_euclid(2.0 * PI);
         // Points just clockwise of the first wall (round-off) come back as θ ≈ 2π.
         if t > 0.5 * (self.angle + 2.0 * PI) {
             t -= 2.0 * PI;
@@ -82,7 +99,7 @@ impl Corner {
         } else if t > self.angle && t < self.angle + slack {
             t = self.angle;
         }
-        (r, t)
+        t
     }
 }
 
@@ -372,18 +389,17 @@ pub fn corners(shape: &Shape) -> Vec<Corner> {
     let mut out = Vec::new();
     for c in &merged {
         // Tangent directions of the segments through the point.
-        let mut dirs: Vec<(f64, bool)> = Vec::new(); // (angle, straight)
+        let mut dirs: Vec<(f64, Option<f64>)> = Vec::new(); // (angle, curvature)
         for &(k, t) in &c.on {
             let s = &segs[k].seg;
-            let straight = matches!(s, Segment::Line { .. });
             let d = s.derivative(t);
             let fwd = d[1].atan2(d[0]);
             let back = (-d[1]).atan2(-d[0]);
             if t < 1.0 - 1e-12 {
-                dirs.push((fwd, straight));
+                dirs.push((fwd, curvature(s, c.p, d)));
             }
             if t > 1e-12 {
-                dirs.push((back, straight));
+                dirs.push((back, curvature(s, c.p, [-d[0], -d[1]])));
             }
         }
         if dirs.len() < 2 {
@@ -395,7 +411,7 @@ pub fn corners(shape: &Shape) -> Vec<Corner> {
         dirs.sort_by(|a, b| a.0.total_cmp(&b.0));
         dirs.dedup_by(|b, a| {
             if (b.0 - a.0).abs() <= 1e-12 {
-                a.1 &= b.1;
+                a.1 = same_curvature(a.1, b.1);
                 true
             } else {
                 false
@@ -403,7 +419,7 @@ pub fn corners(shape: &Shape) -> Vec<Corner> {
         });
         if dirs.len() > 1 && (dirs[0].0 + 2.0 * PI - dirs[dirs.len() - 1].0).abs() <= 1e-12 {
             let last = dirs.pop().expect("len > 1");
-            dirs[0].1 &= last.1;
+            dirs[0].1 = same_curvature(dirs[0].1, last.1);
         }
         let n = dirs.len();
         if n < 2 {
@@ -445,7 +461,8 @@ pub fn corners(shape: &Shape) -> Vec<Corner> {
                     position: c.p,
                     angle,
                     start: dirs[s].0,
-                    straight: dirs[s].1 && dirs[end].1,
+                    straight: dirs[s].1 == Some(0.0) && dirs[end].1 == Some(0.0),
+                    curvature: [dirs[s].1, dirs[end].1],
                     clear_radius: clear_radius(c, &segs, &buckets, &index, tol),
                 });
             }
@@ -461,9 +478,31 @@ pub fn corners(shape: &Shape) -> Vec<Corner> {
     out
 }
 
-/// The clear radius of a corner on a curved wall is at most this share of the wall's smallest
-/// radius of curvature (canalis's choice: there the wall is within 2 % of the radius off its
-/// tangent).
+/// The signed curvature of `seg` at its point `p`, leaving it in direction `d`
+/// ([`Corner::curvature`]): 0 for a line, ±1/R for an arc (+ where its centre lies to the left
+/// of `d`), `None` for an ellipse.
+fn curvature(seg: &Segment, p: Point, d: Point) -> Option<f64> {
+    match *seg {
+        Segment::Line { .. } => Some(0.0),
+        Segment::Arc { center, radius, .. } => {
+            Some(cross(d, sub(center, p)) / (norm(d) * radius * radius))
+        }
+        Segment::Ellipse { .. } => None,
+    }
+}
+
+/// Two walls leaving a point in one direction: their common curvature, if they agree.
+fn same_curvature(a: Option<f64>, b: Option<f64>) -> Option<f64> {
+    match (a, b) {
+        (Some(x), Some(y)) if (x - y).abs() <= 1e-9 * x.abs().max(y.abs()) => Some(x),
+        _ => None,
+    }
+}
+
+/// The clear radius of a corner on an ellipse's wall is at most this share of the wall's
+/// smallest radius of curvature (canalis's choice: there the wall is within 2 % of the radius
+/// off its tangent). Circular arcs set no such bound: the corner's sector between lines and arcs
+/// maps exactly onto a straight wedge (`crate::singular`), which bounds the radius there itself.
 const CURVED_SHARE: f64 = 0.2;
 
 /// Distance from the candidate to the nearest wall on a segment that does not pass through
@@ -477,14 +516,12 @@ fn clear_radius(
     tol: f64,
 ) -> f64 {
     let through: Vec<usize> = c.on.iter().map(|&(k, _)| k).collect();
-    // A curved wall through the point departs from its tangent by r²/(2ρ): the sector is a
-    // fair picture of the fluid only within a fraction of the radius of curvature ρ (and a
-    // closed curve through the point comes back to it).
+    // An ellipse through the point departs from its tangent by r²/(2ρ): the sector is a
+    // fair picture of the fluid only within a fraction of the radius of curvature ρ.
     let mut best =
         c.on.iter()
             .map(|&(k, _)| match segs[k].seg {
-                Segment::Line { .. } => f64::INFINITY,
-                Segment::Arc { radius, .. } => CURVED_SHARE * radius,
+                Segment::Line { .. } | Segment::Arc { .. } => f64::INFINITY,
                 Segment::Ellipse { semi_axes, .. } => {
                     let (a, b) = (
                         semi_axes[0].max(semi_axes[1]),
@@ -705,6 +742,13 @@ mod tests {
                 deg(want)
             );
             assert!(!k.straight);
+            // The flat is straight; the arc of radius 5 bends towards the fluid, to the left
+            // or the right of its direction away from the corner by which wall is first.
+            let mut kappa: Vec<f64> = k.curvature.iter().map(|c| c.unwrap()).collect();
+            kappa.sort_by(|a, b| a.abs().total_cmp(&b.abs()));
+            assert_eq!(kappa[0], 0.0);
+            assert!((kappa[1].abs() - 0.2).abs() < 1e-12, "{kappa:?}");
+            assert!(k.walls_are_circles());
         }
     }
 
