@@ -349,11 +349,16 @@ fn issue_20_the_default_error_bars_cover_the_true_error_at_corners() {
 
 #[test]
 fn issue_20_accuracy_studies_cover_the_true_error_at_corners() {
-    // `--accuracy 1e-5` on the L, the T and the finned tube: the study reaches its target and
-    // the reported band holds the error against the references above. Measured (relative
-    // error / reported, finest grid): L (486 cells) f·Re 6.8e-6 / 8.5e-6, Nu_H1 6.7e-6 /
-    // 8.5e-6, Nu_T 4.1e-6 / 5.2e-6; T (729) 5.5e-6 / 6.0e-6, 9.5e-6 / 9.8e-6, 8.2e-6 / 9.3e-6;
-    // finned tube (1094) 1.6e-6 / 2.8e-6, 3.6e-6 / 4.4e-6, 2.6e-6 / 3.3e-6. The T's Nu_H1 is
+    // `--accuracy 1e-5` on the L, the T, the finned tube and the keyhole: the study reaches its
+    // target and the reported band holds the error against the references above, u_max/ū's
+    // too. Measured (relative error / reported, finest grid): L (486 cells) f·Re 6.8e-6 /
+    // 8.5e-6, u_max/ū 2.2e-5 / 2.7e-5, Nu_H1 6.7e-6 / 8.5e-6, Nu_T 4.1e-6 / 5.2e-6; T (729)
+    // 5.5e-6 / 6.0e-6, 3.9e-5 / 4.8e-5, 9.5e-6 / 9.8e-6, 8.2e-6 / 9.3e-6; finned tube (1094)
+    // 1.6e-6 / 2.8e-6, 3.9e-7 / 6.8e-7, 3.6e-6 / 4.6e-6, 2.6e-6 / 3.4e-6; keyhole (1640)
+    // 5.0e-7 / 5.1e-6, 8.8e-7 / 3.3e-6, 3.5e-6 / 5.0e-6, 3.1e-6 / 6.4e-6. The keyhole's
+    // u_max/ū fitted an order of 15 on its finest grids and was reported ± 2.4e-8 until the
+    // study bounded such a lucky fine change by the wider pair of grids (study module notes).
+    // The T's Nu_H1 is
     // held by 3 %, less than its reference's own band (6.2e-7 of 9.5e-6): its study's
     // placement puts the walls where the heat problems' error is five times that of the
     // default placement at the same 729 cells (2.0e-6), and the grid-convergence index with
@@ -362,19 +367,21 @@ fn issue_20_accuracy_studies_cover_the_true_error_at_corners() {
     let l = sb.write("l.toml", L_SHAPE);
     let t = sb.write("t.toml", T_SHAPE);
     let tube = common::shipped_path("finned_tube.toml");
+    let keyhole = sb.write("keyhole.toml", KEYHOLE);
     for (key, path, with_band) in [
         ("l", &l, true),
         ("t", &t, false),
         ("finned_tube", &tube, true),
+        ("keyhole", &keyhole, true),
     ] {
         let r = sb.report(&["solve", path, "--accuracy", "1e-5", "--json"]);
         let refs = references_of(key);
         for (quantity, reference, band) in refs {
-            if quantity == "max_to_mean_velocity" {
-                continue;
-            }
             let u = &r["uncertainty"][quantity];
-            assert_eq!(u["target_reached"], true, "{key} {quantity}: {u}");
+            // u_max/ū is estimated, not targeted: its band must hold, whatever its size.
+            if quantity != "max_to_mean_velocity" {
+                assert_eq!(u["target_reached"], true, "{key} {quantity}: {u}");
+            }
             let margin = if with_band { band * reference } else { 0.0 };
             assert_covered(key, &r, quantity, reference, margin);
         }
