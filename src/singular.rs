@@ -62,6 +62,19 @@
 //! Nu by under 2e-6. Before any treatment the L's f·Re was 6e-5 off at
 //! 600 cells, the finned tube's 1.9e-4; untreated corners converge at order 2π/α (1.33).
 //!
+//! What is left on shapes/finned_tube.toml at 300 cells (tenth session): its errors jump from
+//! one cell count to the next (f·Re 2.1e-5, 3.8e-5, 6.2e-5, 3.6e-5, 3.6e-5, −3.8e-6, 3.5e-5,
+//! 4.7e-6, 6.4e-5 at 292, 294, …, 308 cells; Nu_T −3.5e-5 … −1.1e-5), while eight grid offsets
+//! at 300 cells move them by a standard deviation of only 4.6e-6 (the eight fin-tip corners sit
+//! at spread places in their cells, so a shift of the whole grid averages out). Untreated the
+//! same jumps are 50 times larger (f·Re −2.6e-3 … +6.4e-4). At 600 cells they are gone
+//! (Nu_T −7.9e-6 … −9.8e-6 over 580–620 cells): a term of high order in h whose constant
+//! depends on where each corner falls in its cell. Unchanged by: twelve enrichment passes, CG
+//! to 1e-13, the k = 4 harmonic (exponent 8/3), r₁ at 0.95 of the clear radius, the wall
+//! correction off; r₀ at 0.01, 0.05, 0.1 and 0.25 of r₁ gave standard deviations over 292–308
+//! cells of 1.4e-5, 1.6e-5, 2.2e-5 and 5.3e-5 in f·Re (0.1 is kept, `INNER_SHARE`: the
+//! smaller shares take off only a third of it).
+//!
 //! Invariant: knows the grid and its quadrature weights, nothing of solvers or reports.
 
 use crate::geometry::corners::Corner;
@@ -257,7 +270,7 @@ impl Singular {
     }
 
     /// ∫ χ·s⁻ dA over the corner's sector: ∫₀^α sin(λθ) dθ·∫₀^r₁ χ(r)·r^(1−λ) dr (on a
-    /// curved corner in ω's coordinates with the map's Jacobian, [`Singular::mapped`]).
+    /// curved corner in ω's coordinates with the map's Jacobian, `Singular::mapped`).
     pub fn dual_source_integral(&self) -> f64 {
         let l = self.lambda;
         if self.pole_size() > 0.0 {
@@ -276,7 +289,7 @@ impl Singular {
 
     /// ∫ χ·S dA over the corner's sector: ∫₀^α sin(λθ) dθ·∫₀^r₁ χ(r)·r^(λ+1) dr, exactly
     /// (the inner disc in closed form, the blend by Gauss–Legendre; on a curved corner in ω's
-    /// coordinates with the map's Jacobian, [`Singular::mapped`]).
+    /// coordinates with the map's Jacobian, `Singular::mapped`).
     pub fn integral(&self) -> f64 {
         let l = self.lambda;
         if self.pole_size() > 0.0 {
@@ -309,7 +322,7 @@ impl Singular {
     }
 
     /// ∆(χ·s⁻) at `p` (zero outside the annulus r₀ < r < r₁ and outside the sector): in ω,
-    /// times |ω′(z)|² ([`Singular::mapped`]).
+    /// times |ω′(z)|² (`Singular::mapped`).
     pub fn dual_laplacian(&self, p: Point) -> f64 {
         let (r, t, dw) = self.mapped(p);
         if r <= self.r0 || r >= self.r1 || t < 0.0 || t > self.corner.angle {
@@ -419,7 +432,7 @@ impl Singular {
     }
 
     /// χ·S = χ(r)·r^λ·sin(λθ) at `p` (zero outside r₁ and outside the sector; r, θ of ω on a
-    /// curved corner, [`Singular::mapped`]).
+    /// curved corner, `Singular::mapped`).
     pub fn function(&self, p: Point) -> f64 {
         let (r, t, _) = self.mapped(p);
         if r >= self.r1 || !(0.0..=self.corner.angle).contains(&t) {
