@@ -471,3 +471,57 @@ fn issue_20_a_keyhole_s_corners_between_a_line_and_an_arc_are_treated() {
         assert_eq!(r["uncertainty"][quantity]["order_used"].as_f64(), Some(2.0));
     }
 }
+
+#[test]
+fn issue_20_two_overlapping_bores_meet_at_treated_corners_between_arcs() {
+    // Two bores of our own (radii 1 and 0.8 mm, centres 1.5 mm apart) merge into one passage
+    // with two 292.4° corners where the arcs cross: both walls curved, mapped onto a wedge by
+    // singular::wedge_pole. References: canalis at 2400 and 3394 cells extrapolated at order 2
+    // (tenth session); relative bands beside them. Measured (relative error at 300 / 600 /
+    // 1200 cells): f·Re 2.1e-5 / 1.9e-6 / 2.1e-7, Nu_H1 3.0e-5 / 1.2e-5 / 3.2e-6, Nu_T
+    // 3.9e-5 / 1.2e-5 / 3.2e-6 (order 2 from 600 cells on, below it from 300); untreated
+    // (ninth session's code) f·Re was 6.8e-4 off at 600 cells and the force balance 5.4e-3.
+    //
+    // Not asserted, because it does not hold: the default estimate's band on f·Re at 600 cells
+    // is 7.7e-7, against an error of 1.9e-6. Part of this shape's error changes with where
+    // the grid falls (f·Re at 600 cells and three offsets: 1.9e-6, 3.3e-7, 9.6e-7 off; at 343
+    // cells 1.6e-7 … 7.9e-6 over nine offsets), and the cheap estimate's coarser grid agreed
+    // with the fine one by chance; a second coarser grid at another offset agreed too (tried).
+    // The Nusselt numbers' bands hold with a wide margin.
+    const EIGHT: &str = r#"
+name = "two overlapping bores"
+units = "mm"
+[[region]]
+kind = "circle"
+center = [0, 0]
+radius = 1
+[[region]]
+kind = "circle"
+center = [1.5, 0]
+radius = 0.8
+"#;
+    let refs = [
+        ("fanning_f_re", 17.026_083_17, 1e-7),
+        ("max_to_mean_velocity", 2.062_037_03, 1.4e-7),
+        ("nusselt_h1", 4.641_829_32, 4.9e-7),
+        ("nusselt_t", 3.675_295_74, 5.0e-7),
+    ];
+    let sb = Sandbox::new();
+    let path = sb.write("eight.toml", EIGHT);
+    let r = sb.report(&["solve", &path, "--json"]);
+    let corners = r["singular_corners"].as_array().unwrap();
+    assert_eq!(corners.len(), 2, "{corners:?}");
+    for c in corners {
+        assert_eq!(c["treated"], true, "{c}");
+        assert!((num(c, "interior_angle_deg") - 292.41).abs() < 0.01, "{c}");
+    }
+    assert!(num(&r, "force_balance_rel_error").abs() < 1e-4, "{r}");
+    for (quantity, reference, band) in refs {
+        let e = rel_err(num(&r, quantity), reference);
+        println!("eight {quantity}: {e:.1e}");
+        assert!(e < 2e-5, "{quantity}: {e:.2e}");
+        if quantity != "fanning_f_re" {
+            assert_covered("eight", &r, quantity, reference, band * reference);
+        }
+    }
+}
