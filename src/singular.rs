@@ -228,8 +228,11 @@ impl Singular {
         let reach = (CUTOFF_SHARE * corner.clear_radius).min(max_radius);
         let r1 = if zeta == 0.0 {
             reach
-        } else {
+        } else if zeta.is_finite() {
             (reach / (1.0 + reach * zeta)).min(POLE_SHARE / zeta)
+        } else {
+            // Walls tangent at the corner (no wedge): nothing to treat.
+            0.0
         };
         let r0 = INNER_SHARE * r1;
         Singular {
@@ -791,6 +794,25 @@ mod tests {
             .into_iter()
             .filter(Corner::is_reentrant)
             .collect()
+    }
+
+    #[test]
+    fn walls_tangent_at_the_corner_give_no_cut_off() {
+        // Two arcs of a slit (α = 2π, sin α = 0 up to round-off): their images are parallel,
+        // no wedge (the pole at infinity, or at 1e16 from round-off).
+        let c = Corner {
+            position: [0.0, 0.0],
+            angle: 2.0 * std::f64::consts::PI,
+            start: 0.0,
+            straight: false,
+            curvature: [Some(1.0), Some(2.0)],
+            clear_radius: 1.0,
+        };
+        let s = Singular::new(c, 10.0);
+        assert!(s.r1 < 1e-12, "{}", s.r1);
+        assert!(s.reach().is_finite());
+        assert_eq!(s.function([0.1, 0.1]), 0.0);
+        assert!(Enrichment::treatable(&[c], 1e-3, 1.0).is_empty());
     }
 
     #[test]
