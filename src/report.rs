@@ -779,9 +779,10 @@ pub fn summary(o: &Outcome) -> String {
                 if *reached { "reached" } else { "NOT reached" }
             ),
             Kind::Cheap => format!(
-                "cheap estimate from one coarser grid ({} cells), order {} assumed{}, safety \
+                "cheap estimate from {} ({} cells), order {} assumed{}, safety \
                  factor 3; --accuracy TOL for a study",
-                u.grids.first().copied().unwrap_or(0),
+                crate::study::cheap_grids(&u.grids),
+                crate::study::coarse_cells(&u.grids),
                 if (u.formal_order - u.formal_order.round()).abs() < 1e-9 {
                     format!("{}", u.formal_order.round())
                 } else {

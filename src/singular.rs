@@ -75,19 +75,17 @@
 //! cells of 1.4e-5, 1.6e-5, 2.2e-5 and 5.3e-5 in f·Re (0.1 is kept, `INNER_SHARE`: the
 //! smaller shares take off only a third of it).
 //!
-//! Where the grid falls matters at 600 cells too, and not only at corners: over six offsets
-//! (k·(0.13, 0.37) of a cell, k = 0 … 5) the largest relative errors of f·Re, Nu_H1, Nu_T are
-//! 9.6e-6, 1.5e-5, 7.8e-6 on the L; 1.7e-5, 3.1e-5, 2.1e-5 on the T; 1.7e-5, 3.6e-5, 2.4e-5 on
-//! the rectangle with one fin; 7.6e-6, 1.3e-5, 9.8e-6 on the finned tube, the worst always at
-//! k = 4, where the straight walls pass about 0.02 of a cell from a row of nodes. A plain 2 × 1
-//! mm rectangle, no re-entrant corner at all, does the same (f·Re 9.8e-6, Nu_H1 2.2e-5 off at
-//! k = 4, 1.4e-6 and 4e-7 at k = 0): an O(h²) error of the cut-cell scheme whose constant
-//! depends on where a straight wall, whose cut fraction is the same all along it, falls between
-//! the nodes (it shrinks fourfold per halving of h: on the keyhole 1.2e-5, 2.7e-6, 6.6e-7 at
-//! 300, 600, 1200 cells). The default grid (k = 0) puts these test shapes' walls half a cell
-//! from the nodes, the favourable case. The third-order term of the flow's ghost correction,
-//! (1/6)·u‴·(1 − θ)(2θ − 1)·h³ with the source's gradient in the local fits (tried), moved the
-//! errors by under 1e-7.
+//! Where the grid falls mattered at 600 cells too, and not only at corners: over six offsets
+//! (k·(0.13, 0.37) of a cell, k = 0 … 5) the largest relative errors of f·Re, Nu_H1, Nu_T
+//! were 9.6e-6, 1.5e-5, 7.8e-6 on the L; 1.7e-5, 3.1e-5, 2.1e-5 on the T; 1.7e-5, 3.6e-5,
+//! 2.4e-5 on the rectangle with one fin, the worst always at k = 4, where the straight walls
+//! pass about 0.02 of a cell from a row of nodes. A plain rectangle did the same. The cause was
+//! the flow integral's quadrature at walls parallel to the grid lines, now corrected
+//! (`post::flow_integral`, `post::flow_weights`); the same six offsets now give at most 2.0e-6,
+//! 6.6e-7, 1.9e-7 (L); 2.8e-6, 3.4e-6, 6.7e-6 (T); 4.3e-6, 4.2e-6, 8.6e-6 (one fin); 7.1e-6,
+//! 1.2e-5, 9.0e-6 (finned tube); 7.3e-7, 1.8e-5, 1.9e-5 (keyhole, whose Nu are its bore's).
+//! The third-order term of the flow's ghost correction, (1/6)·u‴·(1 − θ)(2θ − 1)·h³ with the
+//! source's gradient in the local fits (tried first), moved the errors by under 1e-7.
 //!
 //! Invariant: knows the grid and its quadrature weights, nothing of solvers or reports.
 

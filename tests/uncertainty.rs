@@ -93,10 +93,6 @@ fn accuracy_case(key: &str, spec: &str, order: Order) {
             assert_eq!(e.order_used, Some(2.0));
             assert_eq!(e.safety_factor, 3.0);
         }
-        Order::Oscillatory => {
-            assert_eq!(e.behaviour, Behaviour::Oscillatory, "{key}");
-            assert!(o.warnings.iter().any(|w| w.contains("oscillate")));
-        }
     }
 }
 
@@ -106,8 +102,6 @@ enum Order {
     Band,
     /// Above the sensible band (super-convergence), handled conservatively.
     AboveFormal,
-    /// Sign flips between grids: no order, the wide bound.
-    Oscillatory,
 }
 
 #[test]
@@ -125,8 +119,11 @@ fn ellipse_accuracy() {
 
 #[test]
 fn triangle_accuracy() {
-    // Equilateral triangle, exact f·Re = 40/3 (Shah & London 1978; src/exact.rs).
-    accuracy_case("triangle", "triangle:side=1", Order::Oscillatory);
+    // Equilateral triangle, exact f·Re = 40/3 (Shah & London 1978; src/exact.rs). Its base is
+    // parallel to the grid lines: its values oscillated over the study's grids until the flow
+    // integral's aligned-wall term (post::flow_weights, tenth session); now 64, 96, 144 cells
+    // fit an order of 2.04, error 2.9e-5 against a reported 3.9e-5.
+    accuracy_case("triangle", "triangle:side=1", Order::Band);
 }
 
 #[test]

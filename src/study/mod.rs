@@ -380,6 +380,21 @@ pub fn cheap_cells(cells: usize) -> usize {
     (cells as f64 / CHEAP_RATIO).round() as usize
 }
 
+/// Refinement ratio of the cheap estimate's second coarser grid, run where re-entrant corners
+/// are treated (`singular::Enrichment`; about half the fine solve's cost). There the error
+/// carries a part that jumps from one cell count to the next (`singular`'s module notes: the
+/// finned tube's Nu_H1 −2.5e-5 to −6.2e-5 over 292–308 cells), so one coarser grid can agree
+/// with the fine one by chance; the estimate keeps, figure by figure, the wider bound of the
+/// two pairs. Measured (tenth session) on shapes/finned_tube.toml at the default 600 cells:
+/// with one coarser grid Nu_H1 and Nu_T were reported ± 6.0e-6 and 4.4e-6 against errors of
+/// 1.2e-5 and 9.0e-6.
+pub const CHEAP_SECOND_RATIO: f64 = 1.4;
+
+/// Cells across of the cheap estimate's second coarser grid ([`CHEAP_SECOND_RATIO`]).
+pub fn cheap_second_cells(cells: usize) -> usize {
+    (cells as f64 / CHEAP_SECOND_RATIO).round() as usize
+}
+
 /// Placement of every grid of a study ([`crate::grid::Grid::covering_placed`]): the box centre
 /// sits (√2 − 1, (√5 − 1)/2 − ½) ≈ (0.414, 0.118) of a cell beyond a node, along x and y.
 ///
@@ -407,6 +422,26 @@ fn format_order(p: f64) -> String {
     } else {
         format!("{p:.2}")
     }
+}
+
+/// "one coarser grid", or "two coarser grids, the wider bound of each figure" (the cheap
+/// estimate at treated corners, [`CHEAP_SECOND_RATIO`]).
+pub fn cheap_grids(grids: &[usize]) -> &'static str {
+    if grids.len() > 2 {
+        "two coarser grids, the wider bound of each figure"
+    } else {
+        "one coarser grid"
+    }
+}
+
+/// The coarser grids' cells of a cheap estimate, "343" or "343 and 429".
+pub fn coarse_cells(grids: &[usize]) -> String {
+    let coarse = &grids[..grids.len().saturating_sub(1)];
+    coarse
+        .iter()
+        .map(|c| c.to_string())
+        .collect::<Vec<_>>()
+        .join(" and ")
 }
 
 /// Why the formal order is below 2, if it is.
@@ -493,9 +528,10 @@ impl Uncertainty {
                 corner_note(self.formal_order)
             ),
             Kind::Cheap => format!(
-                "cheap, one coarser grid ({} cells across), assumed order {}{}, \
+                "cheap, {} ({} cells across), assumed order {}{}, \
                  safety factor {SAFETY_FACTOR_CAUTIOUS} (Roache 1994); use --accuracy for a study",
-                self.grids.first().copied().unwrap_or(0),
+                cheap_grids(&self.grids),
+                coarse_cells(&self.grids),
                 format_order(self.formal_order),
                 corner_note(self.formal_order)
             ),

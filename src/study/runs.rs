@@ -159,7 +159,8 @@ const FIXED_GRID_NOTE: &str = "the grid is the mask's pixel grid (staircase wall
 faces), which cannot be refined or coarsened without changing the geometry itself";
 
 /// The cheap estimate: one coarser grid (cells / [`study::CHEAP_RATIO`], at another offset), the
-/// formal order assumed and safety factor 3. A coarse solve that fails leaves the fine result
+/// formal order assumed and safety factor 3; with treated re-entrant corners a second one
+/// (cells / [`study::CHEAP_SECOND_RATIO`]) and the wider bound of the two for each figure. A coarse solve that fails leaves the fine result
 /// as it is, with the estimate marked not available and a warning.
 pub(crate) fn with_cheap_estimate(
     config: &SolveConfig,
@@ -191,19 +192,46 @@ pub(crate) fn with_cheap_estimate(
     };
     match result {
         Ok(c) => {
-            let runs = [
+            let fine_values = (fine.unit.classified.grid.h, study_quantities(&fine));
+            let mut quantities = estimates(&[
                 (c.unit.classified.grid.h, study_quantities(&c)),
-                (fine.unit.classified.grid.h, study_quantities(&fine)),
-            ];
+                fine_values.clone(),
+            ]);
+            let mut grids = vec![coarse_cells, cells];
+            // Treated re-entrant corners: a second coarser grid of another size, and the wider
+            // of the two bounds per figure (study::CHEAP_SECOND_RATIO).
+            let second_cells = study::cheap_second_cells(cells);
+            if fine.unit.figures.singular_corners.iter().any(|k| k.treated) {
+                let mut second = coarse.clone();
+                second.cells = Some(second_cells);
+                if let Ok(c2) = run_once(&second, monitor) {
+                    let other = estimates(&[
+                        (c2.unit.classified.grid.h, study_quantities(&c2)),
+                        fine_values,
+                    ]);
+                    for (q, o) in quantities.iter_mut().zip(other) {
+                        let wider = match (&q.estimate, &o.estimate) {
+                            (Some(a), Some(b)) => b.relative_uncertainty > a.relative_uncertainty,
+                            (None, Some(_)) => true,
+                            _ => false,
+                        };
+                        if wider {
+                            *q = o;
+                        }
+                    }
+                    grids = vec![coarse_cells, second_cells, cells];
+                }
+            }
             fine.uncertainty = Some(Uncertainty {
                 kind: study::Kind::Cheap,
-                grids: vec![coarse_cells, cells],
                 placement: format!(
-                    "the coarser grid is shifted by ({:.3}, {:.3}) of a cell against the fine one",
+                    "the coarser grid{} shifted by ({:.3}, {:.3}) of a cell against the fine one",
+                    if grids.len() > 2 { "s are" } else { " is" },
                     study::CHEAP_OFFSET[0],
                     study::CHEAP_OFFSET[1]
                 ),
-                quantities: estimates(&runs),
+                grids,
+                quantities,
                 images: Vec::new(),
                 image_size: [0, 0],
                 formal_order: formal_order(&fine),
