@@ -163,30 +163,27 @@ const ALIGNED_COS: f32 = 1.0 - 1e-6;
 /// aligned-wall term, for fields that vanish linearly at the walls (ũ and the smooth part w of
 /// an enriched solution).
 pub fn flow_weights(c: &Classified, num: &Numbering) -> Vec<f64> {
-    let h2 = c.grid.h * c.grid.h;
-    num.nodes()
-        .map(|k| {
-            let mut a = 4.0;
-            for cut in c.cuts_of(k) {
-                a -= 1.0 - cut.theta;
-                if cut.cos >= ALIGNED_COS {
-                    a += (cut.theta - 0.5).powi(2) / cut.theta;
-                }
-            }
-            0.25 * h2 * a
-        })
-        .collect()
+    cut_cell_weights(c, num, true)
 }
 
 /// Weights of the cut-cell quadrature of [`flow_integral`] without its h²A/24 term (that term
 /// belongs to −∇²ũ = 1 only): node i gets h²·(a_E + a_W + a_N + a_S)/4.
 pub fn quadrature_weights(c: &Classified, num: &Numbering) -> Vec<f64> {
+    cut_cell_weights(c, num, false)
+}
+
+/// h²·(a_E + a_W + a_N + a_S)/4 per unknown, a = θ on a cut link, with the aligned-wall term
+/// (θ − ½)²/θ of [`flow_integral`] where `aligned`.
+fn cut_cell_weights(c: &Classified, num: &Numbering, aligned: bool) -> Vec<f64> {
     let h2 = c.grid.h * c.grid.h;
     num.nodes()
         .map(|k| {
             let mut a = 4.0;
             for cut in c.cuts_of(k) {
                 a -= 1.0 - cut.theta;
+                if aligned && cut.cos >= ALIGNED_COS {
+                    a += (cut.theta - 0.5).powi(2) / cut.theta;
+                }
             }
             0.25 * h2 * a
         })

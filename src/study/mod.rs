@@ -637,6 +637,14 @@ mod tests {
         hs.iter().map(|&h| Sample { h, value: f(h) }).collect()
     }
 
+    /// Samples of the given values on grids of the given spacings.
+    fn given(hs: &[f64], vals: &[f64]) -> Vec<Sample> {
+        hs.iter()
+            .zip(vals)
+            .map(|(&h, &value)| Sample { h, value })
+            .collect()
+    }
+
     fn rel(a: f64, b: f64) -> f64 {
         ((a - b) / b).abs()
     }
@@ -714,11 +722,7 @@ mod tests {
         // and the coarsest give 3·|φ₃ − φ₁|/(2.25² − 1) ≈ 2.9e-4.
         let hs = [0.0225, 0.015, 0.01];
         let vals = [1.0 + 4e-4, 1.0 + 1.0e-5 + 1e-9, 1.0 + 1.0e-5];
-        let s: Vec<Sample> = hs
-            .iter()
-            .zip(vals)
-            .map(|(&h, value)| Sample { h, value })
-            .collect();
+        let s = given(&hs, &vals);
         let e = estimate(&s).unwrap();
         assert!(e.observed_order.unwrap() > LUCKY_ORDER_FACTOR * FORMAL_ORDER);
         let wide = 3.0 * (4e-4 - 1.0e-5) / (1.0 + 1.0e-5) / (2.25f64.powi(2) - 1.0);
@@ -737,11 +741,7 @@ mod tests {
         // is 1.5·range (Stern et al. 2001 half-range with F_s = 3), the value not extrapolated.
         let hs = [0.04, 0.02, 0.01];
         let vals = [16.0 + 0.0016, 16.0 - 0.0004, 16.0 + 0.0001];
-        let s: Vec<Sample> = hs
-            .iter()
-            .zip(vals)
-            .map(|(&h, value)| Sample { h, value })
-            .collect();
+        let s = given(&hs, &vals);
         let e = estimate(&s).unwrap();
         assert_eq!(e.behaviour, Behaviour::Oscillatory);
         assert_eq!(e.observed_order, None);
