@@ -390,6 +390,18 @@ pub fn cheap_cells(cells: usize) -> usize {
 /// 1.2e-5 and 9.0e-6.
 pub const CHEAP_SECOND_RATIO: f64 = 1.4;
 
+/// Figure by figure, the estimate of `a` or `b` with the wider bound (an estimate over none).
+pub fn wider_of(a: Vec<Quantity>, b: Vec<Quantity>) -> Vec<Quantity> {
+    a.into_iter()
+        .zip(b)
+        .map(|(p, q)| match (&p.estimate, &q.estimate) {
+            (Some(x), Some(y)) if y.relative_uncertainty > x.relative_uncertainty => q,
+            (None, Some(_)) => q,
+            _ => p,
+        })
+        .collect()
+}
+
 /// Cells across of the cheap estimate's second coarser grid ([`CHEAP_SECOND_RATIO`]).
 pub fn cheap_second_cells(cells: usize) -> usize {
     (cells as f64 / CHEAP_SECOND_RATIO).round() as usize

@@ -160,8 +160,9 @@ faces), which cannot be refined or coarsened without changing the geometry itsel
 
 /// The cheap estimate: one coarser grid (cells / [`study::CHEAP_RATIO`], at another offset), the
 /// formal order assumed and safety factor 3; with treated re-entrant corners a second one
-/// (cells / [`study::CHEAP_SECOND_RATIO`]) and the wider bound of the two for each figure. A coarse solve that fails leaves the fine result
-/// as it is, with the estimate marked not available and a warning.
+/// (cells / [`study::CHEAP_SECOND_RATIO`]) and the wider bound of the two for each figure. A
+/// coarse solve that fails leaves the fine result as it is, with the estimate marked not
+/// available and a warning.
 pub(crate) fn with_cheap_estimate(
     config: &SolveConfig,
     mut fine: Outcome,
@@ -209,16 +210,7 @@ pub(crate) fn with_cheap_estimate(
                         (c2.unit.classified.grid.h, study_quantities(&c2)),
                         fine_values,
                     ]);
-                    for (q, o) in quantities.iter_mut().zip(other) {
-                        let wider = match (&q.estimate, &o.estimate) {
-                            (Some(a), Some(b)) => b.relative_uncertainty > a.relative_uncertainty,
-                            (None, Some(_)) => true,
-                            _ => false,
-                        };
-                        if wider {
-                            *q = o;
-                        }
-                    }
+                    quantities = study::wider_of(quantities, other);
                     grids = vec![coarse_cells, second_cells, cells];
                 }
             }
