@@ -42,11 +42,12 @@
 //! a·S(ω) + a₂·S₂(ω) + terms of order r² (the source 1 becomes |dz/dω|² = 1 + O(ρ) in ω), so
 //! the treatment keeps its order. Measured on a keyhole of our own (a bore of radius 1 mm
 //! and a slot 0.8 mm wide, two 246° corners between a line and an arc), relative errors at
-//! 300 / 600 cells against a 1697/2400/3394-cell extrapolation: f·Re 4.5e-6 / 5.5e-7, Nu_H1
-//! 6.7e-5 / 1.7e-5, Nu_T 7.4e-5 / 1.9e-5 (order 2.0; the bore is 300 cells across at the
+//! 300 / 600 cells against a 1697/2400/3394-cell extrapolation: f·Re 4.7e-6 / 7.1e-7, Nu_H1
+//! 6.8e-5 / 1.7e-5, Nu_T 7.4e-5 / 1.9e-5 (order 2.0; the bore is 300 cells across at the
 //! default, where a round tube alone is 1.1e-5 and 1.4e-5 off in the Nu), force balance 3.9e-6;
-//! untreated (before) f·Re was 3.5e-5 off and the force balance 1.8e-3. Walls that are neither
-//! lines nor arcs (an ellipse's) are not treated.
+//! untreated (before) f·Re was 3.5e-5 off and the force balance 1.8e-3. Two overlapping bores
+//! (two 292° corners between arcs): f·Re 1.9e-6 off at 600 cells, 6.8e-4 untreated. Walls that
+//! are neither lines nor arcs (an ellipse's) are not treated.
 //!
 //! # Measured (2026-12-05, ninth session)
 //! References: canalis with the treatment at 1697, 2400 and 3394 cells, extrapolated
