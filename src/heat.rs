@@ -136,10 +136,7 @@ fn solve_enriched(
 ) -> Result<()> {
     let c = system.problem().classified;
     let weights = quadrature_weights(c, system.numbering());
-    let mut e = Enrichment {
-        corners: corners.corners.clone(),
-        a: vec![0.0; corners.corners.len()],
-    };
+    let mut e = corners.zeroed();
     e.a = e.extract_with_source(c, system.numbering(), x, source, &weights);
     for _ in 0..ENRICHED_PASSES {
         let extra = e.source(c, system.numbering());

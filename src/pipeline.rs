@@ -172,10 +172,7 @@ fn solve_unit_on_worker(
         // coefficients; each pass solves for w (with the wall correction of w) from the
         // last u.
         let weights = post::quadrature_weights(&classified, system.numbering());
-        let mut e = singular::Enrichment {
-            a: vec![0.0; treatable.len()],
-            corners: treatable,
-        };
+        let mut e = singular::Enrichment::new(treatable);
         e.a = e.extract(&classified, system.numbering(), &u, &weights);
         for _ in 0..ENRICHMENT_PASSES {
             let source: Vec<f64> = e

@@ -95,6 +95,8 @@ use crate::geometry::Point;
 use crate::grid::Classified;
 use crate::problem::Numbering;
 use nalgebra::Complex;
+use std::borrow::Cow;
+use std::sync::OnceLock;
 
 /// Panels halving towards a curved corner in [`Singular::mapped_integral`]: the last one ends
 /// at r₀/2⁴⁸, whose disc adds under 1e-28 of r₀² to the integrals.
@@ -458,6 +460,17 @@ impl Singular {
         cutoff(r, self.r0, self.r1).0 * r.powf(l) * (l * t).sin()
     }
 
+    /// χ·s⁻ = χ(r)·r^(−λ)·sin(λθ) at `p`, None outside the region r < r₁ of the sector and at
+    /// the corner itself (the points the extraction with a source reads).
+    fn dual(&self, p: Point) -> Option<f64> {
+        let (r, t, _) = self.mapped(p);
+        if r >= self.r1 || r <= 0.0 || !(0.0..=self.corner.angle).contains(&t) {
+            return None;
+        }
+        let l = self.lambda;
+        Some(cutoff(r, self.r0, self.r1).0 * r.powf(-l) * (l * t).sin())
+    }
+
     /// ∆(χ·S) = sin(λθ)·r^λ·(χ″ + (1 + 2λ)·χ′/r): zero where χ = 1 (S is harmonic there). On
     /// a curved corner the same in ω, times |ω′(z)|².
     pub fn laplacian(&self, p: Point) -> f64 {
@@ -520,9 +533,74 @@ pub struct Enrichment {
     pub corners: Vec<Singular>,
     /// a_c of each corner (unit problem, m^(2 − λ)).
     pub a: Vec<f64>,
+    /// The singular functions at the unknowns near each corner, evaluated once for the grid the
+    /// enrichment is used on ([`Enrichment::table`]).
+    table: OnceLock<Vec<Table>>,
+}
+
+/// One corner's singular function at the unknowns near it ([`Singular::unknowns_near`], in that
+/// order): (unknown, χS, ∆(χS), ∆(χs⁻), χs⁻ where the extraction with a source reads it), and
+/// ∫χs⁻ dA. Every pass of the fixed point, every extraction and the heat problems read these
+/// instead of the map's transcendental functions (a third of a default run on an L-shape).
+#[derive(Debug, Clone, PartialEq)]
+struct Table {
+    nodes: Vec<(usize, f64, f64, f64, Option<f64>)>,
+    dual_source_integral: f64,
+    /// The grid's spacing and unknown count: a table is only read on its own grid.
+    grid: (f64, usize),
 }
 
 impl Enrichment {
+    /// The enrichment of `corners`, all coefficients zero.
+    pub fn new(corners: Vec<Singular>) -> Enrichment {
+        Enrichment {
+            a: vec![0.0; corners.len()],
+            corners,
+            table: OnceLock::new(),
+        }
+    }
+
+    /// The same corners (and their table) with coefficients zero.
+    pub fn zeroed(&self) -> Enrichment {
+        Enrichment {
+            a: vec![0.0; self.corners.len()],
+            ..self.clone()
+        }
+    }
+
+    /// The corners' [`Table`]s on the grid of `c`: evaluated at the first call and kept; on any
+    /// other grid evaluated afresh (not kept).
+    fn table(&self, c: &Classified, num: &Numbering) -> Cow<'_, [Table]> {
+        let grid = (c.grid.h, num.len());
+        let build = || -> Vec<Table> {
+            self.corners
+                .iter()
+                .map(|s| Table {
+                    nodes: s
+                        .unknowns_near(c, num)
+                        .map(|(q, x)| {
+                            (
+                                q,
+                                s.function(x),
+                                s.laplacian(x),
+                                s.dual_laplacian(x),
+                                s.dual(x),
+                            )
+                        })
+                        .collect(),
+                    dual_source_integral: s.dual_source_integral(),
+                    grid,
+                })
+                .collect()
+        };
+        let kept = self.table.get_or_init(build);
+        if kept.iter().all(|k| k.grid == grid) {
+            Cow::Borrowed(kept)
+        } else {
+            Cow::Owned(build())
+        }
+    }
+
     /// The singular functions ([`Singular::harmonics`]) of the corners of `corners` that are
     /// treated on a grid of spacing `h` (D_h `dh`): re-entrant, both walls lines or circular
     /// arcs (S vanishes on them, [`wedge_pole`]), and a cut-off of at least
@@ -538,7 +616,7 @@ impl Enrichment {
 
     /// Σ_c a_c·χ_c·S_c at every unknown.
     pub fn values(&self, c: &Classified, num: &Numbering) -> Vec<f64> {
-        self.sum_at(c, num, |s, p| s.function(p))
+        self.sum_at(c, num, |n| n.1)
     }
 
     /// ∫u dA of the enriched solution u = Σ a·χ·S + w: the singular parts integrated exactly
@@ -566,7 +644,7 @@ impl Enrichment {
 
     /// Σ_c a_c·∆(χ_c·S_c) at every unknown.
     pub fn source(&self, c: &Classified, num: &Numbering) -> Vec<f64> {
-        self.sum_at(c, num, |s, p| s.laplacian(p))
+        self.sum_at(c, num, |n| n.2)
     }
 
     /// 1 + Σ_c a_c·∆(χ_c·S_c) at `p`: the source of the smooth part w of the flow.
@@ -595,30 +673,49 @@ impl Enrichment {
         source: &[f64],
         weights: &[f64],
     ) -> Vec<f64> {
+        let table = self.table(c, num);
         self.corners
             .iter()
-            .map(|s| coefficient_with_source(s, c, num, u, source, weights))
+            .zip(table.iter())
+            .map(|(s, t)| {
+                let mut sum = 0.0;
+                for &(q, _, _, dual_laplacian, dual) in &t.nodes {
+                    if let Some(dual) = dual {
+                        sum += weights[q] * (u[q] * dual_laplacian + dual * source[q]);
+                    }
+                }
+                sum / s.extraction_scale()
+            })
             .collect()
     }
 
     /// The coefficients extracted from `u` (the whole solution, singular part included).
     pub fn extract(&self, c: &Classified, num: &Numbering, u: &[f64], weights: &[f64]) -> Vec<f64> {
+        let table = self.table(c, num);
         self.corners
             .iter()
-            .map(|s| coefficient(s, c, num, u, weights))
+            .zip(table.iter())
+            .map(|(s, t)| {
+                let mut sum = 0.0;
+                for &(q, _, _, dual_laplacian, _) in &t.nodes {
+                    sum += weights[q] * u[q] * dual_laplacian;
+                }
+                (sum + t.dual_source_integral) / s.extraction_scale()
+            })
             .collect()
     }
 
+    /// Σ_c a_c·f(table entry) at every unknown.
     fn sum_at(
         &self,
         c: &Classified,
         num: &Numbering,
-        f: impl Fn(&Singular, Point) -> f64,
+        f: impl Fn(&(usize, f64, f64, f64, Option<f64>)) -> f64,
     ) -> Vec<f64> {
         let mut out = vec![0.0; num.len()];
-        for (s, a) in self.corners.iter().zip(&self.a) {
-            for (q, x) in s.unknowns_near(c, num) {
-                out[q] += a * f(s, x);
+        for (t, a) in self.table(c, num).iter().zip(&self.a) {
+            for n in &t.nodes {
+                out[n.0] += a * f(n);
             }
         }
         out
@@ -636,15 +733,11 @@ pub fn coefficient_with_source(
     source: &[f64],
     weights: &[f64],
 ) -> f64 {
-    let l = s.lambda;
     let mut sum = 0.0;
     for (q, x) in s.unknowns_near(c, num) {
-        let (r, t, _) = s.mapped(x);
-        if r >= s.r1 || r <= 0.0 || !(0.0..=s.corner.angle).contains(&t) {
-            continue;
+        if let Some(dual) = s.dual(x) {
+            sum += weights[q] * (u[q] * s.dual_laplacian(x) + dual * source[q]);
         }
-        let dual = cutoff(r, s.r0, s.r1).0 * r.powf(-l) * (l * t).sin();
-        sum += weights[q] * (u[q] * s.dual_laplacian(x) + dual * source[q]);
     }
     sum / s.extraction_scale()
 }
