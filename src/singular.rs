@@ -24,10 +24,10 @@
 //!     ∆(χs⁻) = sin(λθ)·r^(−λ)·( χ″ + (1 − 2λ)·χ′/r ),
 //! ```
 //!
-//! with χ(r) = 1 for r ≤ r₀, 0 for r ≥ r₁ and a degree-9 (C⁴) blend between ([`cutoff`]). The first integral
-//! only sees u in the annulus r₀ < r < r₁, away from the corner, where the discrete solution is
-//! smooth: the node sum with the cut-cell quadrature weights is second order there. The second
-//! is exact for f = 1 over the sector (a 1-D integral in r, Gauss–Legendre). Both need the
+//! with χ(r) = 1 for r ≤ r₀, 0 for r ≥ r₁ and a degree-9 (C⁴) blend between ([`cutoff`]).
+//! The first integral only sees u in the annulus r₀ < r < r₁, away from the corner, where
+//! the discrete solution is smooth: the node sum with the cut-cell quadrature weights is
+//! second order there. The second is exact for f = 1 over the sector (a 1-D integral in r, Gauss–Legendre). Both need the
 //! fluid within r₁ to be the corner's sector: r₁ is below the corner's clear radius
 //! ([`crate::geometry::corners::Corner::clear_radius`]).
 //!
@@ -522,12 +522,12 @@ pub const MIN_CUTOFF_CELLS: f64 = 8.0;
 /// ```
 ///
 /// S_c = r^λ·sin(λθ) vanishing on both walls of corner c (lines, or arcs through the map of
-/// [`wedge_pole`]), so w keeps u's wall condition; w lacks the r^λ term and the cut-cell scheme solves it at second order instead
-/// of h^(2λ). The a_c are found with the solve by a fixed point: a from the extraction
-/// ([`coefficient`]) of the current u, w solved for that a, until a settles. A wrong a is
-/// not an inconsistent u (w makes up for it); it only leaves part of the singular term in w,
-/// so the iteration converges at once in practice (the change of a falls like h^(2λ) per
-/// step) and the figures depend little on its last digits.
+/// [`wedge_pole`]), so w keeps u's wall condition; w lacks the r^λ term and the cut-cell
+/// scheme solves it at second order instead of h^(2λ). The a_c are found with the solve by a
+/// fixed point: a from the extraction ([`coefficient`]) of the current u, w solved for that
+/// a, until a settles. A wrong a is not an inconsistent u (w makes up for it); it only leaves
+/// part of the singular term in w, so the iteration converges at once in practice (the
+/// change of a falls like h^(2λ) per step) and the figures depend little on its last digits.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Enrichment {
     pub corners: Vec<Singular>,
