@@ -27,9 +27,9 @@
 //! with χ(r) = 1 for r ≤ r₀, 0 for r ≥ r₁ and a degree-9 (C⁴) blend between ([`cutoff`]).
 //! The first integral only sees u in the annulus r₀ < r < r₁, away from the corner, where
 //! the discrete solution is smooth: the node sum with the cut-cell quadrature weights is
-//! second order there. The second is exact for f = 1 over the sector (a 1-D integral in r, Gauss–Legendre). Both need the
-//! fluid within r₁ to be the corner's sector: r₁ is below the corner's clear radius
-//! ([`crate::geometry::corners::Corner::clear_radius`]).
+//! second order there. The second is exact for f = 1 over the sector (a 1-D integral in r,
+//! Gauss–Legendre). Both need the fluid within r₁ to be the corner's sector: r₁ is below the
+//! corner's clear radius ([`crate::geometry::corners::Corner::clear_radius`]).
 //!
 //! # Curved walls
 //! Where a wall is a circular arc, r^λ·sin(λθ) does not vanish on it. The Möbius map
