@@ -539,15 +539,29 @@ pub struct Enrichment {
 }
 
 /// One corner's singular function at the unknowns near it ([`Singular::unknowns_near`], in that
-/// order): (unknown, χS, ∆(χS), ∆(χs⁻), χs⁻ where the extraction with a source reads it), and
-/// ∫χs⁻ dA. Every pass of the fixed point, every extraction and the heat problems read these
+/// order), and ∫χs⁻ dA. Every pass of the fixed point, every extraction and the heat problems read these
 /// instead of the map's transcendental functions (a third of a default run on an L-shape).
 #[derive(Debug, Clone, PartialEq)]
 struct Table {
-    nodes: Vec<(usize, f64, f64, f64, Option<f64>)>,
+    nodes: Vec<Near>,
     dual_source_integral: f64,
     /// The grid's spacing and unknown count: a table is only read on its own grid.
     grid: (f64, usize),
+}
+
+/// A corner's singular function at one unknown near it.
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct Near {
+    unknown: usize,
+    /// χS.
+    value: f64,
+    /// ∆(χS).
+    laplacian: f64,
+    /// ∆(χs⁻).
+    dual_laplacian: f64,
+    /// χs⁻ where the extraction with a source reads it (inside r₁ and the sector, off the
+    /// corner itself).
+    dual: Option<f64>,
 }
 
 impl Enrichment {
@@ -578,14 +592,12 @@ impl Enrichment {
                 .map(|s| Table {
                     nodes: s
                         .unknowns_near(c, num)
-                        .map(|(q, x)| {
-                            (
-                                q,
-                                s.function(x),
-                                s.laplacian(x),
-                                s.dual_laplacian(x),
-                                s.dual(x),
-                            )
+                        .map(|(unknown, x)| Near {
+                            unknown,
+                            value: s.function(x),
+                            laplacian: s.laplacian(x),
+                            dual_laplacian: s.dual_laplacian(x),
+                            dual: s.dual(x),
                         })
                         .collect(),
                     dual_source_integral: s.dual_source_integral(),
@@ -616,7 +628,7 @@ impl Enrichment {
 
     /// Σ_c a_c·χ_c·S_c at every unknown.
     pub fn values(&self, c: &Classified, num: &Numbering) -> Vec<f64> {
-        self.sum_at(c, num, |n| n.1)
+        self.sum_at(c, num, |n| n.value)
     }
 
     /// ∫u dA of the enriched solution u = Σ a·χ·S + w: the singular parts integrated exactly
@@ -644,7 +656,7 @@ impl Enrichment {
 
     /// Σ_c a_c·∆(χ_c·S_c) at every unknown.
     pub fn source(&self, c: &Classified, num: &Numbering) -> Vec<f64> {
-        self.sum_at(c, num, |n| n.2)
+        self.sum_at(c, num, |n| n.laplacian)
     }
 
     /// 1 + Σ_c a_c·∆(χ_c·S_c) at `p`: the source of the smooth part w of the flow.
@@ -663,8 +675,9 @@ impl Enrichment {
         g
     }
 
-    /// The coefficients extracted from `u`, the solution of −∇²u = f with f per unknown
-    /// ([`coefficient_with_source`]).
+    /// The coefficients extracted from `u`, the solution of −∇²u = f with f given per unknown
+    /// (`source`, bounded near the corner): as [`coefficient`], with ∫χ·s⁻·f dA by the cut-cell
+    /// quadrature (its integrand is bounded where f vanishes like r^λ or less: second order).
     pub fn extract_with_source(
         &self,
         c: &Classified,
@@ -679,9 +692,10 @@ impl Enrichment {
             .zip(table.iter())
             .map(|(s, t)| {
                 let mut sum = 0.0;
-                for &(q, _, _, dual_laplacian, dual) in &t.nodes {
-                    if let Some(dual) = dual {
-                        sum += weights[q] * (u[q] * dual_laplacian + dual * source[q]);
+                for n in &t.nodes {
+                    if let Some(dual) = n.dual {
+                        let q = n.unknown;
+                        sum += weights[q] * (u[q] * n.dual_laplacian + dual * source[q]);
                     }
                 }
                 sum / s.extraction_scale()
@@ -697,8 +711,8 @@ impl Enrichment {
             .zip(table.iter())
             .map(|(s, t)| {
                 let mut sum = 0.0;
-                for &(q, _, _, dual_laplacian, _) in &t.nodes {
-                    sum += weights[q] * u[q] * dual_laplacian;
+                for n in &t.nodes {
+                    sum += weights[n.unknown] * u[n.unknown] * n.dual_laplacian;
                 }
                 (sum + t.dual_source_integral) / s.extraction_scale()
             })
@@ -706,40 +720,15 @@ impl Enrichment {
     }
 
     /// Σ_c a_c·f(table entry) at every unknown.
-    fn sum_at(
-        &self,
-        c: &Classified,
-        num: &Numbering,
-        f: impl Fn(&(usize, f64, f64, f64, Option<f64>)) -> f64,
-    ) -> Vec<f64> {
+    fn sum_at(&self, c: &Classified, num: &Numbering, f: impl Fn(&Near) -> f64) -> Vec<f64> {
         let mut out = vec![0.0; num.len()];
         for (t, a) in self.table(c, num).iter().zip(&self.a) {
             for n in &t.nodes {
-                out[n.0] += a * f(n);
+                out[n.unknown] += a * f(n);
             }
         }
         out
     }
-}
-
-/// The coefficient a of u ≈ a·r^λ·sin(λθ) at `s` for −∇²u = f with f given per unknown
-/// (`source`, bounded near the corner): as [`coefficient`], with ∫χ·s⁻·f dA by the cut-cell
-/// quadrature (its integrand is bounded where f vanishes like r^λ or less: second order).
-pub fn coefficient_with_source(
-    s: &Singular,
-    c: &Classified,
-    num: &Numbering,
-    u: &[f64],
-    source: &[f64],
-    weights: &[f64],
-) -> f64 {
-    let mut sum = 0.0;
-    for (q, x) in s.unknowns_near(c, num) {
-        if let Some(dual) = s.dual(x) {
-            sum += weights[q] * (u[q] * s.dual_laplacian(x) + dual * source[q]);
-        }
-    }
-    sum / s.extraction_scale()
 }
 
 /// The coefficient a of u ≈ a·r^λ·sin(λθ) at `s`, from the discrete solution `u` of
